@@ -1,0 +1,64 @@
+// The analysis of a chain as written: every stage alone (driving its actual load) and every
+// output node of the cascade, in the metrics of DESIGN.md section 5.
+#pragma once
+
+#include <complex>
+#include <optional>
+#include <vector>
+
+#include "models/chain.hpp"
+#include "models/frequency_response.hpp"
+#include "models/step_response.hpp"
+
+namespace peakplan {
+
+struct AnalysisOptions {
+  int points = 201;                      // samples of the reported frequency response
+  double ripple_band_hz = not_found;     // group-delay ripple band; NaN = up to the bandwidth
+  bool keep_waveforms = true;            // keep sampled responses and the step waveform
+};
+
+struct ResponseSummary {
+  FrequencyMetrics frequency;
+  StepMetrics step;
+  std::vector<std::complex<double>> poles;  // rad/s
+  std::vector<std::complex<double>> zeros;  // rad/s, finite zeros after pole-zero cancellation
+  SampledResponse sampled;                  // exact nodal solve on a log grid
+  StepResponse step_wave;
+};
+
+// How far a stage resolved from a closed-form design departs from what the design promises.
+struct DesignCheck {
+  std::string label;
+  double ideal_bandwidth_hz = not_found;
+  double ideal_peaking_db = 0.0;
+  double ideal_overshoot_pct = 0.0;
+  double bandwidth_departure = 0.0;       // actual / ideal - 1
+  double peaking_departure_db = 0.0;      // actual - ideal
+  double input_impedance_error = 0.0;     // max |Z_in/Rd - 1| of the load, DC .. 3x bandwidth
+};
+
+struct StageSummary {
+  int stage = 0;
+  ResponseSummary alone;
+  std::optional<DesignCheck> design_check;
+};
+
+struct OutputSummary {
+  int stage = 0;  // the stage whose output node this is
+  ResponseSummary response;
+};
+
+struct ChainAnalysis {
+  std::vector<StageSummary> stages;   // file order
+  std::vector<OutputSummary> outputs; // main output last
+};
+
+ResponseSummary summarise(const Cascade& cascade, const std::vector<const NodalSystem*>& exact,
+                          const AnalysisOptions& options);
+ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options = {});
+
+// Max |Z_in / Rd - 1| of a stage's load seen from the drain without c_out, up to f_max.
+double input_impedance_error(const StageCircuit& stage, double f_max_hz);
+
+}  // namespace peakplan

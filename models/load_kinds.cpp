@@ -1,0 +1,40 @@
+#include "models/load_kinds.hpp"
+
+#include <array>
+#include <stdexcept>
+
+namespace peakplan {
+namespace {
+
+const std::array<const LoadKindInfo*, 4> kKinds{&plain_load, &shunt_load, &series_load,
+                                                &tcoil_load};
+
+}  // namespace
+
+const LoadKindInfo& load_kind_info(LoadKind kind) {
+  for (const auto* info : kKinds)
+    if (info->kind == kind) return *info;
+  throw std::logic_error("load kind missing from the table");
+}
+
+std::span<const LoadKindInfo> all_load_kinds() {
+  static const std::array<LoadKindInfo, 4> copy{plain_load, shunt_load, series_load, tcoil_load};
+  return copy;
+}
+
+std::optional<LoadKind> load_kind_from_name(std::string_view name) {
+  for (const auto* info : kKinds)
+    if (info->name == name) return info->kind;
+  return std::nullopt;
+}
+
+std::string_view to_string(LoadKind kind) { return load_kind_info(kind).name; }
+
+NodalSystem build_stage_system(const StageCircuit& stage) {
+  NodalSystem system;
+  const int out = load_kind_info(stage.kind).stamp(stage, system);
+  system.set_output(out);
+  return system;
+}
+
+}  // namespace peakplan

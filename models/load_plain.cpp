@@ -1,0 +1,30 @@
+// plain: a resistor load.
+//
+//            supply (AC ground)
+//               |
+//               Rd
+//               |
+//   gm*v_in <---+--- out (= drain) ---+--------+
+//                                     |        |
+//                          C = c_out + c_node  r_load
+//
+// H(s) = -gm * R / (1 + s*R*C), R = Rd || r_load: one real pole at 1/(R*C).
+#include "models/load_kinds.hpp"
+
+namespace peakplan {
+namespace {
+
+int stamp_plain(const StageCircuit& s, NodalSystem& sys) {
+  const int drain = sys.add_node("drain");
+  sys.add_gm_drive(drain, s.gm);
+  sys.add_resistor(drain, NodalSystem::ground, s.rd);
+  sys.add_capacitor(drain, NodalSystem::ground, s.c_out + s.c_node);
+  sys.add_resistor(drain, NodalSystem::ground, s.r_load);
+  return drain;
+}
+
+}  // namespace
+
+const LoadKindInfo plain_load{LoadKind::plain, "plain", "resistor load Rd", {}, stamp_plain};
+
+}  // namespace peakplan

@@ -1,0 +1,234 @@
+#include "models/nodal_system.hpp"
+
+#include <cmath>
+#include <limits>
+#include <numbers>
+#include <stdexcept>
+
+namespace peakplan {
+namespace {
+
+constexpr double kScale = 1.0 / NodalSystem::time_scale;  // F -> pF, H -> pH
+
+bool absent_resistor(double ohms) { return !std::isfinite(ohms) || ohms <= 0.0; }
+
+}  // namespace
+
+int NodalSystem::add_node(std::string name) {
+  node_names_.push_back(std::move(name));
+  return node_count() - 1;
+}
+
+void NodalSystem::stamp(std::vector<Entry>& into, int a, int b, double value) {
+  if (a != ground) into.push_back({a, a, value});
+  if (b != ground) into.push_back({b, b, value});
+  if (a != ground && b != ground) {
+    into.push_back({a, b, -value});
+    into.push_back({b, a, -value});
+  }
+}
+
+void NodalSystem::add_resistor(int a, int b, double ohms) {
+  if (absent_resistor(ohms)) return;
+  add_conductance(a, b, 1.0 / ohms);
+}
+
+void NodalSystem::add_conductance(int a, int b, double siemens) {
+  if (siemens != 0.0) stamp(g_entries_, a, b, siemens);
+}
+
+void NodalSystem::add_capacitor(int a, int b, double farads) {
+  if (farads != 0.0) stamp(c_entries_, a, b, farads * kScale);
+}
+
+int NodalSystem::add_inductor(int a, int b, double henries, double series_ohms) {
+  inductors_.push_back({a, b, branches_, henries * kScale, series_ohms});
+  return branches_++;
+}
+
+void NodalSystem::add_mutual(int branch1, int branch2, double henries) {
+  if (henries != 0.0) mutuals_.emplace_back(branch1, branch2, henries * kScale);
+}
+
+void NodalSystem::add_gm_drive(int node, double siemens) { drive_.emplace_back(node, -siemens); }
+
+void NodalSystem::add_source(int node, double ohms) {
+  if (absent_resistor(ohms))
+    throw std::logic_error("add_source needs a finite positive source resistance");
+  add_resistor(node, ground, ohms);
+  drive_.emplace_back(node, 1.0 / ohms);
+}
+
+void NodalSystem::set_output(int node) { output_ = node; }
+
+int NodalSystem::size() const { return node_count() + branches_; }
+
+Eigen::MatrixXd NodalSystem::G() const {
+  const int n = node_count();
+  Eigen::MatrixXd g = Eigen::MatrixXd::Zero(size(), size());
+  for (const auto& e : g_entries_) g(e.row, e.col) += e.value;
+  // Branch rows: -(v_a - v_b) + r*i = -s*L*i - s*M*i_other, i.e. the coil's own terms go in C.
+  for (const auto& l : inductors_) {
+    const int k = n + l.branch;
+    if (l.a != ground) {
+      g(l.a, k) += 1.0;
+      g(k, l.a) -= 1.0;
+    }
+    if (l.b != ground) {
+      g(l.b, k) -= 1.0;
+      g(k, l.b) += 1.0;
+    }
+    g(k, k) += l.r;
+  }
+  return g;
+}
+
+Eigen::MatrixXd NodalSystem::C() const {
+  const int n = node_count();
+  Eigen::MatrixXd c = Eigen::MatrixXd::Zero(size(), size());
+  for (const auto& e : c_entries_) c(e.row, e.col) += e.value;
+  for (const auto& l : inductors_) c(n + l.branch, n + l.branch) += l.l_scaled;
+  for (const auto& [b1, b2, m] : mutuals_) {
+    c(n + b1, n + b2) += m;
+    c(n + b2, n + b1) += m;
+  }
+  return c;
+}
+
+Eigen::VectorXd NodalSystem::b() const {
+  Eigen::VectorXd rhs = Eigen::VectorXd::Zero(size());
+  for (const auto& [node, value] : drive_) rhs(node) += value;
+  return rhs;
+}
+
+Eigen::MatrixXcd NodalSystem::matrix_at(std::complex<double> s_scaled) const {
+  return G().cast<std::complex<double>>() + s_scaled * C().cast<std::complex<double>>();
+}
+
+std::complex<double> NodalSystem::transfer(std::complex<double> s) const {
+  return transfer_and_derivative(s).first;
+}
+
+std::pair<std::complex<double>, std::complex<double>> NodalSystem::transfer_and_derivative(
+    std::complex<double> s) const {
+  if (output_ == ground) throw std::logic_error("NodalSystem: no output node set");
+  const Eigen::MatrixXcd c = C().cast<std::complex<double>>();
+  const Eigen::MatrixXcd y = G().cast<std::complex<double>>() + (s * time_scale) * c;
+  const Eigen::PartialPivLU<Eigen::MatrixXcd> lu(y);
+  const Eigen::VectorXcd x = lu.solve(b().cast<std::complex<double>>());
+  const Eigen::VectorXcd dx = -lu.solve(c * x);  // per scaled s
+  return {x(output_), dx(output_) * time_scale};
+}
+
+std::complex<double> NodalSystem::impedance(int node, std::complex<double> s) const {
+  Eigen::VectorXcd rhs = Eigen::VectorXcd::Zero(size());
+  rhs(node) = 1.0;
+  const Eigen::PartialPivLU<Eigen::MatrixXcd> lu(matrix_at(s * time_scale));
+  return lu.solve(rhs)(node);
+}
+
+double NodalSystem::characteristic_rate() const { return 0.1; }
+
+Rational NodalSystem::rational() const {
+  if (output_ == ground) throw std::logic_error("NodalSystem: no output node set");
+  const int n = size();
+  int samples = 8;
+  while (samples < n + 2) samples *= 2;
+
+  const Eigen::MatrixXcd g = G().cast<std::complex<double>>();
+  const Eigen::MatrixXcd c = C().cast<std::complex<double>>();
+  const Eigen::VectorXcd rhs = b().cast<std::complex<double>>();
+
+  // Interpolates p(rho*z) on the unit circle; returns coefficients of powers of (rho*z).
+  auto interpolate = [&](double rho, std::vector<double>& num, std::vector<double>& den) {
+    std::vector<std::complex<double>> d_samples(samples), n_samples(samples);
+    for (int j = 0; j < samples; ++j) {
+      const auto z = std::polar(1.0, 2.0 * std::numbers::pi * j / samples);
+      const Eigen::PartialPivLU<Eigen::MatrixXcd> lu(g + (rho * z) * c);
+      const auto det = lu.determinant();
+      d_samples[j] = det;
+      n_samples[j] = det * lu.solve(rhs)(output_);
+    }
+    num.assign(samples, 0.0);
+    den.assign(samples, 0.0);
+    for (int k = 0; k < samples; ++k) {
+      std::complex<double> dn = 0, nn = 0;
+      for (int j = 0; j < samples; ++j) {
+        const auto w = std::polar(1.0, -2.0 * std::numbers::pi * j * k / samples);
+        dn += d_samples[j] * w;
+        nn += n_samples[j] * w;
+      }
+      den[k] = dn.real() / samples;
+      num[k] = nn.real() / samples;
+    }
+  };
+
+  auto trim = [](std::vector<double>& p, double floor) {
+    for (auto& a : p)
+      if (std::fabs(a) < floor) a = 0.0;
+    while (p.size() > 1 && p.back() == 0.0) p.pop_back();
+  };
+
+  // Root magnitudes set the radius; a circle near them keeps every coefficient significant.
+  double rho = characteristic_rate();
+  std::vector<double> num, den;
+  for (int pass = 0; pass < 3; ++pass) {
+    interpolate(rho, num, den);
+    double biggest = 0.0;
+    for (double a : den) biggest = std::max(biggest, std::fabs(a));
+    if (biggest == 0.0) throw std::logic_error("NodalSystem: singular circuit");
+    trim(den, 1e-10 * biggest);
+    const int order = static_cast<int>(den.size()) - 1;
+    if (order == 0 || den[0] == 0.0) break;
+    const double mean_root = rho * std::pow(std::fabs(den[0] / den[order]), 1.0 / order);
+    if (mean_root > rho / 2 && mean_root < rho * 2) break;
+    rho = mean_root;
+  }
+  double biggest = 0.0;
+  for (double a : den) biggest = std::max(biggest, std::fabs(a));
+  trim(num, 1e-10 * biggest);
+  for (auto& a : num) a /= biggest;
+  for (auto& a : den) a /= biggest;
+  // Undo the radius: coefficient of s_hat^k is (coefficient of (rho z)^k) / rho^k.
+  for (size_t k = 0; k < den.size(); ++k) den[k] /= std::pow(rho, static_cast<double>(k));
+  for (size_t k = 0; k < num.size(); ++k) num[k] /= std::pow(rho, static_cast<double>(k));
+
+  const bool all_zero = num.size() == 1 && num[0] == 0.0;
+  if (all_zero || num.size() == 1 || den.size() == 1) return Rational(num, den, time_scale);
+
+  // Remove pole-zero pairs that cancel (the ideal T-coil's q(s) appears in both N and det Y;
+  // at critical damping det Y has a fourfold root, which no root finder resolves better than
+  // about 1e-4). Candidates are matched loosely, divided out of both polynomials, and kept only
+  // if the reduced function reproduces the original at test points.
+  const Rational original(num, den, time_scale);
+  auto reproduces = [&](const std::vector<double>& n2, const std::vector<double>& d2) {
+    const Rational reduced(n2, d2, time_scale);
+    for (double radius : {0.3, 1.0, 3.0})
+      for (double angle : {0.0, 0.7, 1.4, 1.5707963, 2.2}) {
+        const auto s = std::polar(radius * rho, angle) / time_scale;
+        const auto h = original.evaluate(s);
+        if (std::abs(reduced.evaluate(s) / h - 1.0) > 1e-7) return false;
+      }
+    return true;
+  };
+  auto zeros = polynomial_roots(num);
+  const auto poles = polynomial_roots(den);
+  for (const auto& z : zeros) {
+    if (z.imag() < 0.0) continue;  // handled with its conjugate
+    double nearest = std::numeric_limits<double>::infinity();
+    for (const auto& p : poles) nearest = std::min(nearest, std::abs(p - z));
+    if (nearest > 1e-2 * (std::abs(z) + rho)) continue;
+    const std::vector<double> factor =
+        z.imag() == 0.0 ? std::vector<double>{-z.real(), 1.0}
+                        : std::vector<double>{std::norm(z), -2.0 * z.real(), 1.0};
+    auto n2 = polynomial_quotient(num, factor);
+    auto d2 = polynomial_quotient(den, factor);
+    if (reproduces(n2, d2)) {
+      num = std::move(n2);
+      den = std::move(d2);
+    }
+  }
+  return Rational(num, den, time_scale);
+}
+
+}  // namespace peakplan

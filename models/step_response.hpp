@@ -1,0 +1,69 @@
+// Time responses by exact discretisation of a state-space realisation.
+//
+// Each block of a cascade is realised in controllable canonical form (time in picoseconds) and
+// the blocks are connected in series. For an input that is constant over each time step, the
+// matrix exponential of [[A, B], [0, 0]]*dt gives x[k+1] = Phi x[k] + Gamma u[k] with no
+// integration error. Poles and residues are avoided on purpose: an ideal T-coil's double pole
+// makes its eigenvector matrix nearly singular.
+#pragma once
+
+#include <Eigen/Dense>
+#include <vector>
+
+#include "models/rational.hpp"
+
+namespace peakplan {
+
+struct StateSpace {
+  Eigen::MatrixXd a;
+  Eigen::VectorXd b;
+  Eigen::RowVectorXd c;
+  double d = 0.0;
+  double time_scale = 1e-12;  // seconds per unit of the model's time
+  int order() const { return static_cast<int>(a.rows()); }
+};
+
+// Throws std::logic_error for an improper block (more zeros than poles).
+StateSpace realise(const Cascade& cascade);
+
+// Exact response to inputs held constant over steps of dt seconds.
+class SteppedSimulator {
+ public:
+  SteppedSimulator(StateSpace model, double dt);
+  double dt() const { return dt_; }
+  // y[k] = output at t = k*dt for input u[k] held over [k*dt, (k+1)*dt); starts at rest.
+  std::vector<double> run(const std::vector<double>& u) const;
+  // The response to a unit step at t = 0, for `points` samples.
+  std::vector<double> step(int points) const;
+
+ private:
+  StateSpace model_;
+  double dt_;
+  Eigen::MatrixXd phi_;
+  Eigen::VectorXd gamma_;
+};
+
+struct StepResponse {
+  double dt = 0.0;
+  std::vector<double> y;  // divided by the DC gain: settles at 1
+  double time(size_t k) const { return dt * static_cast<double>(k); }
+};
+
+struct StepMetrics {
+  double overshoot_pct = 0.0;
+  double rise_time_s = 0.0;      // first 10 % to first 90 % crossing
+  double settling_time_s = 0.0;  // last time outside 1 +/- 1 %
+};
+
+// A duration that covers the slowest pole's decay and the delay, and a step fine enough
+// for the rise: chosen from the cascade's poles and its bandwidth.
+struct TimeAxis {
+  double dt;
+  int points;
+};
+TimeAxis choose_time_axis(const Cascade& cascade, double bandwidth_hz);
+
+StepResponse step_response(const Cascade& cascade, const TimeAxis& axis);
+StepMetrics step_metrics(const StepResponse& step);
+
+}  // namespace peakplan
