@@ -33,7 +33,7 @@ constexpr std::array kSpellings{
     UnitSpelling{"V/sqrtHz", Dimension::noise_density, true},
     UnitSpelling{"V", Dimension::voltage, true},
     UnitSpelling{"K", Dimension::temperature, false},
-    UnitSpelling{"dB", Dimension::voltage_ratio, false},
+    UnitSpelling{"dB", Dimension::decibels, false},
     UnitSpelling{"%", Dimension::fraction, false},
 };
 
@@ -86,7 +86,7 @@ std::string_view unit_symbol(Dimension d) {
     case Dimension::voltage: return "V";
     case Dimension::temperature: return "K";
     case Dimension::noise_density: return "V/rtHz";
-    case Dimension::voltage_ratio: return "dB";
+    case Dimension::decibels: return "dB";
     case Dimension::fraction: return "%";
     case Dimension::dimensionless: return "";
   }
@@ -105,7 +105,7 @@ std::string describe(Dimension d) {
     case Dimension::voltage: return "a voltage (V, e.g. \"400 mV\")";
     case Dimension::temperature: return "a temperature (K, e.g. 300)";
     case Dimension::noise_density: return "a noise density (V/rtHz, e.g. \"10 nV/rtHz\")";
-    case Dimension::voltage_ratio: return "a gain (dB, e.g. \"30 dB\", or a plain V/V ratio)";
+    case Dimension::decibels: return "a level in dB (e.g. \"30 dB\")";
     case Dimension::fraction: return "a fraction (e.g. \"5 %\" or 0.05)";
     case Dimension::dimensionless: return "a plain number";
   }
@@ -139,7 +139,7 @@ ParsedQuantity parse_quantity(std::string_view text, Dimension expected) {
     return {std::nullopt, "expected " + describe(expected) + ", saw \"" + std::string(text) +
                               "\", which is " + describe(dimension).substr(0, describe(dimension).find(" (")) };
   switch (dimension) {
-    case Dimension::voltage_ratio: return {from_db(number), {}};
+    case Dimension::decibels: return {number, {}};
     case Dimension::fraction: return {number / 100.0, {}};
     default: return {number * factor, {}};
   }

@@ -21,7 +21,7 @@ enum class Dimension {
   voltage,        // V
   temperature,    // K
   noise_density,  // V/rtHz
-  voltage_ratio,  // plain number = V/V; "30 dB" = 10^(30/20)
+  decibels,       // dB: "30 dB" or a plain number taken as dB
   fraction,       // plain number; "5 %" = 0.05
   dimensionless,  // plain number only
 };

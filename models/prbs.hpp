@@ -1,0 +1,50 @@
+// Pseudo-random binary sequences and the symbol levels they drive (DESIGN.md section 5).
+//
+// PRBSn is the maximal-length sequence of x^n + x^t + 1 from an n-bit register seeded with all
+// ones: each step computes b(n-1) XOR b(t-1), shifts it in at b0 and outputs it. Its period is
+// 2^n - 1 bits and it contains every n-bit word except all zeros once per period.
+#pragma once
+
+#include <cstdint>
+#include <optional>
+#include <string_view>
+#include <vector>
+
+namespace peakplan {
+
+enum class PrbsKind { prbs7, prbs9, prbs15, prbs23, prbs31 };
+
+struct PrbsPolynomial {
+  int order;  // n of x^n + x^t + 1
+  int tap;    // t
+};
+PrbsPolynomial prbs_polynomial(PrbsKind kind);
+// 2^n - 1.
+std::uint64_t prbs_period(PrbsKind kind);
+std::optional<PrbsKind> prbs_from_name(std::string_view name);
+std::string_view to_string(PrbsKind kind);
+
+class PrbsGenerator {
+ public:
+  explicit PrbsGenerator(PrbsKind kind);
+  int next();  // 0 or 1
+  std::uint32_t state() const { return state_; }
+
+ private:
+  std::uint32_t state_;
+  std::uint32_t mask_;
+  int high_, tap_;  // bit indices n-1 and t-1
+};
+
+// The first `count` bits of the sequence.
+std::vector<std::uint8_t> prbs_bits(PrbsKind kind, std::size_t count);
+
+// NRZ levels: bit 0 -> 0, bit 1 -> 1.
+std::vector<double> nrz_levels(const std::vector<std::uint8_t>& bits);
+// PAM4 levels from consecutive bit pairs (first bit most significant), Gray coded:
+// 00 -> 0, 01 -> 1/3, 11 -> 2/3, 10 -> 1. A trailing odd bit is dropped.
+std::vector<double> pam4_levels(const std::vector<std::uint8_t>& bits);
+// The Gray-coded PAM4 level index (0..3) of a bit pair.
+int pam4_gray_index(int first_bit, int second_bit);
+
+}  // namespace peakplan

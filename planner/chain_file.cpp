@@ -1,0 +1,533 @@
+#include "planner/chain_file.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <filesystem>
+#include <fstream>
+#include <set>
+#include <sstream>
+#include <toml++/toml.h>
+
+namespace peakplan {
+namespace {
+
+using Keys = std::vector<std::string_view>;
+
+const Keys kTopKeys{"chain", "input", "signal", "target", "limits", "technology", "stage"};
+const Keys kChainKeys{"name"};
+const Keys kInputKeys{"r_source", "noise_density"};
+const Keys kSignalKeys{"bit_rate", "modulation", "pattern", "input_rise", "swing", "target_ber"};
+const Keys kTargetKeys{"gain", "bandwidth", "gain_bandwidth", "objective"};
+const Keys kLimitsKeys{"overshoot", "peaking", "group_delay_ripple", "ripple_band"};
+const Keys kTechnologyKeys{"ft", "c_out_ratio", "inductor_q", "max_inductance", "k_range",
+                           "min_cb", "max_gm", "gm_over_id", "current_budget", "gamma",
+                           "temperature"};
+const Keys kStageKeys{"id", "kind", "gm", "rd", "c_in", "c_out", "c_load", "r_load",
+                      "feeds", "count", "tap"};
+const Keys kModulations{"nrz", "pam4"};
+const Keys kPatterns{"prbs7", "prbs9", "prbs15", "prbs23", "prbs31"};
+const Keys kObjectives{"flattest", "widest", "leanest"};
+const Keys kResponses{"butterworth", "bessel", "critical"};
+
+Dimension stage_key_dimension(std::string_view key) {
+  if (key == "gm") return Dimension::conductance;
+  if (key == "rd" || key == "r_load") return Dimension::resistance;
+  return Dimension::capacitance;  // c_in, c_out, c_load
+}
+
+SourcePosition position(const toml::source_region& region) {
+  return {static_cast<int>(region.begin.line), static_cast<int>(region.begin.column)};
+}
+
+std::string quoted_list(const Keys& keys) {
+  std::string out;
+  for (size_t i = 0; i < keys.size(); ++i) out += (i ? ", " : "") + std::string(keys[i]);
+  return out;
+}
+
+std::string shown(const toml::node& node) {
+  std::ostringstream out;
+  if (node.is_string())
+    out << '"' << node.as_string()->get() << '"';
+  else if (node.is_table())
+    out << "a table";
+  else if (node.is_array())
+    out << "an array";
+  else if (const auto* i = node.as_integer())
+    out << i->get();
+  else if (const auto* f = node.as_floating_point())
+    out << f->get();
+  else if (const auto* b = node.as_boolean())
+    out << (b->get() ? "true" : "false");
+  else
+    out << "a date or time";
+  return out.str();
+}
+
+class Reader {
+ public:
+  explicit Reader(Diagnostics& diagnostics) : diag_(diagnostics) {}
+
+  void error(const toml::node& node, std::string message) {
+    diag_.error(position(node.source()), std::move(message));
+  }
+  void error(SourcePosition where, std::string message) { diag_.error(where, std::move(message)); }
+
+  // Reports every key of `table` not in `allowed`, suggesting the closest allowed one.
+  void check_keys(const toml::table& table, const Keys& allowed, const std::string& context) {
+    for (auto&& [key, node] : table) {
+      if (std::find(allowed.begin(), allowed.end(), key.str()) != allowed.end()) continue;
+      std::string message = context + "unknown key '" + std::string(key.str()) + "'";
+      const auto suggestion = closest_match(key.str(), allowed);
+      message += suggestion.empty() ? "; expected one of: " + quoted_list(allowed)
+                                    : "; did you mean '" + suggestion + "'?";
+      diag_.error(position(key.source()), message);
+    }
+  }
+
+  std::optional<double> quantity(const toml::node& node, Dimension dim, const std::string& what) {
+    if (auto v = node.value<double>(); v && !node.is_string()) {
+      if (!std::isfinite(*v)) {
+        error(node, what + " must be finite, saw " + shown(node));
+        return std::nullopt;
+      }
+      return from_plain_number(*v, dim);
+    }
+    if (!node.is_string()) {
+      error(node, what + ": expected " + describe(dim) + ", saw " + shown(node));
+      return std::nullopt;
+    }
+    const auto parsed = parse_quantity(node.as_string()->get(), dim);
+    if (!parsed.value) error(node, what + ": " + parsed.error);
+    return parsed.value;
+  }
+
+  // A value that must be > 0 (strict), >= 0, or (sign_free) anything finite.
+  std::optional<double> bounded(const toml::node& node, Dimension dim, const std::string& what,
+                                bool strictly_positive, bool sign_free = false) {
+    auto v = quantity(node, dim, what);
+    if (!v || sign_free) return v;
+    if (strictly_positive ? !(*v > 0.0) : !(*v >= 0.0)) {
+      error(node, what + " must be " + (strictly_positive ? "positive" : "zero or positive") +
+                      ", saw " + shown(node));
+      return std::nullopt;
+    }
+    return v;
+  }
+
+  std::optional<std::string> word(const toml::node& node, const Keys& allowed, const std::string& what) {
+    if (!node.is_string()) {
+      error(node, what + ": expected one of " + quoted_list(allowed) + ", saw " + shown(node));
+      return std::nullopt;
+    }
+    const std::string value = node.as_string()->get();
+    if (std::find(allowed.begin(), allowed.end(), value) != allowed.end()) return value;
+    const auto suggestion = closest_match(value, allowed);
+    error(node, what + ": unknown value \"" + value + "\"; expected one of " + quoted_list(allowed) +
+                    (suggestion.empty() ? "" : " (did you mean \"" + suggestion + "\"?)"));
+    return std::nullopt;
+  }
+
+  std::optional<Adjustable> adjustable(const toml::node& node, Dimension dim, const std::string& what,
+                                       bool strictly_positive, bool sign_free = false) {
+    Adjustable a;
+    a.where = position(node.source());
+    if (node.is_string() && node.as_string()->get() == "auto") {
+      a.mode = Adjustable::Mode::automatic;
+      return a;
+    }
+    if (const auto* range = node.as_table()) {
+      check_keys(*range, {"min", "max"}, what + ": ");
+      const auto* lo = range->get("min");
+      const auto* hi = range->get("max");
+      if (!lo || !hi) {
+        error(node, what + ": a range needs both min and max, e.g. { min = \"0.1 nH\", max = \"1.5 nH\" }");
+        return std::nullopt;
+      }
+      const auto min = bounded(*lo, dim, what + " min", false);
+      const auto max = bounded(*hi, dim, what + " max", false);
+      if (!min || !max) return std::nullopt;
+      if (!(*max >= *min)) {
+        error(node, what + ": range max must not be below min, saw min " + shown(*lo) + ", max " + shown(*hi));
+        return std::nullopt;
+      }
+      a.mode = Adjustable::Mode::range;
+      a.min = *min;
+      a.max = *max;
+      return a;
+    }
+    const auto v = bounded(node, dim, what, strictly_positive, sign_free);
+    if (!v) return std::nullopt;
+    a.value = *v;
+    return a;
+  }
+
+ private:
+  Diagnostics& diag_;
+};
+
+const toml::table* sub_table(Reader& reader, const toml::table& root, std::string_view name) {
+  const auto* node = root.get(name);
+  if (!node) return nullptr;
+  if (const auto* t = node->as_table()) return t;
+  reader.error(*node, "'" + std::string(name) + "' must be a table ([" + std::string(name) + "])");
+  return nullptr;
+}
+
+void read_input(Reader& reader, const toml::table& root, ChainSpec& spec) {
+  const auto* t = sub_table(reader, root, "input");
+  if (!t) return;
+  reader.check_keys(*t, kInputKeys, "[input]: ");
+  if (const auto* n = t->get("r_source"))
+    if (auto v = reader.bounded(*n, Dimension::resistance, "[input] r_source", false)) spec.r_source = *v;
+  if (const auto* n = t->get("noise_density"))
+    spec.input_noise_density = reader.bounded(*n, Dimension::noise_density, "[input] noise_density", false);
+}
+
+void read_signal(Reader& reader, const toml::table& root, ChainSpec& spec) {
+  const auto* t = sub_table(reader, root, "signal");
+  if (!t) return;
+  reader.check_keys(*t, kSignalKeys, "[signal]: ");
+  SignalSpec signal;
+  if (const auto* n = t->get("bit_rate")) {
+    if (auto v = reader.bounded(*n, Dimension::bit_rate, "[signal] bit_rate", true)) signal.bit_rate = *v;
+  } else {
+    reader.error(position(t->source()), "[signal]: missing bit_rate, e.g. bit_rate = \"56 Gb/s\"");
+  }
+  if (const auto* n = t->get("modulation"))
+    if (auto w = reader.word(*n, kModulations, "[signal] modulation")) signal.modulation = *w;
+  if (const auto* n = t->get("pattern"))
+    if (auto w = reader.word(*n, kPatterns, "[signal] pattern")) signal.pattern = *w;
+  if (const auto* n = t->get("input_rise"))
+    signal.input_rise = reader.bounded(*n, Dimension::time, "[signal] input_rise", false);
+  if (const auto* n = t->get("swing"))
+    signal.swing = reader.bounded(*n, Dimension::voltage, "[signal] swing", true);
+  if (const auto* n = t->get("target_ber")) {
+    const auto v = reader.quantity(*n, Dimension::dimensionless, "[signal] target_ber");
+    if (v && (*v <= 0.0 || *v >= 0.5))
+      reader.error(*n, "[signal] target_ber must be in (0, 0.5), saw " + shown(*n));
+    else if (v)
+      signal.target_ber = *v;
+  }
+  spec.signal = signal;
+}
+
+void read_target(Reader& reader, const toml::table& root, ChainSpec& spec) {
+  const auto* t = sub_table(reader, root, "target");
+  if (!t) return;
+  reader.check_keys(*t, kTargetKeys, "[target]: ");
+  if (const auto* n = t->get("gain")) spec.target.gain_db = reader.quantity(*n, Dimension::decibels, "[target] gain");
+  if (const auto* n = t->get("bandwidth"))
+    spec.target.bandwidth = reader.bounded(*n, Dimension::frequency, "[target] bandwidth", true);
+  if (const auto* n = t->get("gain_bandwidth")) {
+    spec.target.gain_bandwidth = reader.bounded(*n, Dimension::frequency, "[target] gain_bandwidth", true);
+    if (t->get("bandwidth"))
+      reader.error(*n, "[target]: give bandwidth or gain_bandwidth, not both");
+  }
+  if (const auto* n = t->get("objective"))
+    if (auto w = reader.word(*n, kObjectives, "[target] objective")) spec.target.objective = *w;
+}
+
+void read_limits(Reader& reader, const toml::table& root, ChainSpec& spec) {
+  const auto* t = sub_table(reader, root, "limits");
+  if (!t) return;
+  reader.check_keys(*t, kLimitsKeys, "[limits]: ");
+  if (const auto* n = t->get("overshoot"))
+    spec.limits.overshoot = reader.bounded(*n, Dimension::fraction, "[limits] overshoot", false);
+  if (const auto* n = t->get("peaking")) {
+    spec.limits.peaking_db = reader.quantity(*n, Dimension::decibels, "[limits] peaking");
+    if (spec.limits.peaking_db && *spec.limits.peaking_db < 0.0) {
+      reader.error(*n, "[limits] peaking must be zero or positive, saw " + shown(*n));
+      spec.limits.peaking_db.reset();
+    }
+  }
+  if (const auto* n = t->get("group_delay_ripple"))
+    spec.limits.group_delay_ripple = reader.bounded(*n, Dimension::time, "[limits] group_delay_ripple", false);
+  if (const auto* n = t->get("ripple_band"))
+    spec.limits.ripple_band = reader.bounded(*n, Dimension::frequency, "[limits] ripple_band", true);
+}
+
+void read_technology(Reader& reader, const toml::table& root, ChainSpec& spec) {
+  const auto* t = sub_table(reader, root, "technology");
+  if (!t) return;
+  reader.check_keys(*t, kTechnologyKeys, "[technology]: ");
+  auto& tech = spec.technology;
+  auto positive = [&](const char* key, Dimension dim, std::optional<double>& into) {
+    if (const auto* n = t->get(key)) into = reader.bounded(*n, dim, std::string("[technology] ") + key, true);
+  };
+  positive("ft", Dimension::frequency, tech.ft);
+  positive("c_out_ratio", Dimension::dimensionless, tech.c_out_ratio);
+  positive("inductor_q", Dimension::dimensionless, tech.inductor_q);
+  positive("max_inductance", Dimension::inductance, tech.max_inductance);
+  positive("max_gm", Dimension::conductance, tech.max_gm);
+  positive("gm_over_id", Dimension::dimensionless, tech.gm_over_id);
+  positive("current_budget", Dimension::dimensionless, tech.current_budget);
+  if (const auto* n = t->get("min_cb")) tech.min_cb = reader.bounded(*n, Dimension::capacitance, "[technology] min_cb", false);
+  if (const auto* n = t->get("gamma")) {
+    if (auto v = reader.bounded(*n, Dimension::dimensionless, "[technology] gamma", false)) tech.gamma = *v;
+  }
+  if (const auto* n = t->get("temperature")) {
+    if (auto v = reader.bounded(*n, Dimension::temperature, "[technology] temperature", true)) tech.temperature = *v;
+  }
+  if (const auto* n = t->get("k_range")) {
+    const auto* array = n->as_array();
+    if (!array || array->size() != 2) {
+      reader.error(*n, "[technology] k_range: expected two numbers [low, high], saw " + shown(*n));
+    } else {
+      const auto lo = reader.quantity(*array->get(0), Dimension::dimensionless, "[technology] k_range low");
+      const auto hi = reader.quantity(*array->get(1), Dimension::dimensionless, "[technology] k_range high");
+      if (lo && hi) {
+        if (!(*lo > -1.0 && *hi < 1.0 && *lo <= *hi))
+          reader.error(*n, "[technology] k_range must satisfy -1 < low <= high < 1, saw " + shown(*n));
+        else {
+          tech.k_min = lo;
+          tech.k_max = hi;
+        }
+      }
+    }
+  }
+}
+
+// Keys this stage accepts: the common ones and those of every candidate kind.
+Keys stage_keys_for(const std::vector<LoadKind>& kinds) {
+  Keys keys = kStageKeys;
+  for (auto kind : kinds)
+    for (const auto& p : load_kind_info(kind).parameters)
+      if (std::find(keys.begin(), keys.end(), p.key) == keys.end()) keys.push_back(p.key);
+  return keys;
+}
+
+std::vector<LoadKind> every_kind() {
+  std::vector<LoadKind> kinds;
+  for (const auto& info : all_load_kinds()) kinds.push_back(info.kind);
+  return kinds;
+}
+
+Keys kind_names_and_auto() {
+  Keys names;
+  for (const auto& info : all_load_kinds()) names.push_back(info.name);
+  names.push_back("auto");
+  return names;
+}
+
+std::optional<std::vector<LoadKind>> read_kind(Reader& reader, const toml::node& node, const std::string& who) {
+  const Keys names = kind_names_and_auto();
+  auto one = [&](const toml::node& n) -> std::optional<LoadKind> {
+    const auto w = reader.word(n, names, who + "kind");
+    if (!w || *w == "auto") return std::nullopt;
+    return load_kind_from_name(*w);
+  };
+  if (node.is_string() && node.as_string()->get() == "auto") return every_kind();
+  if (const auto* array = node.as_array()) {
+    if (array->empty()) {
+      reader.error(node, who + "kind: an empty list of candidates; list at least one kind");
+      return std::nullopt;
+    }
+    std::vector<LoadKind> kinds;
+    for (const auto& element : *array) {
+      const auto k = one(element);
+      if (!k) return std::nullopt;
+      if (std::find(kinds.begin(), kinds.end(), *k) == kinds.end()) kinds.push_back(*k);
+    }
+    return kinds;
+  }
+  const auto k = one(node);
+  if (!k) return std::nullopt;
+  return std::vector<LoadKind>{*k};
+}
+
+void read_stage(Reader& reader, const toml::table& t, size_t index, ChainSpec& spec) {
+  StageSpec stage;
+  stage.where = position(t.source());
+  std::string who = "stage " + std::to_string(index + 1) + ": ";
+  if (const auto* n = t.get("id")) {
+    if (!n->is_string() || n->as_string()->get().empty())
+      reader.error(*n, who + "id must be a non-empty string, saw " + shown(*n));
+    else {
+      stage.id = n->as_string()->get();
+      who = "stage '" + stage.id + "': ";
+    }
+  } else {
+    reader.error(stage.where, who + "missing id, e.g. id = \"a1\"");
+  }
+
+  if (const auto* n = t.get("kind")) {
+    stage.kind_where = position(n->source());
+    if (auto kinds = read_kind(reader, *n, who)) stage.kinds = *kinds;
+  } else {
+    reader.error(stage.where, who + "missing kind; expected one of " + quoted_list(kind_names_and_auto()));
+  }
+  const Keys allowed = stage.kinds.empty() ? stage_keys_for(every_kind()) : stage_keys_for(stage.kinds);
+  reader.check_keys(t, allowed, who);
+
+  auto element = [&](std::string_view key, Dimension dim, bool strictly_positive) {
+    const auto* n = t.get(key);
+    if (!n) return;
+    if (auto a = reader.adjustable(*n, dim, who + std::string(key), strictly_positive))
+      stage.values[std::string(key)] = *a;
+  };
+  element("gm", Dimension::conductance, true);
+  element("rd", Dimension::resistance, true);
+  element("c_in", Dimension::capacitance, false);
+  element("c_out", Dimension::capacitance, false);
+  element("c_load", Dimension::capacitance, false);
+  element("r_load", Dimension::resistance, true);
+  for (const auto& key : {"gm", "rd"})
+    if (!t.get(key))
+      reader.error(stage.where, who + "missing " + key + " (" + describe(stage_key_dimension(key)) +
+                                    ", or \"auto\")");
+
+  // Kind-specific element values and normalised designs.
+  for (auto kind : stage.kinds.empty() ? every_kind() : stage.kinds)
+    for (const auto& p : load_kind_info(kind).parameters) {
+      const auto* n = t.get(p.key);
+      if (!n || stage.values.count(std::string(p.key))) continue;
+      if (p.key == "m" || p.key == "zeta") {
+        stage.design_where = position(n->source());
+        const auto v = reader.bounded(*n, Dimension::dimensionless, who + std::string(p.key), true);
+        (p.key == "m" ? stage.m : stage.zeta) = v;
+        if (!v) stage.values[std::string(p.key)] = {};  // remembered as seen, to report once
+        continue;
+      }
+      if (p.key == "response") {
+        stage.design_where = position(n->source());
+        if (auto w = reader.word(*n, kResponses, who + "response")) stage.response = *w;
+        stage.values["response"] = {};
+        continue;
+      }
+      if (p.key == "k") {
+        if (auto a = reader.adjustable(*n, Dimension::dimensionless, who + "k", false, true)) {
+          const bool fixed_bad = a->is_fixed() && !(a->value > -1.0 && a->value < 1.0);
+          const bool range_bad = a->mode == Adjustable::Mode::range && !(a->min > -1.0 && a->max < 1.0);
+          if (fixed_bad || range_bad)
+            reader.error(*n, who + "k must be in (-1, 1), saw " + shown(*n));
+          else
+            stage.values["k"] = *a;
+        }
+        continue;
+      }
+      if (auto a = reader.adjustable(*n, p.dimension, who + std::string(p.key), false))
+        stage.values[std::string(p.key)] = *a;
+    }
+  // "response" and the failed m/zeta placeholders are not element values.
+  stage.values.erase("response");
+  stage.values.erase("m");
+  stage.values.erase("zeta");
+
+  if (const auto* n = t.get("feeds")) {
+    stage.feeds_where = position(n->source());
+    std::vector<std::string> feeds;
+    bool ok = true;
+    if (n->is_string())
+      feeds.push_back(n->as_string()->get());
+    else if (const auto* array = n->as_array()) {
+      for (const auto& e : *array) {
+        if (!e.is_string()) {
+          reader.error(e, who + "feeds: expected stage ids (strings), saw " + shown(e));
+          ok = false;
+        } else {
+          feeds.push_back(e.as_string()->get());
+        }
+      }
+    } else {
+      reader.error(*n, who + "feeds: expected a stage id or a list of ids, saw " + shown(*n));
+      ok = false;
+    }
+    if (ok) stage.feeds = feeds;
+  }
+  stage.count.value = 1;
+  if (const auto* n = t.get("count")) {
+    stage.count.where = position(n->source());
+    if (n->is_string() && n->as_string()->get() == "auto") {
+      stage.count.mode = Adjustable::Mode::automatic;
+    } else if (const auto* range = n->as_table()) {
+      const auto lo = range->get("min") ? range->get("min")->value<int64_t>() : std::nullopt;
+      const auto hi = range->get("max") ? range->get("max")->value<int64_t>() : std::nullopt;
+      reader.check_keys(*range, {"min", "max"}, who + "count: ");
+      if (!lo || !hi || *lo < 1 || *hi < *lo)
+        reader.error(*n, who + "count: a range needs integers 1 <= min <= max, e.g. { min = 3, max = 7 }");
+      else {
+        stage.count.mode = Adjustable::Mode::range;
+        stage.count.min = static_cast<double>(*lo);
+        stage.count.max = static_cast<double>(*hi);
+      }
+    } else if (const auto v = n->as_integer(); v && v->get() >= 1) {
+      stage.count.value = static_cast<double>(v->get());
+    } else {
+      reader.error(*n, who + "count must be a whole number of copies >= 1, \"auto\" or { min, max }, saw " + shown(*n));
+    }
+  }
+  if (const auto* n = t.get("tap")) {
+    if (const auto b = n->as_boolean())
+      stage.tap = b->get();
+    else
+      reader.error(*n, who + "tap: expected true or false, saw " + shown(*n));
+  }
+  spec.stages.push_back(std::move(stage));
+}
+
+std::optional<ChainSpec> read_document(const toml::table& root, Diagnostics& diagnostics) {
+  Reader reader(diagnostics);
+  ChainSpec spec;
+  spec.file = diagnostics.file();
+  reader.check_keys(root, kTopKeys, "");
+  if (const auto* t = sub_table(reader, root, "chain")) {
+    reader.check_keys(*t, kChainKeys, "[chain]: ");
+    if (const auto* n = t->get("name")) {
+      if (n->is_string())
+        spec.name = n->as_string()->get();
+      else
+        reader.error(*n, "[chain] name: expected a string, saw " + shown(*n));
+    }
+  }
+  read_input(reader, root, spec);
+  read_signal(reader, root, spec);
+  read_target(reader, root, spec);
+  read_limits(reader, root, spec);
+  read_technology(reader, root, spec);
+
+  const auto* stages = root.get("stage");
+  const auto* array = stages ? stages->as_array() : nullptr;
+  if (!stages) {
+    reader.error(SourcePosition{}, "no [[stage]] tables: a chain needs at least one stage");
+  } else if (!array || !array->is_array_of_tables()) {
+    reader.error(*stages, "'stage' must be an array of tables, written [[stage]]");
+  } else {
+    for (size_t i = 0; i < array->size(); ++i) read_stage(reader, *array->get(i)->as_table(), i, spec);
+  }
+  if (spec.name.empty()) spec.name = std::filesystem::path(spec.file).stem().string();
+  if (!diagnostics.empty()) return std::nullopt;
+  return spec;
+}
+
+}  // namespace
+
+const Adjustable* StageSpec::find(std::string_view key) const {
+  const auto it = values.find(key);
+  return it == values.end() ? nullptr : &it->second;
+}
+
+const std::vector<std::string_view>& common_stage_keys() { return kStageKeys; }
+
+std::optional<ChainSpec> parse_chain_spec(std::string_view text, Diagnostics& diagnostics) {
+  try {
+    const toml::table root = toml::parse(text, diagnostics.file());
+    return read_document(root, diagnostics);
+  } catch (const toml::parse_error& e) {
+    diagnostics.error(position(e.source()), "TOML syntax: " + std::string(e.description()));
+    return std::nullopt;
+  }
+}
+
+std::optional<ChainSpec> load_chain_spec(const std::string& path, Diagnostics& diagnostics) {
+  std::ifstream in(path, std::ios::binary);
+  if (!in) {
+    diagnostics.error({}, "cannot open the chain file");
+    return std::nullopt;
+  }
+  std::ostringstream text;
+  text << in.rdbuf();
+  return parse_chain_spec(text.str(), diagnostics);
+}
+
+}  // namespace peakplan

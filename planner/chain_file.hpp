@@ -1,0 +1,94 @@
+// Reading a chain file (DESIGN.md section 3) into a ChainSpec: every value with its source
+// position, adjustable values marked as such, nothing resolved yet. All input errors are
+// collected into Diagnostics; the spec is only usable when there are none.
+#pragma once
+
+#include <map>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "models/load_kinds.hpp"
+#include "planner/diagnostics.hpp"
+
+namespace peakplan {
+
+// A value the planner may choose: fixed, "auto" within the technology's bounds, or a range.
+struct Adjustable {
+  enum class Mode { fixed, automatic, range } mode = Mode::fixed;
+  double value = 0.0;  // fixed
+  double min = 0.0, max = 0.0;  // range
+  SourcePosition where;
+  bool is_fixed() const { return mode == Mode::fixed; }
+};
+
+struct StageSpec {
+  std::string id;
+  SourcePosition where;  // the [[stage]] header
+  std::vector<LoadKind> kinds;  // one = fixed; several = candidates
+  SourcePosition kind_where;
+  std::map<std::string, Adjustable, std::less<>> values;  // element values by chain-file key
+  std::optional<double> m, zeta;  // normalised designs
+  std::string response;           // named T-coil design
+  SourcePosition design_where;
+  std::optional<std::vector<std::string>> feeds;
+  SourcePosition feeds_where;
+  Adjustable count;  // default fixed 1
+  bool tap = false;
+
+  const Adjustable* find(std::string_view key) const;
+  bool kind_is_fixed() const { return kinds.size() == 1; }
+};
+
+struct TechnologySpec {
+  std::optional<double> ft, c_out_ratio, inductor_q, max_inductance, min_cb, max_gm;
+  std::optional<double> gm_over_id, current_budget;
+  std::optional<double> k_min, k_max;
+  double gamma = 1.0;
+  double temperature = 300.0;
+};
+
+struct TargetSpec {
+  std::optional<double> gain_db;         // a minimum
+  std::optional<double> bandwidth;       // Hz, a minimum
+  std::optional<double> gain_bandwidth;  // Hz
+  std::string objective = "flattest";
+};
+
+struct LimitsSpec {
+  std::optional<double> overshoot;           // fraction
+  std::optional<double> peaking_db;
+  std::optional<double> group_delay_ripple;  // s
+  std::optional<double> ripple_band;         // Hz
+};
+
+struct SignalSpec {
+  double bit_rate = 0.0;
+  std::string modulation = "nrz";
+  std::string pattern = "prbs7";
+  std::optional<double> input_rise;  // s, 20-80 %
+  std::optional<double> swing;       // V at the input
+  double target_ber = 1e-12;
+};
+
+struct ChainSpec {
+  std::string file;
+  std::string name;
+  double r_source = 0.0;
+  std::optional<double> input_noise_density;  // V/rtHz
+  std::optional<SignalSpec> signal;
+  TargetSpec target;
+  LimitsSpec limits;
+  TechnologySpec technology;
+  std::vector<StageSpec> stages;
+};
+
+// Parses and validates one chain file. `display_name` is the name errors carry (the path as
+// the user gave it). Returns nullopt when there were errors; they are in `diagnostics`.
+std::optional<ChainSpec> load_chain_spec(const std::string& path, Diagnostics& diagnostics);
+std::optional<ChainSpec> parse_chain_spec(std::string_view text, Diagnostics& diagnostics);
+
+// The keys every [[stage]] accepts, whatever its kind.
+const std::vector<std::string_view>& common_stage_keys();
+
+}  // namespace peakplan

@@ -1,0 +1,292 @@
+#include "planner/chain_graph.hpp"
+
+#include <boost/graph/adjacency_list.hpp>
+#include <boost/graph/depth_first_search.hpp>
+#include <cmath>
+#include <fmt/format.h>
+#include <map>
+
+#include "models/frequency_response.hpp"
+#include "models/peaking_design.hpp"
+
+namespace peakplan {
+namespace {
+
+using Graph = boost::adjacency_list<boost::vecS, boost::vecS, boost::directedS>;
+
+struct BackEdgeRecorder : boost::default_dfs_visitor {
+  std::vector<std::pair<size_t, size_t>>* back_edges;
+  template <class Edge, class G>
+  void back_edge(Edge e, const G& g) {
+    back_edges->emplace_back(boost::source(e, g), boost::target(e, g));
+  }
+};
+
+std::string join_ids(const std::vector<std::string>& ids, std::string_view sep = " -> ") {
+  std::string out;
+  for (size_t i = 0; i < ids.size(); ++i) out += (i ? std::string(sep) : "") + "'" + ids[i] + "'";
+  return out;
+}
+
+}  // namespace
+
+std::optional<std::vector<GraphStage>> build_stage_graph(const ChainSpec& spec, Diagnostics& diagnostics,
+                                                         const std::vector<int>* counts) {
+  std::vector<GraphStage> stages;
+  std::vector<size_t> first_copy(spec.stages.size()), last_copy(spec.stages.size());
+  std::map<std::string, size_t, std::less<>> spec_by_id;
+  for (size_t i = 0; i < spec.stages.size(); ++i) {
+    const auto& s = spec.stages[i];
+    const auto [it, fresh] = spec_by_id.emplace(s.id, i);
+    if (!fresh)
+      diagnostics.error(s.where, fmt::format("stage '{}': id already used by the stage at line {}", s.id,
+                                             spec.stages[it->second].where.line));
+    int count = 1;
+    if (counts) {
+      count = (*counts)[i];
+    } else if (!s.count.is_fixed()) {
+      diagnostics.error(s.count.where, fmt::format("stage '{}': count is not fixed; analyze needs a number "
+                                                   "of copies (peakplan plan chooses it)", s.id));
+    } else {
+      count = static_cast<int>(s.count.value);
+    }
+    first_copy[i] = stages.size();
+    for (int c = 1; c <= count; ++c)
+      stages.push_back({count > 1 || s.count.mode != Adjustable::Mode::fixed || s.count.value > 1
+                            ? s.id + "." + std::to_string(c)
+                            : s.id,
+                        i, count > 1 ? c : 0, -1});
+    last_copy[i] = stages.size() - 1;
+  }
+  if (!diagnostics.empty()) return std::nullopt;
+
+  // Stages named in some explicit `feeds` are not given a default driver.
+  std::vector<bool> named(spec.stages.size(), false);
+  for (const auto& s : spec.stages)
+    if (s.feeds)
+      for (const auto& id : *s.feeds)
+        if (auto it = spec_by_id.find(id); it != spec_by_id.end()) named[it->second] = true;
+
+  Graph graph(stages.size());
+  std::vector<std::vector<size_t>> drivers(stages.size());
+  auto connect = [&](size_t from, size_t to) {
+    boost::add_edge(from, to, graph);
+    drivers[to].push_back(from);
+  };
+  std::vector<std::string_view> ids;
+  for (const auto& s : spec.stages) ids.push_back(s.id);
+  for (size_t i = 0; i < spec.stages.size(); ++i) {
+    const auto& s = spec.stages[i];
+    for (size_t c = first_copy[i]; c < last_copy[i]; ++c) connect(c, c + 1);
+    if (s.feeds) {
+      for (const auto& id : *s.feeds) {
+        const auto it = spec_by_id.find(id);
+        if (it == spec_by_id.end()) {
+          const auto guess = closest_match(id, ids);
+          diagnostics.error(s.feeds_where,
+                            fmt::format("stage '{}': feeds unknown stage '{}'{}", s.id, id,
+                                        guess.empty() ? "" : fmt::format("; did you mean '{}'?", guess)));
+          continue;
+        }
+        connect(last_copy[i], first_copy[it->second]);
+      }
+    } else if (i + 1 < spec.stages.size() && !named[i + 1]) {
+      connect(last_copy[i], first_copy[i + 1]);
+    }
+  }
+
+  for (size_t v = 0; v < stages.size(); ++v) {
+    if (drivers[v].size() <= 1) continue;
+    std::vector<std::string> who;
+    for (auto d : drivers[v]) who.push_back(stages[d].id);
+    diagnostics.error(spec.stages[stages[v].spec].where,
+                      fmt::format("stage '{}' is fed by {}; a stage input can have only one driver",
+                                  stages[v].id, join_ids(who, " and ")));
+  }
+  if (!diagnostics.empty()) return std::nullopt;
+
+  std::vector<std::pair<size_t, size_t>> back_edges;
+  BackEdgeRecorder recorder;
+  recorder.back_edges = &back_edges;
+  boost::depth_first_search(graph, boost::visitor(recorder));
+  for (const auto& [from, to] : back_edges) {
+    // With one driver per stage, the cycle is the driver chain from `from` back to `to`.
+    std::vector<std::string> cycle{stages[to].id};
+    std::vector<size_t> walk;
+    for (size_t v = from; v != to && walk.size() <= stages.size(); v = drivers[v].front()) walk.push_back(v);
+    for (auto it = walk.rbegin(); it != walk.rend(); ++it) cycle.push_back(stages[*it].id);
+    cycle.push_back(stages[to].id);
+    diagnostics.error(spec.stages[stages[to].spec].feeds_where.line ? spec.stages[stages[from].spec].feeds_where
+                                                                    : spec.stages[stages[from].spec].where,
+                      fmt::format("the stages form a cycle: {}; a chain must run from its input to its outputs",
+                                  join_ids(cycle)));
+  }
+  if (!diagnostics.empty()) return std::nullopt;
+
+  std::vector<std::string> roots;
+  for (size_t v = 0; v < stages.size(); ++v) {
+    if (drivers[v].empty()) roots.push_back(stages[v].id);
+    stages[v].driver = drivers[v].empty() ? -1 : static_cast<int>(drivers[v].front());
+  }
+  if (roots.size() > 1)
+    diagnostics.error(spec.stages[stages[0].spec].where,
+                      fmt::format("stages {} have no driver; exactly one stage may be driven by the chain "
+                                  "input (list the others in some stage's feeds)", join_ids(roots, ", ")));
+  if (!diagnostics.empty()) return std::nullopt;
+  return stages;
+}
+
+void apply_designs(Chain& chain, const ChainSpec& spec, const std::vector<GraphStage>& graph) {
+  for (size_t i = 0; i < chain.stages.size(); ++i) {
+    auto& stage = chain.stages[i];
+    auto& c = stage.circuit;
+    const auto& s = spec.stages[graph[i].spec];
+    if (s.m && (c.kind == LoadKind::shunt || c.kind == LoadKind::series)) {
+      c.l = inductance_for_m(*s.m, c.rd, c.c_out + c.c_node);
+      stage.intent = {DesignIntent::Kind::m, *s.m, fmt::format("m = {:.4g}", *s.m)};
+    }
+    if (c.kind == LoadKind::tcoil && (s.zeta || !s.response.empty())) {
+      const double zeta = s.zeta ? *s.zeta : *zeta_for_response(s.response);
+      const auto d = tcoil_for_zeta(zeta, c.rd, c.c_node);
+      c.l1 = c.l2 = d.l_half;
+      c.k = d.k;
+      c.cb = d.cb;
+      stage.intent = {DesignIntent::Kind::zeta, zeta,
+                      s.response.empty() ? fmt::format("zeta = {:.4g}", zeta)
+                                         : fmt::format("{} (zeta = {:.4g})", s.response, zeta)};
+    }
+    // Losses from the technology's Q at the stage's own bandwidth (found with lossless coils).
+    const auto& q = spec.technology.inductor_q;
+    const bool has_l = s.find("r_l") != nullptr;
+    const bool needs_loss = q && ((c.kind == LoadKind::shunt || c.kind == LoadKind::series)
+                                      ? !has_l
+                                      : c.kind == LoadKind::tcoil && !has_l &&
+                                            (!s.find("r_l1") || !s.find("r_l2")));
+    if (needs_loss) {
+      const auto bw = frequency_metrics(Cascade({build_stage_system(c).rational()})).bandwidth_hz;
+      if (std::isfinite(bw)) {
+        if (c.kind == LoadKind::tcoil) {
+          if (!s.find("r_l1")) c.r_l1 = loss_resistance(c.l1, *q, bw);
+          if (!s.find("r_l2")) c.r_l2 = loss_resistance(c.l2, *q, bw);
+        } else {
+          c.r_l = loss_resistance(c.l, *q, bw);
+        }
+      }
+    }
+  }
+}
+
+std::optional<Chain> resolve_chain(const ChainSpec& spec, Diagnostics& diagnostics) {
+  const auto graph = build_stage_graph(spec, diagnostics);
+  if (!graph) return std::nullopt;
+
+  // Per spec stage, reported once even when it has copies.
+  std::vector<StageCircuit> circuits(spec.stages.size());
+  std::vector<double> c_in(spec.stages.size()), c_load(spec.stages.size());
+  for (size_t i = 0; i < spec.stages.size(); ++i) {
+    const auto& s = spec.stages[i];
+    const std::string who = "stage '" + s.id + "': ";
+    if (!s.kind_is_fixed()) {
+      diagnostics.error(s.kind_where, who + "kind lists candidates; analyze needs one kind "
+                                            "(peakplan plan chooses among them)");
+      continue;
+    }
+    auto& c = circuits[i];
+    c.kind = s.kinds.front();
+    auto value = [&](std::string_view key, double fallback) {
+      const auto* a = s.find(key);
+      if (!a) return fallback;
+      if (!a->is_fixed()) {
+        diagnostics.error(a->where, who + std::string(key) + " is " +
+                                        (a->mode == Adjustable::Mode::automatic ? "\"auto\"" : "a range") +
+                                        "; analyze needs a value (peakplan plan chooses it)");
+        return fallback;
+      }
+      return a->value;
+    };
+    c.gm = value("gm", 0.0);
+    c.rd = value("rd", 0.0);
+    c_in[i] = value("c_in", 0.0);
+    c.c_out = value("c_out", 0.0);
+    c_load[i] = value("c_load", 0.0);
+    c.r_load = value("r_load", std::numeric_limits<double>::infinity());
+    const bool designed_coil = s.zeta || !s.response.empty();
+    switch (c.kind) {
+      case LoadKind::plain: break;
+      case LoadKind::shunt:
+      case LoadKind::series:
+        if (s.m && s.find("l"))
+          diagnostics.error(s.design_where, who + "give l or m, not both");
+        else if (!s.m && !s.find("l"))
+          diagnostics.error(s.where, who + "a " + std::string(to_string(c.kind)) +
+                                         " stage needs l (an inductance) or m (its design factor L/(Rd^2 C))");
+        c.l = value("l", 0.0);
+        c.r_l = value("r_l", 0.0);
+        break;
+      case LoadKind::tcoil: {
+        if (s.zeta && !s.response.empty())
+          diagnostics.error(s.design_where, who + "give zeta or response, not both");
+        for (const auto* key : {"l1", "l2", "k", "cb"}) {
+          if (designed_coil && s.find(key))
+            diagnostics.error(s.find(key)->where, who + key + " is set by the " +
+                                                      (s.zeta ? "zeta" : "response") +
+                                                      " design; give one or the other");
+          if (!designed_coil && !s.find(key) && std::string_view(key) != "cb")
+            diagnostics.error(s.where, who + "a tcoil stage needs l1, l2 and k (and usually cb), or a "
+                                             "design: zeta = 0.707 or response = \"butterworth\"");
+        }
+        c.l1 = value("l1", 0.0);
+        c.l2 = value("l2", 0.0);
+        c.k = value("k", 0.0);
+        c.cb = value("cb", 0.0);
+        c.c_w = value("c_w", 0.0);
+        const double r_l = value("r_l", 0.0);
+        c.r_l1 = value("r_l1", r_l);
+        c.r_l2 = value("r_l2", r_l);
+        if (s.zeta && !(*s.zeta > 0.0))
+          diagnostics.error(s.design_where, who + "zeta must be positive");
+        break;
+      }
+    }
+    if ((s.m || designed_coil) && s.kinds.front() == LoadKind::plain)
+      diagnostics.error(s.design_where, who + "a plain stage has no peaking design");
+  }
+  if (!diagnostics.empty()) return std::nullopt;
+
+  Chain chain;
+  chain.name = spec.name;
+  chain.r_source = spec.r_source;
+  for (const auto& g : *graph) {
+    ChainStage stage;
+    stage.id = g.id;
+    stage.circuit = circuits[g.spec];
+    stage.c_in = c_in[g.spec];
+    stage.c_load = c_load[g.spec];
+    stage.driver = g.driver;
+    stage.tap = spec.stages[g.spec].tap;
+    chain.stages.push_back(std::move(stage));
+  }
+  fill_node_capacitances(chain);
+  // A design that needs the output node's capacitance cannot be resolved without one.
+  for (size_t i = 0; i < chain.stages.size(); ++i) {
+    const auto& s = spec.stages[(*graph)[i].spec];
+    const auto& c = chain.stages[i].circuit;
+    const bool designed = (s.m && c.kind != LoadKind::plain) || (c.kind == LoadKind::tcoil && (s.zeta || !s.response.empty()));
+    const double c_design = c.kind == LoadKind::tcoil ? c.c_node : c.c_node + c.c_out;
+    if (designed && !(c_design > 0.0))
+      diagnostics.error(s.design_where, fmt::format("stage '{}': its design needs capacitance on the output "
+                                                    "node (c_in of the stage it feeds, or c_load), found none",
+                                                    chain.stages[i].id));
+  }
+  if (!diagnostics.empty()) return std::nullopt;
+  apply_designs(chain, spec, *graph);
+  return chain;
+}
+
+std::optional<Chain> load_chain_file(const std::string& path, Diagnostics& diagnostics) {
+  const auto spec = load_chain_spec(path, diagnostics);
+  if (!spec) return std::nullopt;
+  return resolve_chain(*spec, diagnostics);
+}
+
+}  // namespace peakplan

@@ -1,0 +1,39 @@
+// The stage graph of a chain file: counted stages expanded into copies, `feeds` edges
+// (default: the next [[stage]] in file order), checked for one input, no cycles, known ids,
+// one driver per stage and every stage reachable; then resolved into a models Chain.
+#pragma once
+
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "models/chain.hpp"
+#include "planner/chain_file.hpp"
+
+namespace peakplan {
+
+struct GraphStage {
+  std::string id;       // "a1", or "g.2" for the second copy of a counted stage "g"
+  size_t spec = 0;      // index into ChainSpec::stages
+  int copy = 0;         // 1-based copy number; 0 when the stage is not counted
+  int driver = -1;      // index of the driving GraphStage; -1 = the chain input
+};
+
+// Stages in file order (copies in sequence). `counts` overrides each spec stage's count (the
+// planner's choice); without it every count must be fixed.
+std::optional<std::vector<GraphStage>> build_stage_graph(const ChainSpec& spec, Diagnostics& diagnostics,
+                                                         const std::vector<int>* counts = nullptr);
+
+// The chain exactly as written: every value must be fixed (no "auto", ranges or kind lists).
+// Normalised designs (m, zeta, response) are resolved against the stage's actual load, and
+// inductor losses derived from [technology] inductor_q where not given.
+std::optional<Chain> resolve_chain(const ChainSpec& spec, Diagnostics& diagnostics);
+
+// Loads, validates and resolves a chain file; nullopt with diagnostics on any input error.
+std::optional<Chain> load_chain_file(const std::string& path, Diagnostics& diagnostics);
+
+// Resolves the normalised designs and Q-derived losses of a chain whose element values and
+// node capacitances are otherwise set (shared by resolve_chain and the planner).
+void apply_designs(Chain& chain, const ChainSpec& spec, const std::vector<GraphStage>& graph);
+
+}  // namespace peakplan

@@ -1,0 +1,46 @@
+// Input errors, collected rather than thrown one at a time, in the shape editors jump to:
+//   chains/receiver.toml:14:9: error: stage 'a2': k must be in (-1, 1), saw 1.2
+#pragma once
+
+#include <string>
+#include <string_view>
+#include <vector>
+
+namespace peakplan {
+
+struct SourcePosition {
+  int line = 0;    // 1-based; 0 = no position (the whole file)
+  int column = 0;  // 1-based
+};
+
+struct Diagnostic {
+  std::string file;
+  SourcePosition where;
+  std::string message;
+  std::string format() const;
+};
+
+class Diagnostics {
+ public:
+  static constexpr size_t limit = 20;  // more than this and the rest are counted, not kept
+
+  explicit Diagnostics(std::string file) : file_(std::move(file)) {}
+  void error(SourcePosition where, std::string message);
+  bool empty() const { return list_.empty() && dropped_ == 0; }
+  const std::vector<Diagnostic>& list() const { return list_; }
+  size_t dropped() const { return dropped_; }
+  const std::string& file() const { return file_; }
+  // Every message, one per line, with a count of any dropped.
+  std::string format() const;
+
+ private:
+  std::string file_;
+  std::vector<Diagnostic> list_;
+  size_t dropped_ = 0;
+};
+
+// The candidate closest to `word` by edit distance, or empty when none is close enough
+// to be a plausible misspelling.
+std::string closest_match(std::string_view word, const std::vector<std::string_view>& candidates);
+
+}  // namespace peakplan

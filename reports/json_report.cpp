@@ -1,0 +1,102 @@
+#include "reports/json_report.hpp"
+
+#include <cmath>
+
+#include "models/units.hpp"
+
+namespace peakplan {
+namespace {
+
+nlohmann::json number(double x) { return std::isfinite(x) ? nlohmann::json(x) : nlohmann::json(nullptr); }
+
+nlohmann::json roots_json(const std::vector<std::complex<double>>& roots) {
+  auto list = nlohmann::json::array();
+  for (const auto& r : roots) list.push_back({r.real(), r.imag()});
+  return list;
+}
+
+void put_metrics(nlohmann::json& j, const ResponseSummary& r) {
+  const auto& f = r.frequency;
+  j["dc_gain"] = number(std::fabs(f.dc_gain));
+  j["dc_gain_db"] = number(to_db(f.dc_gain));
+  j["polarity"] = f.dc_gain < 0.0 ? -1 : 1;
+  j["bandwidth_hz"] = number(f.bandwidth_hz);
+  j["peaking_db"] = number(f.peaking_db);
+  j["peak_frequency_hz"] = number(f.peak_frequency_hz);
+  j["group_delay_s"] = number(f.group_delay_s);
+  j["group_delay_ripple_s"] = number(f.group_delay_ripple_s);
+  j["ripple_band_hz"] = number(f.ripple_band_hz);
+  j["overshoot_pct"] = number(r.step.overshoot_pct);
+  j["rise_time_s"] = number(r.step.rise_time_s);
+  j["settling_time_s"] = number(r.step.settling_time_s);
+  j["poles_rad_s"] = roots_json(r.poles);
+  j["zeros_rad_s"] = roots_json(r.zeros);
+}
+
+}  // namespace
+
+nlohmann::json stage_values_json(const ChainStage& stage) {
+  const auto& c = stage.circuit;
+  nlohmann::json v{{"gm", c.gm}, {"rd", c.rd}, {"c_in", stage.c_in}, {"c_out", c.c_out},
+                   {"c_load", stage.c_load}, {"c_node", c.c_node}, {"r_load", number(c.r_load)}};
+  switch (c.kind) {
+    case LoadKind::plain: break;
+    case LoadKind::shunt:
+    case LoadKind::series:
+      v["l"] = c.l;
+      v["r_l"] = c.r_l;
+      break;
+    case LoadKind::tcoil:
+      v["l1"] = c.l1;
+      v["l2"] = c.l2;
+      v["k"] = c.k;
+      v["cb"] = c.cb;
+      v["c_w"] = c.c_w;
+      v["r_l1"] = c.r_l1;
+      v["r_l2"] = c.r_l2;
+      break;
+  }
+  return v;
+}
+
+nlohmann::json analysis_json(const Chain& chain, const ChainAnalysis& analysis, const JsonOptions& options) {
+  nlohmann::json doc;
+  doc["chain"] = chain.name;
+  doc["outputs"] = nlohmann::json::array();
+  for (const auto& out : analysis.outputs) {
+    nlohmann::json o;
+    o["node"] = chain.stages[static_cast<size_t>(out.stage)].id;
+    put_metrics(o, out.response);
+    if (options.include_response && !out.response.sampled.frequency_hz.empty()) {
+      o["response"] = {{"frequency_hz", out.response.sampled.frequency_hz},
+                       {"magnitude_db", out.response.sampled.magnitude_db()},
+                       {"group_delay_s", out.response.sampled.group_delay_s}};
+    }
+    doc["outputs"].push_back(std::move(o));
+  }
+  doc["stages"] = nlohmann::json::array();
+  for (const auto& s : analysis.stages) {
+    const auto& stage = chain.stages[static_cast<size_t>(s.stage)];
+    nlohmann::json j;
+    j["id"] = stage.id;
+    j["kind"] = std::string(to_string(stage.circuit.kind));
+    j["driver"] = stage.driver < 0 ? nlohmann::json("input")
+                                   : nlohmann::json(chain.stages[static_cast<size_t>(stage.driver)].id);
+    put_metrics(j, s.alone);
+    j["values"] = stage_values_json(stage);
+    if (s.design_check) {
+      const auto& d = *s.design_check;
+      j["design_check"] = {{"design", d.label},
+                           {"ideal_bandwidth_hz", number(d.ideal_bandwidth_hz)},
+                           {"ideal_peaking_db", number(d.ideal_peaking_db)},
+                           {"ideal_overshoot_pct", number(d.ideal_overshoot_pct)},
+                           {"bandwidth_departure", number(d.bandwidth_departure)},
+                           {"peaking_departure_db", number(d.peaking_departure_db)},
+                           {"input_impedance_error", number(d.input_impedance_error)}};
+    }
+    doc["stages"].push_back(std::move(j));
+  }
+  return doc;
+}
+
+}  // namespace peakplan

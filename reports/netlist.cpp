@@ -1,0 +1,316 @@
+#include "reports/netlist.hpp"
+
+#include <algorithm>
+#include <cctype>
+#include <cmath>
+#include <cstdio>
+#include <sstream>
+#include <stdexcept>
+
+#include "models/frequency_response.hpp"
+#include "models/step_response.hpp"
+
+namespace peakplan {
+namespace {
+
+// The models treat these as absent (NodalSystem::add_resistor); the netlist must agree.
+bool resistor_present(double ohms) { return std::isfinite(ohms) && ohms > 0.0; }
+
+class SubcktWriter {
+ public:
+  explicit SubcktWriter(std::ostringstream& out) : out_(out) {}
+
+  void resistor(const std::string& name, const std::string& a, const std::string& b, double r) {
+    if (resistor_present(r)) line(name, a, b, spice_number(r));
+  }
+  void capacitor(const std::string& name, const std::string& a, const std::string& b, double c) {
+    if (c != 0.0) line(name, a, b, spice_number(c));
+  }
+  // Returns whether an L element named `name` was written (a K line may refer to it only then).
+  bool inductor(const std::string& name, const std::string& a, const std::string& b, double l,
+                double r_series) {
+    const bool lossy = resistor_present(r_series);
+    const std::string mid = lossy ? "x" + name.substr(1) : b;
+    if (l != 0.0) {
+      line(name, a, mid, spice_number(l));
+    } else if (lossy) {
+      // A zero coil is a short in the models; only its loss remains.
+      line("R" + name.substr(1) + "short", a, mid, "0");
+      return false;
+    } else {
+      // SPICE has no zero-henry inductor; a zero-volt source is the short the models stamp.
+      line("V" + name, a, b, "0");
+      return false;
+    }
+    if (lossy) line("R" + name.substr(1) + "loss", mid, b, spice_number(r_series));
+    return true;
+  }
+
+ private:
+  void line(const std::string& name, const std::string& a, const std::string& b,
+            const std::string& value) {
+    out_ << name << ' ' << a << ' ' << b << ' ' << value << '\n';
+  }
+  std::ostringstream& out_;
+};
+
+// Mirrors stamp_plain, stamp_shunt, stamp_series and stamp_tcoil in models/load_<kind>.cpp.
+void write_load(std::ostringstream& out, const StageCircuit& s) {
+  SubcktWriter w(out);
+  switch (s.kind) {
+    case LoadKind::plain:
+      out << "Gm out 0 in 0 " << spice_number(s.gm) << '\n';
+      w.resistor("Rd", "out", "0", s.rd);
+      w.capacitor("Cout", "out", "0", s.c_out);
+      break;
+    case LoadKind::shunt:
+      out << "Gm out 0 in 0 " << spice_number(s.gm) << '\n';
+      w.resistor("Rd", "out", "rd_l", s.rd);
+      w.inductor("L", "rd_l", "0", s.l, s.r_l);
+      w.capacitor("Cout", "out", "0", s.c_out);
+      break;
+    case LoadKind::series:
+      out << "Gm drain 0 in 0 " << spice_number(s.gm) << '\n';
+      w.resistor("Rd", "drain", "0", s.rd);
+      w.capacitor("Cout", "drain", "0", s.c_out);
+      w.inductor("L", "drain", "out", s.l, s.r_l);
+      break;
+    case LoadKind::tcoil: {
+      out << "Gm drain 0 in 0 " << spice_number(s.gm) << '\n';
+      w.capacitor("Cout", "drain", "0", s.c_out);
+      // Both halves run drain -> tap -> rd_end, first node = dotted end, so K's sign is the
+      // models' sign: positive k adds 2k*sqrt(L1*L2) to the end-to-end inductance.
+      const bool l1 = w.inductor("L1", "drain", "out", s.l1, s.r_l1);
+      const bool l2 = w.inductor("L2", "out", "rd_end", s.l2, s.r_l2);
+      if (l1 && l2 && s.k != 0.0) {
+        char k[32];
+        std::snprintf(k, sizeof k, "%.12g", s.k);
+        out << "K12 L1 L2 " << k << '\n';
+      }
+      w.capacitor("Cb", "drain", "rd_end", s.cb);
+      w.capacitor("Cw1", "drain", "out", s.c_w);
+      w.capacitor("Cw2", "out", "rd_end", s.c_w);
+      w.resistor("Rd", "rd_end", "0", s.rd);
+      break;
+    }
+  }
+}
+
+const char* kind_comment(LoadKind kind) {
+  switch (kind) {
+    case LoadKind::plain: return "plain: Rd from the drain (= out) to the supply";
+    case LoadKind::shunt: return "shunt: Rd in series with L from the drain (= out) to the supply";
+    case LoadKind::series: return "series: Rd on the drain, L from the drain to out";
+    case LoadKind::tcoil: return "tcoil: L1 drain-out, L2 out-rd_end, Rd to the supply, Cb bridging";
+  }
+  return "";
+}
+
+void check_node_capacitances(const Chain& chain) {
+  for (size_t i = 0; i < chain.stages.size(); ++i) {
+    const auto& s = chain.stages[i];
+    double expected = s.c_load;
+    for (int fed : chain.fed_by(static_cast<int>(i)))
+      expected += chain.stages[static_cast<size_t>(fed)].c_in;
+    const double got = s.circuit.c_node;
+    if (std::fabs(got - expected) > 1e-9 * std::max(std::fabs(got), std::fabs(expected)) + 1e-24)
+      throw std::logic_error("write_spice_netlist: stage '" + comment_safe(s.id) +
+                             "': circuit.c_node = " + spice_number(got) +
+                             " is not c_load + c_in of the stages it feeds = " +
+                             spice_number(expected) + "; apply fill_node_capacitances first");
+  }
+}
+
+bool safe_prefix(const std::string& p) {
+  if (p.empty()) return false;
+  return std::all_of(p.begin(), p.end(), [](unsigned char c) {
+    return (c < 0x80 && std::isalnum(c)) || c == '_' || c == '.' || c == '/' || c == '+' || c == '-';
+  });
+}
+
+struct Analyses {
+  double ac_start, ac_stop, tran_step, tran_stop, rise;
+  int per_decade;
+};
+
+Analyses choose_analyses(const Chain& chain, const NetlistOptions& o) {
+  const int main_output = chain.outputs().back();
+  const Cascade cascade = output_cascade(chain, main_output);
+  double bw = o.bandwidth_hz;
+  if (!(bw > 0.0)) bw = frequency_metrics(cascade).bandwidth_hz;
+  if (!(bw > 0.0)) {
+    // No -3 dB point (a chain with no roll-off in range): centre on its poles instead.
+    const auto [lo, hi] = natural_span(cascade, 0.0);
+    bw = std::sqrt(lo * hi);
+  }
+  Analyses a{};
+  a.per_decade = o.ac_points_per_decade;
+  a.ac_start = std::isnan(o.ac_start_hz) ? bw / 1000.0 : o.ac_start_hz;
+  a.ac_stop = std::isnan(o.ac_stop_hz) ? bw * 100.0 : o.ac_stop_hz;
+  const TimeAxis axis = choose_time_axis(cascade, bw);
+  a.tran_step = std::isnan(o.tran_step_s) ? axis.dt : o.tran_step_s;
+  a.tran_stop = std::isnan(o.tran_stop_s) ? axis.dt * (axis.points - 1) : o.tran_stop_s;
+  a.rise = std::isnan(o.step_rise_s) ? a.tran_step / 10.0 : o.step_rise_s;
+  if (!(a.ac_start > 0.0 && a.ac_stop > a.ac_start && a.per_decade > 0))
+    throw std::invalid_argument("write_spice_netlist: the .ac range needs 0 < start < stop and "
+                                "points per decade > 0");
+  if (!(a.tran_step > 0.0 && a.tran_stop > a.tran_step && a.rise > 0.0))
+    throw std::invalid_argument("write_spice_netlist: the .tran card needs 0 < step < stop and "
+                                "a positive step rise time");
+  return a;
+}
+
+}  // namespace
+
+std::string spice_safe_name(std::string_view text) {
+  std::string name;
+  for (unsigned char c : text) {
+    if (c < 0x80 && std::isalnum(c))
+      name += static_cast<char>(std::tolower(c));
+    else
+      name += '_';
+  }
+  // Long ids make long lines; the stage index already makes the name unique.
+  if (name.size() > 24) name.resize(24);
+  return name;
+}
+
+std::string spice_number(double value) {
+  if (value == 0.0) return "0";
+  if (!std::isfinite(value)) throw std::invalid_argument("spice_number: not a finite value");
+  struct Prefix {
+    int exponent;
+    const char* suffix;
+  };
+  // SPICE reads "m" as milli and "meg" as mega, whatever the case.
+  static constexpr Prefix kPrefixes[] = {{12, "t"}, {9, "g"},   {6, "meg"}, {3, "k"},
+                                         {0, ""},   {-3, "m"},  {-6, "u"},  {-9, "n"},
+                                         {-12, "p"}, {-15, "f"}};
+  const double magnitude = std::fabs(value);
+  const Prefix* chosen = &kPrefixes[std::size(kPrefixes) - 1];
+  for (const auto& p : kPrefixes) {
+    if (magnitude >= std::pow(10.0, p.exponent) * (1.0 - 1e-12)) {
+      chosen = &p;
+      break;
+    }
+  }
+  // Ten significant digits: rounding stays far below any tolerance the netlist is checked to.
+  char mantissa[40];
+  std::snprintf(mantissa, sizeof mantissa, "%.10g", value / std::pow(10.0, chosen->exponent));
+  return std::string(mantissa) + chosen->suffix;
+}
+
+std::string comment_safe(std::string_view text) {
+  std::string safe;
+  for (unsigned char c : text) {
+    if (c == '\\') {
+      safe += "\\\\";
+    } else if (c >= 0x20 && c < 0x7f) {
+      safe += static_cast<char>(c);
+    } else {
+      char hex[8];
+      std::snprintf(hex, sizeof hex, "\\x%02x", c);
+      safe += hex;
+    }
+  }
+  return safe;
+}
+
+std::string stage_output_node(const Chain& chain, int stage) {
+  const auto& s = chain.stages.at(static_cast<size_t>(stage));
+  return "n" + std::to_string(stage) + "_" + spice_safe_name(s.id);
+}
+
+std::string write_spice_netlist(const Chain& chain, const NetlistOptions& options) {
+  if (chain.stages.empty()) throw std::invalid_argument("write_spice_netlist: the chain has no stages");
+  if (options.batch_control && !safe_prefix(options.data_prefix))
+    throw std::invalid_argument("write_spice_netlist: data_prefix '" +
+                                comment_safe(options.data_prefix) +
+                                "' must be letters, digits and _ . / + - only");
+  check_node_capacitances(chain);
+  const Analyses a = choose_analyses(chain, options);
+  const std::vector<int> outputs = chain.outputs();
+
+  std::ostringstream out;
+  // SPICE always takes the first line as the title, but an unescaped newline would end it.
+  out << "peakplan: " << (chain.name.empty() ? std::string("chain") : comment_safe(chain.name))
+      << '\n';
+  out << "* Small-signal half circuit of each stage; AC ground = supply = node 0.\n"
+         "* Each stage inverts. Node capacitance = c_load + c_in of every stage fed.\n\n";
+
+  auto subckt_name = [&](size_t i) {
+    return "stage" + std::to_string(i) + "_" + spice_safe_name(chain.stages[i].id);
+  };
+  for (size_t i = 0; i < chain.stages.size(); ++i) {
+    const auto& s = chain.stages[i];
+    out << "* stage " << i << ": id \"" << comment_safe(s.id) << "\"\n";
+    out << "* " << kind_comment(s.circuit.kind) << '\n';
+    out << ".subckt " << subckt_name(i) << " in out\n";
+    SubcktWriter w(out);
+    w.capacitor("Cin", "in", "0", s.c_in);
+    write_load(out, s.circuit);
+    w.capacitor("Cload", "out", "0", s.c_load);
+    w.resistor("Rload", "out", "0", s.circuit.r_load);
+    out << ".ends\n\n";
+  }
+
+  out << "* source: 1 V AC, and a 0 -> 1 V step for .tran\n";
+  const bool through_resistor = resistor_present(chain.r_source);
+  const std::string pulse = "PULSE(0 1 0 " + spice_number(a.rise) + " " + spice_number(a.rise) +
+                            " " + spice_number(4.0 * a.tran_stop) + " " +
+                            spice_number(8.0 * a.tran_stop) + ")";
+  out << "Vin " << (through_resistor ? "src" : "in") << " 0 DC 0 AC 1 " << pulse << '\n';
+  if (through_resistor) out << "Rsource src in " << spice_number(chain.r_source) << '\n';
+  out << '\n';
+
+  for (size_t i = 0; i < chain.stages.size(); ++i) {
+    const auto& s = chain.stages[i];
+    const std::string in =
+        s.driver < 0 ? std::string("in") : stage_output_node(chain, s.driver);
+    out << "* stage " << i << " \"" << comment_safe(s.id) << "\"";
+    if (s.driver >= 0)
+      out << ", driven by stage " << s.driver << " \""
+          << comment_safe(chain.stages[static_cast<size_t>(s.driver)].id) << "\"";
+    out << '\n';
+    out << "X" << i << " " << in << " " << stage_output_node(chain, static_cast<int>(i)) << " "
+        << subckt_name(i) << '\n';
+  }
+  out << "* outputs:";
+  for (int o : outputs)
+    out << " " << stage_output_node(chain, o) << " (\"" << comment_safe(chain.stages[static_cast<size_t>(o)].id)
+        << "\")";
+  out << "\n\n";
+
+  if (options.precise)
+    out << ".options method=trap reltol=1e-7 vntol=1e-12 abstol=1e-15 chgtol=1e-20\n";
+  const std::string ac = "dec " + std::to_string(a.per_decade) + " " + spice_number(a.ac_start) +
+                         " " + spice_number(a.ac_stop);
+  // tmax = tstep: the simulator's own step control would otherwise stride across the rise.
+  const std::string tran = spice_number(a.tran_step) + " " + spice_number(a.tran_stop) + " 0 " +
+                           spice_number(a.tran_step);
+  out << ".ac " << ac << '\n';
+  out << ".tran " << tran << '\n';
+
+  if (options.batch_control) {
+    std::string vectors;
+    for (int o : outputs) vectors += " v(" + stage_output_node(chain, o) + ")";
+    const std::string& p = options.data_prefix;
+    out << "\n.control\n"
+           "set wr_singlescale\n"
+           "set wr_vecnames\n"
+           "set numdgt=15\n"
+           // dc first: ngspice-39 gives a stale DC sweep with coupled inductors after a tran.
+           "dc Vin 1 1 1\n"
+        << "wrdata " << p << ".dc.txt" << vectors << '\n'
+        << "ac " << ac << '\n'
+        << "wrdata " << p << ".ac.txt" << vectors << '\n'
+        << "tran " << tran << '\n'
+        << "wrdata " << p << ".tran.txt" << vectors << '\n'
+        << "quit\n"
+           ".endc\n";
+  }
+  out << ".end\n";
+  return out.str();
+}
+
+}  // namespace peakplan

@@ -1,0 +1,72 @@
+// A SPICE netlist of a chain as written, for sign-off in an outside simulator (ngspice).
+//
+// Layout of the netlist:
+//   - title line "peakplan: <chain name>", then one .subckt per stage, ports (in out), the
+//     supply as AC ground (node 0). Inside: the gm cell as a G element drawing gm*v(in) out of
+//     the drain (the stage inverts), the load of DESIGN.md section 2 element by element exactly
+//     as models/load_<kind>.cpp stamps it, the stage's own c_in from its input to ground, and
+//     its c_load and r_load on its output node. Summed over the stages a node joins, the node
+//     carries c_load + the c_in of every stage it feeds: the model's c_node.
+//   - inductor losses as separate resistors (SPICE inductors have no series resistance); a
+//     T-coil's halves coupled by K L1 L2 k, both coils written from their drain-side end, so
+//     SPICE's dots sit on the drain side of each half and positive k makes the halves aid.
+//   - the source: Vin with "DC 0 AC 1 PULSE(0 1 ...)" behind Rsource, or on the input directly
+//     when r_source is 0.
+//   - .ac and .tran cards matched to the main output's bandwidth, and .end.
+// Stage ids may hold any bytes: nodes and subcircuits get safe names (index + sanitised id)
+// and the original id appears only in comments, escaped so that it cannot end a line.
+//
+// With batch_control, a .control block runs dc, ac and tran and writes, with wrdata, one file
+// each (columns: the scale, then every output node of chain.outputs() in that order; ac as
+// real and imaginary parts):
+//   <data_prefix>.dc.txt    v(out) for Vin = 1 V (the signed DC gain)
+//   <data_prefix>.ac.txt    frequency, re, im, ...
+//   <data_prefix>.tran.txt  time, v(out) for the step
+// then quits. The designer-facing default has no .control block.
+#pragma once
+
+#include <limits>
+#include <string>
+#include <vector>
+
+#include "models/chain.hpp"
+
+namespace peakplan {
+
+struct NetlistOptions {
+  static constexpr double unset = std::numeric_limits<double>::quiet_NaN();
+
+  // The main output's bandwidth if the caller already has it (from analyze_chain); unset: the
+  // writer asks the models for it. Only used to place the analyses.
+  double bandwidth_hz = unset;
+  int ac_points_per_decade = 100;
+  double ac_start_hz = unset;  // default: bandwidth / 1000
+  double ac_stop_hz = unset;   // default: bandwidth * 100
+  double tran_step_s = unset;  // default: the step the models use for the chain's step response
+  double tran_stop_s = unset;  // default: the duration the models use (delay and slowest decay)
+  double step_rise_s = unset;  // PULSE rise time; default: tran step / 10, so the step is ideal
+                               // to within a shift of half of it
+
+  bool batch_control = false;
+  std::string data_prefix = "peakplan";  // wrdata path prefix; letters, digits and _ . / + -
+  // Tight tolerances for a reference run (reltol, vntol, abstol, chgtol, trap integration).
+  bool precise = false;
+};
+
+// Throws std::invalid_argument for an unusable data_prefix or analysis range, and
+// std::logic_error when a stage's circuit.c_node is not c_load + the c_in of the stages it
+// feeds (fill_node_capacitances was not applied), because the netlist could not then match
+// what the models analysed.
+std::string write_spice_netlist(const Chain& chain, const NetlistOptions& options = {});
+
+// SPICE-safe name: lower case letters, digits and '_' only (SPICE is case-insensitive).
+std::string spice_safe_name(std::string_view text);
+// A value in SPICE engineering notation: 4.5e-14 -> "45f", 1e6 -> "1meg", 120 -> "120".
+std::string spice_number(double value);
+// Text for a comment: printable ASCII kept, '\' and every other byte escaped as \\ and \xHH.
+std::string comment_safe(std::string_view text);
+
+// The top-level SPICE node names the netlist gives each stage's output, by stage index.
+std::string stage_output_node(const Chain& chain, int stage);
+
+}  // namespace peakplan

@@ -1,0 +1,70 @@
+#include "reports/text_report.hpp"
+
+#include <cmath>
+#include <fmt/format.h>
+
+#include "models/units.hpp"
+
+namespace peakplan {
+namespace {
+
+std::string db(double x) { return std::isfinite(x) ? fmt::format("{:.2f}", x) : "n/a"; }
+std::string pct(double x) { return std::isfinite(x) ? fmt::format("{:.2f} %", x) : "n/a"; }
+
+}  // namespace
+
+std::string load_elements_text(const StageCircuit& c) {
+  std::string out;
+  auto loss = [](double r) { return r > 0.0 ? " (+" + format_si(r, "ohm") + ")" : std::string(); };
+  switch (c.kind) {
+    case LoadKind::plain: out = "-"; break;
+    case LoadKind::shunt:
+    case LoadKind::series: out = "L " + format_si(c.l, "H") + loss(c.r_l); break;
+    case LoadKind::tcoil:
+      out = fmt::format("L1 {}{}, L2 {}{}, k {:.3f}, Cb {}", format_si(c.l1, "H"), loss(c.r_l1),
+                        format_si(c.l2, "H"), loss(c.r_l2), c.k, format_si(c.cb, "F"));
+      if (c.c_w > 0.0) out += ", Cw " + format_si(c.c_w, "F");
+      break;
+  }
+  return out;
+}
+
+std::string analysis_text(const Chain& chain, const ChainAnalysis& analysis) {
+  std::string out = fmt::format("chain: {}\n\nstages (each alone, driving its actual load)\n", chain.name);
+  out += fmt::format("  {:<10} {:<7} {:>9} {:>9} {:>9} {:>9} {:>8} {:>10} {:>8} {:>9} {:>10}  {}\n", "id",
+                     "kind", "gm", "Rd", "C out", "C node", "gain dB", "bandwidth", "peak dB",
+                     "delay", "overshoot", "load");
+  for (const auto& s : analysis.stages) {
+    const auto& st = chain.stages[static_cast<size_t>(s.stage)];
+    const auto& f = s.alone.frequency;
+    out += fmt::format("  {:<10} {:<7} {:>9} {:>9} {:>9} {:>9} {:>8} {:>10} {:>8} {:>9} {:>10}  {}\n", st.id,
+                       to_string(st.circuit.kind), format_si(st.circuit.gm, "S"), format_si(st.circuit.rd, "ohm"),
+                       format_si(st.circuit.c_out, "F"), format_si(st.circuit.c_node, "F"), db(to_db(f.dc_gain)),
+                       format_si(f.bandwidth_hz, "Hz"), db(f.peaking_db), format_si(f.group_delay_s, "s"),
+                       pct(s.alone.step.overshoot_pct), load_elements_text(st.circuit));
+  }
+  for (const auto& s : analysis.stages) {
+    if (!s.design_check) continue;
+    const auto& d = *s.design_check;
+    out += fmt::format(
+        "  note: {} designed as {}: the closed form promises {} and {:.2f} dB peaking; the circuit gives "
+        "{:+.2f} % bandwidth, {:+.3f} dB peaking; input impedance within {:.2f} % of Rd up to 3x bandwidth\n",
+        chain.stages[static_cast<size_t>(s.stage)].id, d.label, format_si(d.ideal_bandwidth_hz, "Hz"),
+        d.ideal_peaking_db, 100.0 * d.bandwidth_departure, d.peaking_departure_db, 100.0 * d.input_impedance_error);
+  }
+  out += "\noutputs (the cascade from the input)\n";
+  out += fmt::format("  {:<10} {:>8} {:>4} {:>10} {:>8} {:>9} {:>9} {:>10} {:>9} {:>9}\n", "node", "gain dB", "pol",
+                     "bandwidth", "peak dB", "delay", "ripple", "overshoot", "rise", "settle");
+  for (const auto& o : analysis.outputs) {
+    const auto& f = o.response.frequency;
+    const auto& t = o.response.step;
+    out += fmt::format("  {:<10} {:>8} {:>4} {:>10} {:>8} {:>9} {:>9} {:>10} {:>9} {:>9}\n",
+                       chain.stages[static_cast<size_t>(o.stage)].id, db(to_db(f.dc_gain)), f.dc_gain < 0 ? "-" : "+",
+                       format_si(f.bandwidth_hz, "Hz"), db(f.peaking_db), format_si(f.group_delay_s, "s"),
+                       format_si(f.group_delay_ripple_s, "s"), pct(t.overshoot_pct), format_si(t.rise_time_s, "s"),
+                       format_si(t.settling_time_s, "s"));
+  }
+  return out;
+}
+
+}  // namespace peakplan

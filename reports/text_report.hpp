@@ -1,0 +1,15 @@
+// The terminal view of an analysis: a per-stage table and a per-output table in engineering units.
+#pragma once
+
+#include <string>
+
+#include "models/analysis.hpp"
+#include "models/chain.hpp"
+
+namespace peakplan {
+
+std::string analysis_text(const Chain& chain, const ChainAnalysis& analysis);
+// "L 180 pH" / "L1 200 pH, L2 200 pH, k 0.333, Cb 6.3 fF": the load elements of one stage.
+std::string load_elements_text(const StageCircuit& circuit);
+
+}  // namespace peakplan

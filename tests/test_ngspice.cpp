@@ -1,0 +1,430 @@
+// The outside reference: the netlist peakplan writes, run through ngspice, must give the
+// response peakplan computes (DESIGN.md section 2, last check). ngspice is a required test
+// dependency (CI installs the Debian package); when it is missing these tests fail.
+//
+// What each side does differently, and so what the tolerances cover:
+//   - AC: ngspice solves the complex MNA system of the netlist at each frequency, peakplan its
+//     own nodal system. Neither integrates or iterates, so they differ only by element values
+//     rounded to 10 significant digits in the netlist (5e-11 each) and by round-off in two LU
+//     solves; kAcRelative = 1e-6 leaves orders of magnitude for the conditioning of the matrix
+//     far above the bandwidth, where |H| is small.
+//   - Bandwidth: ngspice's -3 dB point is interpolated here from a 400-per-decade sweep (steps
+//     of 0.58 % in frequency, linear in dB over log f: an error of order 1e-5 relative);
+//     kBandwidthRelative = 0.5 % is the contract, far above that.
+//   - Step: ngspice integrates (trapezoidal, tmax = 1/(1000 x bandwidth), reltol 1e-7) a step
+//     that rises in tstep/10; peakplan's step is the exact discretisation of an ideal step
+//     sampled every 1/(1000 x bandwidth). Trapezoidal local error at that step is below 1e-6 of
+//     the swing; the finite rise shifts the waveform by half the rise (compensated below) and
+//     lowers the peak by order (rise / period)^2 < 1e-7. kOvershootPoints = 0.3 percentage
+//     points is the contract; kStepDeviation = 1e-4 of the swing bounds the whole waveform.
+#include <doctest/doctest.h>
+
+#include <algorithm>
+#include <cmath>
+#include <cstdlib>
+#include <filesystem>
+#include <fstream>
+#include <numbers>
+#include <sstream>
+#include <string>
+#include <unistd.h>
+#include <vector>
+
+#include "models/analysis.hpp"
+#include "models/chain.hpp"
+#include "models/frequency_response.hpp"
+#include "models/nodal_system.hpp"
+#include "reports/netlist.hpp"
+
+namespace peakplan {
+namespace {
+
+namespace fs = std::filesystem;
+
+constexpr double kAcRelative = 1e-6;
+constexpr double kDcRelative = 1e-9;  // DC: a real solve of the same resistive network
+constexpr double kBandwidthRelative = 0.005;
+constexpr double kOvershootPoints = 0.3;
+constexpr double kStepDeviation = 1e-4;
+constexpr int kPerDecade = 400;
+
+struct OutputFigures {
+  int stage = 0;
+  std::string id;
+  double model_dc = 0.0, spice_dc = 0.0;
+  double model_bandwidth_hz = 0.0, spice_bandwidth_hz = 0.0;
+  double bandwidth_error = 0.0;  // spice / model - 1
+  double model_overshoot_pct = 0.0, spice_overshoot_pct = 0.0;
+  double max_magnitude_error = 0.0;  // max over the sweep of ||H_spice| / |H_model| - 1|
+  double max_complex_error = 0.0;    // max of |H_spice - H_model| / |H_model|
+  double max_step_deviation = 0.0;   // of the normalised step, on the model's time grid
+  size_t ac_points = 0, tran_points = 0;
+};
+
+struct NgspiceComparison {
+  std::vector<OutputFigures> outputs;  // in the order of chain.outputs(), main output last
+};
+
+std::string find_ngspice() {
+  const char* path = std::getenv("PATH");
+  std::stringstream dirs(path ? path : "");
+  for (std::string dir; std::getline(dirs, dir, ':');) {
+    const fs::path candidate = fs::path(dir.empty() ? "." : dir) / "ngspice";
+    if (fs::is_regular_file(candidate) && ::access(candidate.c_str(), X_OK) == 0)
+      return candidate.string();
+  }
+  return {};
+}
+
+std::string read_text(const fs::path& p) {
+  std::ifstream in(p);
+  std::stringstream ss;
+  ss << in.rdbuf();
+  return ss.str();
+}
+
+// wrdata with wr_singlescale and wr_vecnames: one header line, then rows of numbers.
+std::vector<std::vector<double>> read_wrdata(const fs::path& p) {
+  std::ifstream in(p);
+  if (!in) throw std::runtime_error("ngspice wrote no " + p.string());
+  std::vector<std::vector<double>> rows;
+  std::string line;
+  std::getline(in, line);  // vector names
+  while (std::getline(in, line)) {
+    std::istringstream ls(line);
+    std::vector<double> row;
+    for (double x; ls >> x;) row.push_back(x);
+    if (!row.empty()) rows.push_back(std::move(row));
+  }
+  return rows;
+}
+
+// First fall of |h| to |dc|/sqrt(2), interpolated linearly in dB over log f.
+double first_crossing(const std::vector<double>& f, const std::vector<double>& mag, double dc) {
+  const double target = 20.0 * std::log10(std::fabs(dc) / std::numbers::sqrt2);
+  for (size_t i = 1; i < f.size(); ++i) {
+    const double a = 20.0 * std::log10(mag[i - 1]), b = 20.0 * std::log10(mag[i]);
+    if (a >= target && b < target) {
+      const double u = (a - target) / (a - b);
+      return std::exp(std::log(f[i - 1]) + u * (std::log(f[i]) - std::log(f[i - 1])));
+    }
+  }
+  return not_found;
+}
+
+double interpolate(const std::vector<double>& t, const std::vector<double>& y, double at) {
+  const auto it = std::lower_bound(t.begin(), t.end(), at);
+  if (it == t.begin()) return y.front();
+  if (it == t.end()) return y.back();
+  const size_t i = static_cast<size_t>(it - t.begin());
+  const double u = (at - t[i - 1]) / (t[i] - t[i - 1]);
+  return y[i - 1] + u * (y[i] - y[i - 1]);
+}
+
+// Writes the chain's netlist, runs ngspice on it and measures every output node against
+// analyze_chain. Throws with the log when ngspice fails; the work directory is then kept.
+NgspiceComparison compare_with_ngspice(const Chain& chain) {
+  const std::string ngspice = find_ngspice();
+  if (ngspice.empty())
+    throw std::runtime_error(
+        "ngspice not found on PATH: install it (Debian package 'ngspice'); the ngspice "
+        "comparison is a required check and does not skip");
+
+  const ChainAnalysis analysis = analyze_chain(chain);
+  const double bw = analysis.outputs.back().response.frequency.bandwidth_hz;
+
+  std::string pattern = (fs::temp_directory_path() / "peakplan-ngspice-XXXXXX").string();
+  if (::mkdtemp(pattern.data()) == nullptr) throw std::runtime_error("mkdtemp failed");
+  const fs::path dir = pattern;
+
+  NetlistOptions options;
+  options.bandwidth_hz = bw;
+  options.ac_points_per_decade = kPerDecade;
+  options.ac_start_hz = bw / 1000.0;
+  options.ac_stop_hz = bw * 20.0;
+  options.tran_step_s = analysis.outputs.back().response.step_wave.dt;
+  options.step_rise_s = options.tran_step_s / 10.0;
+  options.batch_control = true;
+  options.precise = true;
+  options.data_prefix = (dir / "run").string();
+  const fs::path netlist = dir / "chain.cir";
+  std::ofstream(netlist) << write_spice_netlist(chain, options);
+
+  const fs::path log = dir / "ngspice.log";
+  const std::string command =
+      "'" + ngspice + "' -b '" + netlist.string() + "' > '" + log.string() + "' 2>&1";
+  const int rc = std::system(command.c_str());
+  if (rc != 0 || !fs::exists(options.data_prefix + ".tran.txt"))
+    throw std::runtime_error("ngspice failed (status " + std::to_string(rc) + ") on " +
+                             netlist.string() + ":\n" + read_text(log));
+
+  const auto dc_rows = read_wrdata(options.data_prefix + ".dc.txt");
+  const auto ac_rows = read_wrdata(options.data_prefix + ".ac.txt");
+  const auto tran_rows = read_wrdata(options.data_prefix + ".tran.txt");
+  const std::vector<int> outputs = chain.outputs();
+  const size_t n_out = outputs.size();
+  if (dc_rows.size() != 1 || dc_rows[0].size() != 1 + n_out || ac_rows.empty() ||
+      ac_rows[0].size() != 1 + 2 * n_out || tran_rows.empty() || tran_rows[0].size() != 1 + n_out)
+    throw std::runtime_error("unexpected ngspice data layout in " + dir.string());
+
+  std::vector<double> freq, time;
+  for (const auto& r : ac_rows) freq.push_back(r[0]);
+  for (const auto& r : tran_rows) time.push_back(r[0]);
+
+  // The model's exact nodal solves at ngspice's own frequencies.
+  std::vector<NodalSystem> systems;
+  for (const auto& s : chain.stages) systems.push_back(build_stage_system(s.circuit));
+  NodalSystem source;
+  const double c_in0 = chain.stages[static_cast<size_t>(chain.input_stage())].c_in;
+  const bool through_source = chain.r_source > 0.0 && c_in0 > 0.0;
+  if (through_source) {
+    const int in = source.add_node("in");
+    source.add_source(in, chain.r_source);
+    source.add_capacitor(in, NodalSystem::ground, c_in0);
+    source.set_output(in);
+  }
+  const FrequencyGrid grid(freq);
+
+  NgspiceComparison result;
+  for (size_t o = 0; o < n_out; ++o) {
+    const auto& model = analysis.outputs[o].response;
+    OutputFigures fig;
+    fig.stage = outputs[o];
+    fig.id = chain.stages[static_cast<size_t>(fig.stage)].id;
+    fig.model_dc = model.frequency.dc_gain;
+    fig.spice_dc = dc_rows[0][1 + o];
+    fig.model_bandwidth_hz = model.frequency.bandwidth_hz;
+    fig.model_overshoot_pct = model.step.overshoot_pct;
+    fig.ac_points = freq.size();
+    fig.tran_points = time.size();
+
+    std::vector<const NodalSystem*> blocks;
+    if (through_source) blocks.push_back(&source);
+    for (int s : chain.path_to(fig.stage)) blocks.push_back(&systems[static_cast<size_t>(s)]);
+    const SampledResponse exact = sample_nodal(blocks, grid);
+
+    std::vector<double> mag;
+    for (size_t i = 0; i < freq.size(); ++i) {
+      const std::complex<double> h_spice{ac_rows[i][1 + 2 * o], ac_rows[i][2 + 2 * o]};
+      const std::complex<double> h_model = exact.h[i];
+      mag.push_back(std::abs(h_spice));
+      fig.max_magnitude_error =
+          std::max(fig.max_magnitude_error, std::fabs(std::abs(h_spice) / std::abs(h_model) - 1.0));
+      fig.max_complex_error =
+          std::max(fig.max_complex_error, std::abs(h_spice - h_model) / std::abs(h_model));
+    }
+    fig.spice_bandwidth_hz = first_crossing(freq, mag, fig.spice_dc);
+    fig.bandwidth_error = fig.spice_bandwidth_hz / fig.model_bandwidth_hz - 1.0;
+
+    std::vector<double> y;
+    double peak = -std::numeric_limits<double>::infinity();
+    for (const auto& r : tran_rows) {
+      y.push_back(r[1 + o] / fig.spice_dc);
+      peak = std::max(peak, y.back());
+    }
+    fig.spice_overshoot_pct = std::max(0.0, 100.0 * (peak - 1.0));
+
+    // A ramp of duration `rise` lags an ideal step's response by rise/2.
+    const double shift = options.step_rise_s / 2.0;
+    for (size_t k = 0; k < model.step_wave.y.size(); ++k) {
+      const double t = model.step_wave.time(k);
+      if (t > time.back()) break;
+      fig.max_step_deviation = std::max(
+          fig.max_step_deviation, std::fabs(interpolate(time, y, t + shift) - model.step_wave.y[k]));
+    }
+    result.outputs.push_back(fig);
+  }
+  fs::remove_all(dir);
+  return result;
+}
+
+// Runs the comparison and checks every output node against the tolerances above.
+NgspiceComparison check_with_ngspice(const Chain& chain) {
+  NgspiceComparison c;
+  try {
+    c = compare_with_ngspice(chain);
+  } catch (const std::exception& e) {
+    FAIL("chain '" << chain.name << "': " << e.what());
+  }
+  for (const auto& f : c.outputs) {
+    INFO("chain '" << chain.name << "', output '" << f.id << "'");
+    MESSAGE("ngspice vs peakplan, chain '"
+            << chain.name << "', output '" << f.id << "': bandwidth " << f.model_bandwidth_hz
+            << " Hz, error " << 100.0 * f.bandwidth_error << " %; overshoot "
+            << f.model_overshoot_pct << " % vs " << f.spice_overshoot_pct << " % (diff "
+            << f.spice_overshoot_pct - f.model_overshoot_pct << " pp); max |H| error "
+            << f.max_magnitude_error << ", max complex error " << f.max_complex_error
+            << ", max step deviation " << f.max_step_deviation << " (" << f.ac_points
+            << " frequencies, " << f.tran_points << " time points)");
+    CHECK(f.spice_dc == doctest::Approx(f.model_dc).epsilon(kDcRelative));
+    CHECK(f.max_complex_error < kAcRelative);
+    CHECK(f.max_magnitude_error < kAcRelative);
+    CHECK(std::fabs(f.bandwidth_error) < kBandwidthRelative);
+    CHECK(std::fabs(f.spice_overshoot_pct - f.model_overshoot_pct) < kOvershootPoints);
+    CHECK(f.max_step_deviation < kStepDeviation);
+  }
+  return c;
+}
+
+ChainStage make_stage(std::string id, int driver, StageCircuit circuit, double c_in,
+                      double c_load = 0.0) {
+  ChainStage s;
+  s.id = std::move(id);
+  s.driver = driver;
+  s.circuit = circuit;
+  s.c_in = c_in;
+  s.c_load = c_load;
+  return s;
+}
+
+StageCircuit plain(double gm, double rd, double c_out) {
+  StageCircuit c;
+  c.kind = LoadKind::plain;
+  c.gm = gm;
+  c.rd = rd;
+  c.c_out = c_out;
+  return c;
+}
+
+StageCircuit inductive(LoadKind kind, double gm, double rd, double l, double r_l, double c_out) {
+  StageCircuit c = plain(gm, rd, c_out);
+  c.kind = kind;
+  c.l = l;
+  c.r_l = r_l;
+  return c;
+}
+
+StageCircuit tcoil(double gm, double rd, double l1, double l2, double k, double cb, double c_out) {
+  StageCircuit c = plain(gm, rd, c_out);
+  c.kind = LoadKind::tcoil;
+  c.l1 = l1;
+  c.l2 = l2;
+  c.k = k;
+  c.cb = cb;
+  return c;
+}
+
+Chain finish(Chain chain) {
+  fill_node_capacitances(chain);
+  return chain;
+}
+
+// Element values are invented, sized like a 20-40 GHz post-amplifier (RC of a few ps).
+Chain plain_chain() {
+  Chain c{"plain pair, 50 ohm source, 100 ohm off-chip load", 50.0, {}};
+  c.stages.push_back(make_stage("p1", -1, plain(0.04, 120.0, 30e-15), 60e-15));
+  StageCircuit p2 = plain(0.03, 150.0, 25e-15);
+  p2.r_load = 100.0;
+  c.stages.push_back(make_stage("p2", 0, p2, 50e-15, 20e-15));
+  return finish(c);
+}
+
+Chain shunt_chain() {
+  // m = L/(Rd^2 C) near 0.4 on each stage; r_l from a Q of about 10 at 30 GHz.
+  Chain c{"shunt-peaked pair with lossy coils", 50.0, {}};
+  c.stages.push_back(make_stage("s1", -1, inductive(LoadKind::shunt, 0.04, 100.0, 0.38e-9, 7.0, 35e-15), 60e-15));
+  c.stages.push_back(make_stage("s2", 0, inductive(LoadKind::shunt, 0.04, 100.0, 0.30e-9, 5.5, 30e-15), 60e-15, 15e-15));
+  return finish(c);
+}
+
+Chain series_chain() {
+  // Ideal voltage drive (r_source = 0): the netlist's source sits on the input node itself.
+  Chain c{"series-peaked stage into a 50 ohm termination", 0.0, {}};
+  c.stages.push_back(make_stage("r1", -1, plain(0.03, 100.0, 40e-15), 50e-15));
+  StageCircuit r2 = inductive(LoadKind::series, 0.05, 100.0, 0.45e-9, 6.0, 30e-15);
+  r2.r_load = 200.0;
+  c.stages.push_back(make_stage("r2", 0, r2, 45e-15, 60e-15));
+  return finish(c);
+}
+
+Chain tcoil_ideal_chain() {
+  // Battjes' maximally flat design, C = 100 fF at the tap, R = 100 ohm: 2L(1+k) = R^2 C gives
+  // L = 375 pH at k = 1/3, Cb = C/8 (DESIGN.md section 2): the defective double pole pair.
+  Chain c{"ideal symmetric T-coil, k = 1/3", 0.0, {}};
+  c.stages.push_back(make_stage("t1", -1, tcoil(0.04, 100.0, 375e-12, 375e-12, 1.0 / 3.0, 12.5e-15, 0.0), 40e-15));
+  c.stages.push_back(make_stage("t2", 0, plain(0.02, 50.0, 10e-15), 100e-15, 20e-15));
+  return finish(c);
+}
+
+Chain tcoil_lossy_chain() {
+  Chain c{"asymmetric lossy T-coil with winding capacitance", 50.0, {}};
+  StageCircuit t = tcoil(0.04, 100.0, 420e-12, 330e-12, 0.42, 9e-15, 25e-15);
+  t.r_l1 = 6.0;
+  t.r_l2 = 4.0;
+  t.c_w = 3e-15;
+  t.r_load = 400.0;
+  c.stages.push_back(make_stage("t1", -1, plain(0.03, 80.0, 20e-15), 70e-15));
+  c.stages.push_back(make_stage("t2", 0, t, 60e-15, 40e-15));
+  return finish(c);
+}
+
+Chain fan_out_chain() {
+  // A T-coil stage feeding a shunt stage (then a series stage, the main output) and a plain
+  // monitor stage; the T-coil node is tapped. Ids carry what a netlist must survive: a
+  // newline followed by ".end", upper/lower case twins, a SPICE comment character, non-ASCII.
+  Chain c{"fan-out\n.end\nwith a tap", 50.0, {}};
+  StageCircuit t = tcoil(0.04, 100.0, 400e-12, 360e-12, 0.35, 10e-15, 20e-15);
+  t.c_w = 2e-15;
+  t.r_l1 = 3.0;
+  t.r_l2 = 3.0;
+  auto a1 = make_stage("A1\n.end", -1, t, 50e-15, 10e-15);
+  a1.tap = true;
+  c.stages.push_back(a1);
+  c.stages.push_back(make_stage("a1;*main", 0, inductive(LoadKind::shunt, 0.04, 100.0, 0.35e-9, 4.0, 30e-15), 45e-15));
+  StageCircuit monitor = plain(0.01, 200.0, 10e-15);
+  monitor.r_load = 50.0;
+  c.stages.push_back(make_stage("mon\xc2\xb5", 0, monitor, 15e-15, 30e-15));
+  c.stages.push_back(make_stage("a3", 1, inductive(LoadKind::series, 0.03, 120.0, 0.4e-9, 5.0, 25e-15), 50e-15, 40e-15));
+  // File order puts the monitor before a3, so a3 (a leaf, last) is the main output.
+  return finish(c);
+}
+
+}  // namespace
+
+TEST_CASE("netlist: numbers are written in SPICE engineering notation") {
+  // SPICE reads m as milli and meg as mega; exact decimal strings are the expected text.
+  CHECK(spice_number(45e-15) == "45f");
+  CHECK(spice_number(0.6e-9) == "600p");
+  CHECK(spice_number(120.0) == "120");
+  CHECK(spice_number(0.04) == "40m");
+  CHECK(spice_number(2.5e6) == "2.5meg");
+  CHECK(spice_number(32e9) == "32g");
+  CHECK(spice_number(-3e-12) == "-3p");
+  CHECK(spice_number(0.0) == "0");
+}
+
+TEST_CASE("netlist: ids cannot break lines or collide as SPICE names") {
+  CHECK(comment_safe("a\n.end") == "a\\x0a.end");
+  CHECK(comment_safe("x\\y") == "x\\\\y");
+  CHECK(spice_safe_name("A1\n.end") == "a1__end");
+  const Chain chain = fan_out_chain();
+  const std::string text = write_spice_netlist(chain);
+  std::istringstream lines(text);
+  std::string line;
+  int ends = 0;
+  while (std::getline(lines, line)) ends += line == ".end";
+  CHECK(ends == 1);  // only the real one, last
+  CHECK(text.ends_with(".end\n"));
+  CHECK(stage_output_node(chain, 0) != stage_output_node(chain, 1));  // "A1..." vs "a1..."
+  CHECK(text.find(".control") == std::string::npos);  // the designer netlist is plain
+}
+
+TEST_CASE("netlist: a chain whose node capacitances were not filled is refused") {
+  Chain chain = plain_chain();
+  chain.stages[0].circuit.c_node = 0.0;  // the 50 fF of p2's input and nothing else
+  CHECK_THROWS_AS(write_spice_netlist(chain), std::logic_error);
+}
+
+TEST_CASE("ngspice: plain stages give peakplan's response") { check_with_ngspice(plain_chain()); }
+TEST_CASE("ngspice: shunt-peaked stages give peakplan's response") { check_with_ngspice(shunt_chain()); }
+TEST_CASE("ngspice: series-peaked stage gives peakplan's response") { check_with_ngspice(series_chain()); }
+TEST_CASE("ngspice: ideal T-coil gives peakplan's response") { check_with_ngspice(tcoil_ideal_chain()); }
+TEST_CASE("ngspice: lossy asymmetric T-coil gives peakplan's response") {
+  check_with_ngspice(tcoil_lossy_chain());
+}
+TEST_CASE("ngspice: fan-out with a tap gives peakplan's response at every output") {
+  const auto c = check_with_ngspice(fan_out_chain());
+  CHECK(c.outputs.size() == 3);  // the tap, the monitor, the main output
+}
+
+}  // namespace peakplan
