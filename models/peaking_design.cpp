@@ -9,7 +9,7 @@ namespace peakplan {
 double inductance_for_m(double m, double rd, double c_total) { return m * rd * rd * c_total; }
 
 TcoilDesign tcoil_for_zeta(double zeta, double rd, double c_tap) {
-  if (!(zeta > 0.5)) throw std::invalid_argument("tcoil_for_zeta: zeta must exceed 1/2 for k > 0");
+  if (!(zeta > 0.0)) throw std::invalid_argument("tcoil_for_zeta: zeta must be positive");
   const double z2 = 4.0 * zeta * zeta;
   const double k = (z2 - 1.0) / (z2 + 1.0);
   return {rd * rd * c_tap / (2.0 * (1.0 + k)), k, c_tap * (1.0 - k) / (4.0 * (1.0 + k))};

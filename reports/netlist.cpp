@@ -121,6 +121,9 @@ void check_node_capacitances(const Chain& chain) {
   }
 }
 
+// Analysis settings need no more digits than a designer would type.
+std::string card(double value) { return spice_number(value, 4); }
+
 bool safe_prefix(const std::string& p) {
   if (p.empty()) return false;
   return std::all_of(p.begin(), p.end(), [](unsigned char c) {
@@ -175,7 +178,7 @@ std::string spice_safe_name(std::string_view text) {
   return name;
 }
 
-std::string spice_number(double value) {
+std::string spice_number(double value, int digits) {
   if (value == 0.0) return "0";
   if (!std::isfinite(value)) throw std::invalid_argument("spice_number: not a finite value");
   struct Prefix {
@@ -194,9 +197,9 @@ std::string spice_number(double value) {
       break;
     }
   }
-  // Ten significant digits: rounding stays far below any tolerance the netlist is checked to.
   char mantissa[40];
-  std::snprintf(mantissa, sizeof mantissa, "%.10g", value / std::pow(10.0, chosen->exponent));
+  std::snprintf(mantissa, sizeof mantissa, "%.*g", std::clamp(digits, 1, 17),
+                value / std::pow(10.0, chosen->exponent));
   return std::string(mantissa) + chosen->suffix;
 }
 
@@ -256,9 +259,8 @@ std::string write_spice_netlist(const Chain& chain, const NetlistOptions& option
 
   out << "* source: 1 V AC, and a 0 -> 1 V step for .tran\n";
   const bool through_resistor = resistor_present(chain.r_source);
-  const std::string pulse = "PULSE(0 1 0 " + spice_number(a.rise) + " " + spice_number(a.rise) +
-                            " " + spice_number(4.0 * a.tran_stop) + " " +
-                            spice_number(8.0 * a.tran_stop) + ")";
+  const std::string pulse = "PULSE(0 1 0 " + card(a.rise) + " " + card(a.rise) + " " +
+                            card(4.0 * a.tran_stop) + " " + card(8.0 * a.tran_stop) + ")";
   out << "Vin " << (through_resistor ? "src" : "in") << " 0 DC 0 AC 1 " << pulse << '\n';
   if (through_resistor) out << "Rsource src in " << spice_number(chain.r_source) << '\n';
   out << '\n';
@@ -283,11 +285,11 @@ std::string write_spice_netlist(const Chain& chain, const NetlistOptions& option
 
   if (options.precise)
     out << ".options method=trap reltol=1e-7 vntol=1e-12 abstol=1e-15 chgtol=1e-20\n";
-  const std::string ac = "dec " + std::to_string(a.per_decade) + " " + spice_number(a.ac_start) +
-                         " " + spice_number(a.ac_stop);
+  const std::string ac =
+      "dec " + std::to_string(a.per_decade) + " " + card(a.ac_start) + " " + card(a.ac_stop);
   // tmax = tstep: the simulator's own step control would otherwise stride across the rise.
-  const std::string tran = spice_number(a.tran_step) + " " + spice_number(a.tran_stop) + " 0 " +
-                           spice_number(a.tran_step);
+  const std::string tran =
+      card(a.tran_step) + " " + card(a.tran_stop) + " 0 " + card(a.tran_step);
   out << ".ac " << ac << '\n';
   out << ".tran " << tran << '\n';
 

@@ -62,7 +62,9 @@ std::string write_spice_netlist(const Chain& chain, const NetlistOptions& option
 // SPICE-safe name: lower case letters, digits and '_' only (SPICE is case-insensitive).
 std::string spice_safe_name(std::string_view text);
 // A value in SPICE engineering notation: 4.5e-14 -> "45f", 1e6 -> "1meg", 120 -> "120".
-std::string spice_number(double value);
+// Element values use 10 significant digits, so rounding (5e-11) is far below any tolerance the
+// netlist is checked to; analysis cards use 4.
+std::string spice_number(double value, int digits = 10);
 // Text for a comment: printable ASCII kept, '\' and every other byte escaped as \\ and \xHH.
 std::string comment_safe(std::string_view text);
 

@@ -244,12 +244,12 @@ NgspiceComparison check_with_ngspice(const Chain& chain) {
   try {
     c = compare_with_ngspice(chain);
   } catch (const std::exception& e) {
-    FAIL("chain '" << chain.name << "': " << e.what());
+    FAIL("chain '" << comment_safe(chain.name) << "': " << e.what());
   }
   for (const auto& f : c.outputs) {
-    INFO("chain '" << chain.name << "', output '" << f.id << "'");
+    INFO("chain '" << comment_safe(chain.name) << "', output '" << comment_safe(f.id) << "'");
     MESSAGE("ngspice vs peakplan, chain '"
-            << chain.name << "', output '" << f.id << "': bandwidth " << f.model_bandwidth_hz
+            << comment_safe(chain.name) << "', output '" << comment_safe(f.id) << "': bandwidth " << f.model_bandwidth_hz
             << " Hz, error " << 100.0 * f.bandwidth_error << " %; overshoot "
             << f.model_overshoot_pct << " % vs " << f.spice_overshoot_pct << " % (diff "
             << f.spice_overshoot_pct - f.model_overshoot_pct << " pp); max |H| error "
@@ -419,6 +419,25 @@ TEST_CASE("ngspice: plain stages give peakplan's response") { check_with_ngspice
 TEST_CASE("ngspice: shunt-peaked stages give peakplan's response") { check_with_ngspice(shunt_chain()); }
 TEST_CASE("ngspice: series-peaked stage gives peakplan's response") { check_with_ngspice(series_chain()); }
 TEST_CASE("ngspice: ideal T-coil gives peakplan's response") { check_with_ngspice(tcoil_ideal_chain()); }
+TEST_CASE("ngspice: Battjes' maximally flat T-coil overshoots 100*exp(-pi) % with f3dB = 2*sqrt(2)/(2*pi*R*C)") {
+  // Derived from DESIGN.md section 2 (Battjes): k = 1/3, Cb = C/8 gives
+  // 1 / (1 + s*RC/2 + s^2*R^2*C^2/8): w0 = 2*sqrt(2)/(RC), zeta = 1/sqrt(2), so the -3 dB point
+  // is w0 and the overshoot exp(-pi*zeta/sqrt(1 - zeta^2)) = exp(-pi) = 4.32 % ("about 4.3 %").
+  // This checks ngspice's run of the netlist against the closed form, not against peakplan: the
+  // sign convention of the K element included. Tolerances: the interpolation (1e-5) and
+  // integration (1e-5 of the swing) errors of the comparison above, with a margin of ten.
+  constexpr double r = 100.0, c = 100e-15;
+  Chain chain{"Battjes T-coil alone, k = 1/3", 0.0, {}};
+  chain.stages.push_back(make_stage("t", -1, tcoil(0.04, r, 375e-12, 375e-12, 1.0 / 3.0, c / 8.0, 0.0), 0.0, c));
+  const auto cmp = check_with_ngspice(finish(chain));
+  REQUIRE(cmp.outputs.size() == 1);
+  const auto& f = cmp.outputs[0];
+  CHECK(f.spice_overshoot_pct == doctest::Approx(100.0 * std::exp(-std::numbers::pi)).epsilon(1e-3));
+  CHECK(f.spice_bandwidth_hz ==
+        doctest::Approx(2.0 * std::numbers::sqrt2 / (2.0 * std::numbers::pi * r * c)).epsilon(1e-4));
+  CHECK(f.spice_dc == doctest::Approx(-0.04 * r).epsilon(1e-12));  // -gm*R: the stage inverts
+}
+
 TEST_CASE("ngspice: lossy asymmetric T-coil gives peakplan's response") {
   check_with_ngspice(tcoil_lossy_chain());
 }

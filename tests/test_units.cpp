@@ -15,7 +15,7 @@ TEST_CASE("units: prefixed quantities parse to SI base units") {
   CHECK(*parse_quantity("3 ps", Dimension::time).value == doctest::Approx(3e-12));
   CHECK(*parse_quantity("30 dB", Dimension::decibels).value == doctest::Approx(30.0));
   CHECK(*parse_quantity("5 %", Dimension::fraction).value == doctest::Approx(0.05));
-  CHECK(*parse_quantity("1.5k ohm", Dimension::resistance).value == doctest::Approx(1500.0));
+  CHECK(*parse_quantity("1.5 kohm", Dimension::resistance).value == doctest::Approx(1500.0));
   CHECK(*parse_quantity("2e-15", Dimension::capacitance).value == doctest::Approx(2e-15));
 }
 

@@ -1,0 +1,60 @@
+// Cascades of identical stages against textbook closed forms.
+#include <doctest/doctest.h>
+
+#include "test_support.hpp"
+
+using namespace peakplan;
+using namespace peakplan::test;
+
+TEST_CASE("cascade: n identical first-order stages shrink bandwidth by sqrt(2^(1/n) - 1)") {
+  // Textbook derivation (B. Razavi, Design of Integrated Circuits for Optical Communications,
+  // limiting-amplifier chapter): 0.6436, 0.5098, 0.4350, 0.3499 for n = 2, 3, 4, 6.
+  const auto block = build_stage_system(plain_stage()).rational();
+  for (int n : {2, 3, 4, 6}) {
+    CAPTURE(n);
+    Cascade c;
+    for (int i = 0; i < n; ++i) c.append(block);
+    CHECK(frequency_metrics(c).bandwidth_hz / plain_bandwidth() ==
+          doctest::Approx(std::sqrt(std::pow(2.0, 1.0 / n) - 1.0)).epsilon(1e-9));
+    CHECK(c.dc_value() == doctest::Approx(std::pow(-2.0, n)));
+  }
+}
+
+TEST_CASE("cascade: a first-order stage rises in 2.197 RC and delays by RC") {
+  // 10-90 % rise of 1 - exp(-t/RC) is RC ln 9 = 2.1972 RC; group delay at DC is RC (derived).
+  const auto c = alone(plain_stage());
+  const double rc = 100.0 * 100e-15;
+  const auto f = frequency_metrics(c);
+  const auto t = step_metrics(step_response(c, choose_time_axis(c, f.bandwidth_hz)));
+  CHECK(t.rise_time_s == doctest::Approx(std::log(9.0) * rc).epsilon(1e-4));
+  CHECK(f.group_delay_s == doctest::Approx(rc).epsilon(1e-12));
+  CHECK(t.overshoot_pct == doctest::Approx(0.0));
+  CHECK(t.settling_time_s == doctest::Approx(std::log(100.0) * rc).epsilon(1e-4));  // 1 % band: RC ln 100
+}
+
+TEST_CASE("cascade: two Butterworth T-coil stages follow (2^(1/n) - 1)^(1/4)") {
+  // n identical second-order Butterworth stages: BW_n/BW_1 = (2^(1/n) - 1)^(1/4) (derived).
+  const auto block = build_stage_system(tcoil_stage(1.0 / std::sqrt(2.0))).rational();
+  const double one = frequency_metrics(Cascade({block})).bandwidth_hz;
+  for (int n : {2, 3}) {
+    Cascade c;
+    for (int i = 0; i < n; ++i) c.append(block);
+    CHECK(frequency_metrics(c).bandwidth_hz / one == doctest::Approx(std::pow(std::pow(2.0, 1.0 / n) - 1.0, 0.25)).epsilon(1e-9));
+  }
+}
+
+TEST_CASE("cascade: the step response of two defective T-coil poles is exact") {
+  // Two identical critically damped stages: (1 + s/w)^-4 overall, whose step response has the
+  // closed form 1 - e^{-x}(1 + x + x^2/2 + x^3/6), x = w t (derived). Poles and residues would
+  // fail here; the matrix exponential does not.
+  const auto s = tcoil_stage(1.0);
+  const auto block = build_stage_system(s).rational();
+  const Cascade c({block, block});
+  const double w = 4.0 / (s.rd * s.c_node);  // w_n = 4 zeta/(RC), zeta = 1
+  const auto step = step_response(c, TimeAxis{0.05e-12, 400});
+  for (size_t k = 0; k < step.y.size(); k += 37) {
+    const double x = w * step.time(k);
+    const double expected = 1.0 - std::exp(-x) * (1.0 + x + x * x / 2.0 + x * x * x / 6.0);
+    CHECK(step.y[k] == doctest::Approx(expected).epsilon(1e-9));
+  }
+}
