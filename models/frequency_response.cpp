@@ -86,9 +86,9 @@ SampledResponse sample_rational(const Cascade& cascade, const FrequencyGrid& gri
   r.h.resize(grid.size());
   r.group_delay_s.resize(grid.size());
   for (size_t i = 0; i < grid.size(); ++i) {
-    const auto s = at(grid.hz()[i]);
-    r.h[i] = cascade.evaluate(s);
-    r.group_delay_s[i] = -cascade.log_derivative(s).real();
+    const auto p = cascade.at_frequency(kTwoPi * grid.hz()[i]);
+    r.h[i] = p.h;
+    r.group_delay_s[i] = p.group_delay;
   }
   return r;
 }
@@ -111,7 +111,7 @@ std::pair<double, double> natural_span(const Cascade& cascade, double margin_dec
 }
 
 double group_delay(const Cascade& cascade, double f_hz) {
-  return -cascade.log_derivative(at(f_hz)).real();
+  return cascade.at_frequency(kTwoPi * f_hz).group_delay;
 }
 
 FrequencyMetrics frequency_metrics(const Cascade& cascade, double ripple_band_hz) {
@@ -125,7 +125,7 @@ FrequencyMetrics frequency_metrics(const Cascade& cascade, double ripple_band_hz
   const int points = std::max(2, static_cast<int>(std::log10(f_hi / f_lo) * kScanPerDecade));
   const double step = std::log(f_hi / f_lo) / (points - 1);
   auto freq = [&](double u) { return f_lo * std::exp(u); };
-  auto mag = [&](double u) { return std::abs(cascade.evaluate(at(freq(u)))); };
+  auto mag = [&](double u) { return std::abs(cascade.at_frequency(kTwoPi * freq(u)).h); };
 
   // Bandwidth: the first scan point below h0/sqrt(2), then bisection on log frequency.
   const double level = h0 / std::sqrt(2.0);

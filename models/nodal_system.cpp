@@ -15,6 +15,7 @@ bool absent_resistor(double ohms) { return !std::isfinite(ohms) || ohms <= 0.0; 
 }  // namespace
 
 int NodalSystem::add_node(std::string name) {
+  assembled_.reset();
   node_names_.push_back(std::move(name));
   return node_count() - 1;
 }
@@ -34,25 +35,35 @@ void NodalSystem::add_resistor(int a, int b, double ohms) {
 }
 
 void NodalSystem::add_conductance(int a, int b, double siemens) {
-  if (siemens != 0.0) stamp(g_entries_, a, b, siemens);
+  assembled_.reset();
+  if (siemens == 0.0) return;
+  stamp(g_entries_, a, b, siemens);
+  conductances_.emplace_back(a, b, siemens);
 }
 
 void NodalSystem::add_capacitor(int a, int b, double farads) {
+  assembled_.reset();
   if (farads != 0.0) stamp(c_entries_, a, b, farads * kScale);
 }
 
 int NodalSystem::add_inductor(int a, int b, double henries, double series_ohms) {
+  assembled_.reset();
   inductors_.push_back({a, b, branches_, henries * kScale, series_ohms});
   return branches_++;
 }
 
 void NodalSystem::add_mutual(int branch1, int branch2, double henries) {
+  assembled_.reset();
   if (henries != 0.0) mutuals_.emplace_back(branch1, branch2, henries * kScale);
 }
 
-void NodalSystem::add_gm_drive(int node, double siemens) { drive_.emplace_back(node, -siemens); }
+void NodalSystem::add_gm_drive(int node, double siemens) { assembled_.reset();
+  drive_.emplace_back(node, -siemens);
+  gm_cells_.emplace_back(node, siemens);
+}
 
 void NodalSystem::add_source(int node, double ohms) {
+  assembled_.reset();
   if (absent_resistor(ohms))
     throw std::logic_error("add_source needs a finite positive source resistance");
   add_resistor(node, ground, ohms);
@@ -101,8 +112,26 @@ Eigen::VectorXd NodalSystem::b() const {
   return rhs;
 }
 
+std::vector<NodalSystem::NoiseGenerator> NodalSystem::noise_generators() const {
+  std::vector<NoiseGenerator> out;
+  for (const auto& [a, b, g] : conductances_) out.push_back({NoiseGenerator::Kind::resistor, a, b, g});
+  for (const auto& l : inductors_)
+    if (l.r > 0.0)
+      out.push_back({NoiseGenerator::Kind::coil_loss, node_count() + l.branch, ground, l.r});
+  for (const auto& [node, gm] : gm_cells_)
+    if (gm != 0.0) out.push_back({NoiseGenerator::Kind::gm_cell, node, ground, gm});
+  return out;
+}
+
+const NodalSystem::Assembled& NodalSystem::assembled() const {
+  if (!assembled_)
+    assembled_ = Assembled{G().cast<std::complex<double>>(), C().cast<std::complex<double>>(),
+                           b().cast<std::complex<double>>()};
+  return *assembled_;
+}
+
 Eigen::MatrixXcd NodalSystem::matrix_at(std::complex<double> s_scaled) const {
-  return G().cast<std::complex<double>>() + s_scaled * C().cast<std::complex<double>>();
+  return assembled().g + s_scaled * assembled().c;
 }
 
 std::complex<double> NodalSystem::transfer(std::complex<double> s) const {
@@ -112,11 +141,10 @@ std::complex<double> NodalSystem::transfer(std::complex<double> s) const {
 std::pair<std::complex<double>, std::complex<double>> NodalSystem::transfer_and_derivative(
     std::complex<double> s) const {
   if (output_ == ground) throw std::logic_error("NodalSystem: no output node set");
-  const Eigen::MatrixXcd c = C().cast<std::complex<double>>();
-  const Eigen::MatrixXcd y = G().cast<std::complex<double>>() + (s * time_scale) * c;
-  const Eigen::PartialPivLU<Eigen::MatrixXcd> lu(y);
-  const Eigen::VectorXcd x = lu.solve(b().cast<std::complex<double>>());
-  const Eigen::VectorXcd dx = -lu.solve(c * x);  // per scaled s
+  const auto& a = assembled();
+  const Eigen::PartialPivLU<Eigen::MatrixXcd> lu(a.g + (s * time_scale) * a.c);
+  const Eigen::VectorXcd x = lu.solve(a.b);
+  const Eigen::VectorXcd dx = -lu.solve(a.c * x);  // per scaled s
   return {x(output_), dx(output_) * time_scale};
 }
 
@@ -135,9 +163,9 @@ Rational NodalSystem::rational() const {
   int samples = 8;
   while (samples < n + 2) samples *= 2;
 
-  const Eigen::MatrixXcd g = G().cast<std::complex<double>>();
-  const Eigen::MatrixXcd c = C().cast<std::complex<double>>();
-  const Eigen::VectorXcd rhs = b().cast<std::complex<double>>();
+  const Eigen::MatrixXcd& g = assembled().g;
+  const Eigen::MatrixXcd& c = assembled().c;
+  const Eigen::VectorXcd& rhs = assembled().b;
 
   // Interpolates p(rho*z) on the unit circle; returns coefficients of powers of (rho*z).
   auto interpolate = [&](double rho, std::vector<double>& num, std::vector<double>& den) {

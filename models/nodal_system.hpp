@@ -9,6 +9,7 @@
 
 #include <Eigen/Dense>
 #include <complex>
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -58,6 +59,19 @@ class NodalSystem {
   Eigen::MatrixXd C() const;
   Eigen::VectorXd b() const;
 
+  // A thermal noise generator of the circuit, as a right-hand side of (G + sC) x = e: +1 in row
+  // `plus`, -1 in row `minus` (ground = none). Resistors (every add_resistor, add_conductance and
+  // source resistance) are currents between their nodes; a coil's series loss is a voltage in
+  // its branch row; a gm cell is a current at the node it drives. models/noise.hpp gives each
+  // its density (4kT/R, 4kT*r, 4kT*gamma*gm).
+  struct NoiseGenerator {
+    enum class Kind { resistor, coil_loss, gm_cell } kind;
+    int plus, minus;
+    double value;  // resistor: conductance (S); coil_loss: series resistance (ohm); gm_cell: gm (S)
+  };
+  std::vector<NoiseGenerator> noise_generators() const;
+  int output_node() const { return output_; }
+
  private:
   struct Entry {
     int row, col;
@@ -79,6 +93,17 @@ class NodalSystem {
   };
   std::vector<BranchEntry> inductors_;
   std::vector<std::tuple<int, int, double>> mutuals_;  // scaled
+
+  // Assembled on first use; every add_* call clears them.
+  struct Assembled {
+    Eigen::MatrixXcd g, c;
+    Eigen::VectorXcd b;
+  };
+  mutable std::optional<Assembled> assembled_;
+  const Assembled& assembled() const;
+  // Kept for noise_generators(): the stamps above merge them into matrix entries.
+  std::vector<std::tuple<int, int, double>> conductances_;  // (a, b, siemens)
+  std::vector<std::pair<int, double>> gm_cells_;            // (node, gm)
 };
 
 }  // namespace peakplan

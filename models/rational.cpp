@@ -21,7 +21,40 @@ std::complex<double> horner_derivative(const std::vector<double>& p, std::comple
   return acc;
 }
 
+// p(j y) for real y, splitting p into even and odd parts so that only real products remain.
+std::complex<double> at_imaginary(const std::vector<double>& p, double y) {
+  const double y2 = y * y;
+  double even = 0.0, odd = 0.0;
+  const size_t n = p.size();
+  // even: a0 - a2 y^2 + a4 y^4 ...; odd: a1 - a3 y^2 + ... (times y afterwards)
+  for (size_t k = (n - 1) & ~size_t{1};; k -= 2) {
+    even = even * -y2 + p[k];
+    if (k < 2) break;
+  }
+  if (n >= 2) {
+    for (size_t k = ((n - 2) & ~size_t{1}) + 1;; k -= 2) {
+      odd = odd * -y2 + p[k];
+      if (k < 2) break;
+    }
+  }
+  return {even, odd * y};
+}
+
+std::vector<double> derivative(const std::vector<double>& p) {
+  if (p.size() < 2) return {0.0};
+  std::vector<double> d(p.size() - 1);
+  for (size_t k = 1; k < p.size(); ++k) d[k - 1] = static_cast<double>(k) * p[k];
+  return d;
+}
+
 }  // namespace
+
+Rational::FrequencyPoint Rational::at_frequency(double omega) const {
+  const double y = omega * time_scale_;
+  const auto n = at_imaginary(num_, y), d = at_imaginary(den_, y);
+  const auto dn = at_imaginary(num_derivative_, y), dd = at_imaginary(den_derivative_, y);
+  return {n / d, -(dn / n - dd / d).real() * time_scale_};
+}
 
 Rational::Rational(std::vector<double> num, std::vector<double> den, double time_scale)
     : num_(std::move(num)), den_(std::move(den)), time_scale_(time_scale) {
@@ -29,6 +62,8 @@ Rational::Rational(std::vector<double> num, std::vector<double> den, double time
   while (den_.size() > 1 && den_.back() == 0.0) den_.pop_back();
   if (num_.empty() || den_.empty()) throw std::logic_error("Rational: empty polynomial");
   if (den_.size() == 1 && den_[0] == 0.0) throw std::logic_error("Rational: zero denominator");
+  num_derivative_ = derivative(num_);
+  den_derivative_ = derivative(den_);
 }
 
 std::complex<double> Rational::evaluate(std::complex<double> s) const {
@@ -114,6 +149,16 @@ std::complex<double> Cascade::log_derivative(std::complex<double> s) const {
   std::complex<double> d = 0.0;
   for (const auto& b : blocks_) d += b.log_derivative(s);
   return d;
+}
+
+Rational::FrequencyPoint Cascade::at_frequency(double omega) const {
+  Rational::FrequencyPoint total{1.0, 0.0};
+  for (const auto& b : blocks_) {
+    const auto p = b.at_frequency(omega);
+    total.h *= p.h;
+    total.group_delay += p.group_delay;
+  }
+  return total;
 }
 
 double Cascade::dc_value() const {

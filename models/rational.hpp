@@ -19,6 +19,13 @@ class Rational {
   // d ln H / ds = N'/N - D'/D, per rad/s. Group delay is -Re of this at s = j*omega.
   std::complex<double> log_derivative(std::complex<double> s) const;
   double dc_value() const;
+  // H(j omega) and the group delay -d(arg H)/d(omega) there, in one pass of real arithmetic
+  // (the fast path: a planner evaluates this hundreds of thousands of times).
+  struct FrequencyPoint {
+    std::complex<double> h;
+    double group_delay;
+  };
+  FrequencyPoint at_frequency(double omega) const;
 
   std::vector<std::complex<double>> poles() const;
   std::vector<std::complex<double>> zeros() const;
@@ -32,6 +39,8 @@ class Rational {
  private:
   std::vector<double> num_{1.0};
   std::vector<double> den_{1.0};
+  std::vector<double> num_derivative_{0.0};
+  std::vector<double> den_derivative_{0.0};
   double time_scale_ = 1e-12;
 };
 
@@ -51,6 +60,7 @@ class Cascade {
   std::complex<double> evaluate(std::complex<double> s) const;
   std::complex<double> log_derivative(std::complex<double> s) const;
   double dc_value() const;
+  Rational::FrequencyPoint at_frequency(double omega) const;
   std::vector<std::complex<double>> poles() const;
   std::vector<std::complex<double>> zeros() const;
   const std::vector<Rational>& blocks() const { return blocks_; }

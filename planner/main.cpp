@@ -7,6 +7,7 @@
 
 #include "planner/chain_graph.hpp"
 #include "reports/json_report.hpp"
+#include "reports/netlist.hpp"
 #include "reports/text_report.hpp"
 
 namespace {
@@ -18,6 +19,19 @@ struct AnalyzeArgs {
   bool json = false;
   int points = 201;
 };
+
+void print(const std::string& text) { std::fwrite(text.data(), 1, text.size(), stdout); }
+
+int run_netlist(const std::string& path) {
+  peakplan::Diagnostics diagnostics(path);
+  const auto chain = peakplan::load_chain_file(path, diagnostics);
+  if (!chain) {
+    std::cerr << diagnostics.format();
+    return bad_input;
+  }
+  print(peakplan::write_spice_netlist(*chain));
+  return ok;
+}
 
 int run_analyze(const AnalyzeArgs& args) {
   peakplan::Diagnostics diagnostics(args.chain);
@@ -34,7 +48,7 @@ int run_analyze(const AnalyzeArgs& args) {
   // Build the whole document before printing, so a failure never leaves half an output.
   const std::string text = args.json ? peakplan::analysis_json(*chain, analysis).dump(2) + "\n"
                                      : peakplan::analysis_text(*chain, analysis);
-  std::fwrite(text.data(), 1, text.size(), stdout);
+  print(text);
   return ok;
 }
 
@@ -52,6 +66,10 @@ int main(int argc, char** argv) {
   analyze_cmd->add_option("--points", analyze.points, "frequency points of the reported response")
       ->check(CLI::Range(2, 100000));
 
+  std::string netlist_chain;
+  auto* netlist_cmd = app.add_subcommand("netlist", "SPICE netlist of the chain on stdout");
+  netlist_cmd->add_option("chain", netlist_chain, "chain file (TOML)")->required();
+
   try {
     app.parse(argc, argv);
   } catch (const CLI::ParseError& e) {
@@ -60,6 +78,7 @@ int main(int argc, char** argv) {
   }
   try {
     if (*analyze_cmd) return run_analyze(analyze);
+    if (*netlist_cmd) return run_netlist(netlist_chain);
   } catch (const std::exception& e) {
     std::cerr << "peakplan: internal error: " << e.what() << "\n";
     return internal_error;

@@ -244,7 +244,7 @@ NgspiceComparison check_with_ngspice(const Chain& chain) {
   try {
     c = compare_with_ngspice(chain);
   } catch (const std::exception& e) {
-    FAIL("chain '" << comment_safe(chain.name) << "': " << e.what());
+    FAIL("chain '" << comment_safe(chain.name) << "': " << std::string(e.what()));
   }
   for (const auto& f : c.outputs) {
     INFO("chain '" << comment_safe(chain.name) << "', output '" << comment_safe(f.id) << "'");

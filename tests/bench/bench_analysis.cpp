@@ -1,0 +1,87 @@
+// How long the analysis of a typical chain takes: the figures the planner's budget rests on.
+#include <benchmark/benchmark.h>
+
+#include <numbers>
+
+#include "models/analysis.hpp"
+#include "planner/chain_graph.hpp"
+
+namespace {
+
+// A six-stage chain mixing every kind, from the shipped demo scenario's values.
+peakplan::Chain six_stage_chain() {
+  using namespace peakplan;
+  Chain chain;
+  chain.name = "bench";
+  chain.r_source = 50.0;
+  const LoadKind kinds[] = {LoadKind::tcoil, LoadKind::shunt, LoadKind::series,
+                            LoadKind::shunt, LoadKind::tcoil, LoadKind::plain};
+  for (int i = 0; i < 6; ++i) {
+    ChainStage s;
+    s.id = "s" + std::to_string(i + 1);
+    s.driver = i - 1;
+    s.c_in = 25e-15;
+    auto& c = s.circuit;
+    c.kind = kinds[i];
+    c.gm = 0.04;
+    c.rd = 95.0;
+    c.c_out = 14e-15;
+    c.l = 130e-12;
+    c.r_l = 4.0;
+    c.l1 = 110e-12;
+    c.l2 = 120e-12;
+    c.k = 0.45;
+    c.cb = 4e-15;
+    c.r_l1 = c.r_l2 = 3.0;
+    chain.stages.push_back(s);
+  }
+  chain.stages.back().c_load = 20e-15;
+  fill_node_capacitances(chain);
+  return chain;
+}
+
+// analyze as the CLI runs it: 2000 frequency points by exact nodal solves, step response, metrics.
+void full_analysis(benchmark::State& state) {
+  const auto chain = six_stage_chain();
+  peakplan::AnalysisOptions options;
+  options.points = 2000;
+  for (auto _ : state) benchmark::DoNotOptimize(peakplan::analyze_chain(chain, options));
+}
+BENCHMARK(full_analysis)->Unit(benchmark::kMillisecond);
+
+// Deriving the six stages' rational transfer functions from their nodal systems.
+void stage_rationals(benchmark::State& state) {
+  const auto chain = six_stage_chain();
+  for (auto _ : state) benchmark::DoNotOptimize(peakplan::output_cascade(chain, 5));
+}
+BENCHMARK(stage_rationals)->Unit(benchmark::kMicrosecond);
+
+// One six-stage frequency response of 500 points from the rational form: the planner's inner loop.
+void response_500_points(benchmark::State& state) {
+  const auto cascade = peakplan::output_cascade(six_stage_chain(), 5);
+  const auto grid = peakplan::FrequencyGrid::log(1e8, 1e12, 500);
+  for (auto _ : state) benchmark::DoNotOptimize(peakplan::sample_rational(cascade, grid));
+}
+BENCHMARK(response_500_points)->Unit(benchmark::kMicrosecond);
+
+// The frequency-domain metrics (bandwidth, peaking, group-delay ripple, refined).
+void frequency_metrics(benchmark::State& state) {
+  const auto cascade = peakplan::output_cascade(six_stage_chain(), 5);
+  for (auto _ : state) benchmark::DoNotOptimize(peakplan::frequency_metrics(cascade));
+}
+BENCHMARK(frequency_metrics)->Unit(benchmark::kMicrosecond);
+
+// The exact step response and its metrics.
+void step_response(benchmark::State& state) {
+  const auto cascade = peakplan::output_cascade(six_stage_chain(), 5);
+  const double bw = peakplan::frequency_metrics(cascade).bandwidth_hz;
+  for (auto _ : state) {
+    const auto step = peakplan::step_response(cascade, peakplan::choose_time_axis(cascade, bw));
+    benchmark::DoNotOptimize(peakplan::step_metrics(step));
+  }
+}
+BENCHMARK(step_response)->Unit(benchmark::kMicrosecond);
+
+}  // namespace
+
+BENCHMARK_MAIN();
