@@ -278,7 +278,8 @@ void read_technology(Reader& reader, const toml::table& root, ChainSpec& spec) {
       const auto hi = reader.quantity(*array->get(1), Dimension::dimensionless, "[technology] k_range high");
       if (lo && hi) {
         if (!(*lo > -1.0 && *hi < 1.0 && *lo <= *hi))
-          reader.error(*n, "[technology] k_range must satisfy -1 < low <= high < 1, saw " + shown(*n));
+          reader.error(*n, "[technology] k_range must satisfy -1 < low <= high < 1, saw [" +
+                               shown(*array->get(0)) + ", " + shown(*array->get(1)) + "]");
         else {
           tech.k_min = lo;
           tech.k_max = hi;
@@ -377,11 +378,13 @@ void read_stage(Reader& reader, const toml::table& t, size_t index, ChainSpec& s
       reader.error(stage.where, who + "missing " + key + " (" + describe(stage_key_dimension(key)) +
                                     ", or \"auto\")");
 
-  // Kind-specific element values and normalised designs.
+  // Kind-specific element values and normalised designs. Several candidate kinds share keys
+  // (l, r_l, m), so each key is read once: otherwise a bad value is reported once per kind.
+  std::set<std::string_view> seen;
   for (auto kind : stage.kinds.empty() ? every_kind() : stage.kinds)
     for (const auto& p : load_kind_info(kind).parameters) {
       const auto* n = t.get(p.key);
-      if (!n || stage.values.count(std::string(p.key))) continue;
+      if (!n || !seen.insert(p.key).second) continue;
       if (p.key == "m" || p.key == "zeta") {
         stage.design_where = position(n->source());
         const auto v = reader.bounded(*n, Dimension::dimensionless, who + std::string(p.key), true);

@@ -116,8 +116,9 @@ std::optional<std::vector<GraphStage>> build_stage_graph(const ChainSpec& spec, 
     for (size_t v = from; v != to && walk.size() <= stages.size(); v = drivers[v].front()) walk.push_back(v);
     for (auto it = walk.rbegin(); it != walk.rend(); ++it) cycle.push_back(stages[*it].id);
     cycle.push_back(stages[to].id);
-    diagnostics.error(spec.stages[stages[to].spec].feeds_where.line ? spec.stages[stages[from].spec].feeds_where
-                                                                    : spec.stages[stages[from].spec].where,
+    // The back edge leaves `from`: point at its feeds when that is what closes the cycle.
+    diagnostics.error(spec.stages[stages[from].spec].feeds_where.line ? spec.stages[stages[from].spec].feeds_where
+                                                                      : spec.stages[stages[from].spec].where,
                       fmt::format("the stages form a cycle: {}; a chain must run from its input to its outputs",
                                   join_ids(cycle)));
   }
@@ -226,15 +227,19 @@ std::optional<Chain> resolve_chain(const ChainSpec& spec, Diagnostics& diagnosti
       case LoadKind::tcoil: {
         if (s.zeta && !s.response.empty())
           diagnostics.error(s.design_where, who + "give zeta or response, not both");
+        std::string missing;  // one error naming every missing key, not one per key
         for (const auto* key : {"l1", "l2", "k", "cb"}) {
           if (designed_coil && s.find(key))
             diagnostics.error(s.find(key)->where, who + key + " is set by the " +
                                                       (s.zeta ? "zeta" : "response") +
                                                       " design; give one or the other");
           if (!designed_coil && !s.find(key) && std::string_view(key) != "cb")
-            diagnostics.error(s.where, who + "a tcoil stage needs l1, l2 and k (and usually cb), or a "
-                                             "design: zeta = 0.707 or response = \"butterworth\"");
+            missing += (missing.empty() ? "" : ", ") + std::string(key);
         }
+        if (!missing.empty())
+          diagnostics.error(s.where, who + "a tcoil stage needs l1, l2 and k (and usually cb), or a "
+                                           "design: zeta = 0.707 or response = \"butterworth\"; missing " +
+                                           missing);
         c.l1 = value("l1", 0.0);
         c.l2 = value("l2", 0.0);
         c.k = value("k", 0.0);

@@ -1,0 +1,321 @@
+// Input-failure tests: every fixture in tests/bad_chains/ holds one fault (or, for the two
+// collection fixtures, a known set of them). Each is checked twice: through the loader, for
+// the exact line and column and a fragment of the message, and through `peakplan analyze
+// --json`, for exit status 2, nothing on stdout and GNU-shaped messages on stderr.
+#include <doctest/doctest.h>
+
+#include <sys/wait.h>
+
+#include <cstdlib>
+#include <filesystem>
+#include <fstream>
+#include <regex>
+#include <set>
+#include <sstream>
+#include <string>
+#include <vector>
+
+#include "planner/chain_file.hpp"
+#include "planner/chain_graph.hpp"
+#include "planner/diagnostics.hpp"
+
+namespace fs = std::filesystem;
+
+namespace {
+
+const fs::path kFixtures = fs::path(PEAKPLAN_SOURCE_DIR) / "tests" / "bad_chains";
+
+std::string read_bytes(const fs::path& path) {
+  std::ifstream in(path, std::ios::binary);
+  REQUIRE_MESSAGE(in, "cannot read " << path.string());
+  std::ostringstream text;
+  text << in.rdbuf();
+  return text.str();
+}
+
+std::string shell_quoted(const std::string& s) {
+  std::string out = "'";
+  for (char c : s) out += c == '\'' ? std::string("'\\''") : std::string(1, c);
+  return out + "'";
+}
+
+struct CliRun {
+  int status = -1;  // exit status; -1 when the process did not exit normally
+  std::string out, err;
+};
+
+// Runs the real executable with stdout and stderr sent to files in a fresh directory, so that
+// "nothing on stdout" is a file of zero bytes that we created, not a capture that silently failed.
+CliRun run_analyze_json(const fs::path& chain) {
+  std::string dir_template = (fs::temp_directory_path() / "peakplan_errors_XXXXXX").string();
+  REQUIRE(mkdtemp(dir_template.data()) != nullptr);
+  const fs::path dir = dir_template;
+  const fs::path out = dir / "stdout", err = dir / "stderr";
+  const std::string command = shell_quoted(PEAKPLAN_BINARY) + " analyze " + shell_quoted(chain.string()) +
+                              " --json >" + shell_quoted(out.string()) + " 2>" + shell_quoted(err.string());
+  const int raw = std::system(command.c_str());
+  CliRun run;
+  run.status = raw != -1 && WIFEXITED(raw) ? WEXITSTATUS(raw) : -1;
+  REQUIRE_MESSAGE(fs::exists(out), "the shell did not create the stdout file: " << command);
+  run.out = read_bytes(out);
+  run.err = read_bytes(err);
+  fs::remove_all(dir);
+  return run;
+}
+
+std::vector<std::string> lines_of(const std::string& text) {
+  std::vector<std::string> lines;
+  std::istringstream in(text);
+  for (std::string line; std::getline(in, line);) lines.push_back(line);
+  return lines;
+}
+
+std::string position_prefix(const fs::path& path, int line, int column) {
+  return path.string() + ":" + std::to_string(line) + ":" + std::to_string(column) + ": error: ";
+}
+
+// Every stderr line must be one an editor can jump to, or the count of dropped errors.
+void check_stderr_shape(const std::string& err, const fs::path& path) {
+  const std::regex located("^" + std::regex_replace(path.string(), std::regex(R"([.^$|()\[\]{}*+?\\])"), R"(\$&)") +
+                           R"(:[0-9]+:[0-9]+: error: .+$)");
+  const std::regex dropped(R"(^.*: [0-9]+ more errors not shown$)");
+  for (const auto& line : lines_of(err)) {
+    INFO("stderr line: " << line);
+    CHECK((std::regex_match(line, located) || std::regex_match(line, dropped)));
+  }
+}
+
+struct Fault {
+  const char* file;
+  const char* fact;  // the subcase name: what the fixture shows
+  int line, column;  // of the first diagnostic
+  std::vector<std::string> fragments;  // each must appear in the first diagnostic's message
+  size_t count = 1;                    // diagnostics in all: a single fault is reported once
+};
+
+const std::vector<Fault>& faults() {
+  static const std::vector<Fault> table{
+      {"toml_syntax_error.toml", "a key with no value is a TOML syntax error at the end of its line", 6, 5,
+       {"TOML syntax", "expected value"}},
+      {"unit_mismatch.toml", "c_in = \"2 nH\" is an inductance where a capacitance is expected", 7, 8,
+       {"stage 'a1': c_in", "expected a capacitance", "\"2 nH\"", "which is an inductance"}},
+      {"unknown_unit.toml", "an unknown unit is named and the expected dimension given", 7, 9,
+       {"stage 'a1': c_out", "unknown unit \"furlongs\"", "expected a capacitance"}},
+      {"negative_capacitance.toml", "a negative c_out is rejected at its value", 7, 9,
+       {"stage 'a1': c_out must be zero or positive", "saw \"-15 fF\""}},
+      {"k_out_of_range.toml", "k = 1.2 is outside (-1, 1)", 9, 5, {"stage 'a1': k must be in (-1, 1), saw 1.2"}},
+      {"cycle.toml", "a feeds b feeds a is a cycle reported at the feeds that closes it", 14, 9,
+       {"cycle: 'a' -> 'b' -> 'a'"}},
+      {"cycle_closed_by_last_stage.toml", "a cycle through default edges is reported at the explicit feeds", 19, 9,
+       {"cycle: 'a' -> 'b' -> 'c' -> 'a'"}},
+      {"feeds_unknown_id.toml", "feeds naming an unknown id suggests the closest id", 7, 9,
+       {"stage 'pre': feeds unknown stage 'mian'", "did you mean 'main'?"}},
+      {"misspelt_stage_key.toml", "a misspelt stage key c_ot suggests c_out", 7, 1,
+       {"stage 'a1': unknown key 'c_ot'", "did you mean 'c_out'?"}},
+      {"misspelt_top_table.toml", "a misspelt top-level table [sigal] suggests signal", 2, 2,
+       {"unknown key 'sigal'", "did you mean 'signal'?"}},
+      {"missing_gm.toml", "a stage without gm is reported at its header", 2, 1,
+       {"stage 'a1': missing gm", "transconductance"}},
+      {"missing_rd.toml", "a stage without rd is reported at its header", 2, 1, {"stage 'a1': missing rd", "resistance"}},
+      {"missing_id.toml", "a stage without id is reported by its position in the file", 8, 1,
+       {"stage 2: missing id"}},
+      {"missing_kind.toml", "a stage without kind lists the kinds", 2, 1,
+       {"stage 'a1': missing kind", "plain, shunt, series, tcoil, auto"}},
+      {"unknown_kind.toml", "kind \"tcoyl\" suggests tcoil", 4, 8,
+       {"stage 'a1': kind: unknown value \"tcoyl\"", "did you mean \"tcoil\"?"}},
+      {"duplicate_id.toml", "a duplicate id is reported at the second stage, naming the first one's line", 8, 1,
+       {"stage 'a1': id already used by the stage at line 2"}},
+      {"two_stages_without_driver.toml", "two stages with no driver are both named", 2, 1,
+       {"stages 'a1', 'a2' have no driver"}},
+      {"stage_with_two_drivers.toml", "a stage fed by two stages is reported at that stage, naming both", 16, 1,
+       {"stage 'a3' is fed by 'a1' and 'a2'", "only one driver"}},
+      {"shunt_without_l_or_m.toml", "a shunt stage needs l or m", 2, 1, {"stage 'a1': a shunt stage needs l", "or m"}},
+      {"shunt_with_l_and_m.toml", "a shunt stage with both l and m is reported at m", 9, 5,
+       {"stage 'a1': give l or m, not both"}},
+      {"tcoil_zeta_and_l1.toml", "a tcoil with zeta and l1 is reported at l1", 9, 6,
+       {"stage 'a1': l1 is set by the zeta design"}},
+      {"tcoil_missing_k.toml", "a tcoil without k or a design names k as missing", 2, 1,
+       {"stage 'a1': a tcoil stage needs l1, l2 and k", "missing k"}},
+      {"unknown_response.toml", "an unknown response name lists the named designs", 8, 12,
+       {"stage 'a1': response: unknown value \"chebyshev\"", "butterworth, bessel, critical"}},
+      {"bad_modulation.toml", "modulation \"pam8\" suggests pam4", 4, 14,
+       {"[signal] modulation: unknown value \"pam8\"", "nrz, pam4", "did you mean \"pam4\"?"}},
+      {"bad_pattern.toml", "an unknown pattern lists the PRBS patterns", 4, 11,
+       {"[signal] pattern: unknown value \"prbs12\"", "prbs7, prbs9, prbs15, prbs23, prbs31"}},
+      {"bit_rate_not_positive.toml", "a zero bit rate must be positive", 3, 12,
+       {"[signal] bit_rate must be positive", "saw \"0 Gb/s\""}},
+      {"signal_without_bit_rate.toml", "[signal] without bit_rate is reported at the table", 2, 1,
+       {"[signal]: missing bit_rate"}},
+      {"count_zero.toml", "count = 0 is not a number of copies", 7, 9,
+       {"stage 'g': count must be a whole number of copies >= 1", "saw 0"}},
+      {"count_fractional.toml", "count = 2.5 is not a whole number", 7, 9,
+       {"stage 'g': count must be a whole number of copies >= 1", "saw 2.5"}},
+      {"auto_value_in_analyze.toml", "analyze rejects l = \"auto\" and says the planner chooses it", 8, 5,
+       {"stage 'a1': l is \"auto\"", "analyze needs a value", "peakplan plan"}},
+      {"bandwidth_and_gain_bandwidth.toml", "gain_bandwidth with bandwidth is reported at gain_bandwidth", 5, 18,
+       {"[target]: give bandwidth or gain_bandwidth, not both"}},
+      {"quantity_as_boolean.toml", "a boolean where a resistance is expected", 6, 6,
+       {"stage 'a1': rd: expected a resistance", "saw true"}},
+      {"feeds_as_number.toml", "feeds given as a number", 7, 9,
+       {"stage 'a1': feeds: expected a stage id or a list of ids, saw 2"}},
+      {"k_range_out_of_bounds.toml", "k_range past 1 shows the range that was given", 3, 11,
+       {"[technology] k_range must satisfy -1 < low <= high < 1", "saw [0.2, 1.3]"}},
+      {"objective_misspelt.toml", "objective \"flatest\" suggests flattest", 4, 13,
+       {"[target] objective: unknown value \"flatest\"", "did you mean \"flattest\"?"}},
+      {"kind_list_negative_inductance.toml", "a bad l shared by two candidate kinds is reported once", 7, 5,
+       {"stage 'a1': l must be zero or positive", "saw \"-0.3 nH\""}},
+      {"range_max_below_min.toml", "a range with max below min shows both", 7, 5,
+       {"stage 'a1': l: range max must not be below min", "min \"1 nH\", max \"0.2 nH\""}},
+      {"tap_not_boolean.toml", "tap given as a string", 7, 7, {"stage 'a1': tap: expected true or false, saw \"yes\""}},
+      {"three_independent_errors.toml", "three independent faults are all reported, first one first", 4, 14,
+       {"[signal] modulation: unknown value \"nrzz\""}, 3},
+      {"too_many_errors.toml", "23 faults are cut at 20 reported in full", 7, 1,
+       {"stage 'a1': unknown key 'x01'"}, peakplan::Diagnostics::limit},
+  };
+  return table;
+}
+
+bool contains(const std::string& text, const std::string& fragment) {
+  return text.find(fragment) != std::string::npos;
+}
+
+}  // namespace
+
+TEST_CASE("chain-file errors: each bad fixture fails at its fault's line and column, and analyze exits 2 "
+          "with nothing on stdout") {
+  for (const auto& fault : faults()) {
+    SUBCASE(fault.fact) {
+      const fs::path path = kFixtures / fault.file;
+      INFO("fixture: " << path.string());
+      const std::string before = read_bytes(path);
+
+      peakplan::Diagnostics diagnostics(path.string());
+      CHECK_FALSE(peakplan::load_chain_file(path.string(), diagnostics));
+      REQUIRE_FALSE(diagnostics.list().empty());
+      const auto& first = diagnostics.list().front();
+      INFO("first diagnostic: " << first.format());
+      CHECK(first.file == path.string());
+      CHECK(first.where.line == fault.line);
+      CHECK(first.where.column == fault.column);
+      for (const auto& fragment : fault.fragments) {
+        INFO("fragment: " << fragment);
+        CHECK(contains(first.message, fragment));
+      }
+      CHECK(diagnostics.list().size() == fault.count);
+      CHECK(first.format().rfind(position_prefix(path, fault.line, fault.column), 0) == 0);
+
+      const CliRun run = run_analyze_json(path);
+      INFO("stderr: " << run.err);
+      CHECK(run.status == 2);
+      CHECK(run.out.empty());
+      CHECK(run.err.rfind(position_prefix(path, fault.line, fault.column), 0) == 0);
+      check_stderr_shape(run.err, path);
+      // The CLI prints exactly what the loader collected, nothing more and nothing lost.
+      CHECK(run.err == diagnostics.format());
+
+      CHECK(read_bytes(path) == before);
+    }
+  }
+}
+
+TEST_CASE("chain-file errors: every fixture in tests/bad_chains is in the table and opens with a comment") {
+  std::set<std::string> listed;
+  for (const auto& fault : faults()) listed.insert(fault.file);
+  std::set<std::string> on_disk;
+  for (const auto& entry : fs::directory_iterator(kFixtures)) {
+    if (entry.path().extension() != ".toml") continue;
+    on_disk.insert(entry.path().filename().string());
+    const std::string text = read_bytes(entry.path());
+    INFO("fixture: " << entry.path().filename().string());
+    // The first line says what is wrong, so a reader of the fixture needs no test to explain it.
+    CHECK(text.rfind("# Bad", 0) == 0);
+  }
+  CHECK(on_disk == listed);
+  CHECK(on_disk.size() >= 30);
+}
+
+TEST_CASE("chain-file errors: three independent faults are all reported with their positions") {
+  const fs::path path = kFixtures / "three_independent_errors.toml";
+  peakplan::Diagnostics diagnostics(path.string());
+  CHECK_FALSE(peakplan::load_chain_file(path.string(), diagnostics));
+  const auto& list = diagnostics.list();
+  REQUIRE(list.size() == 3);
+  CHECK(diagnostics.dropped() == 0);
+  CHECK(list[0].where.line == 4);
+  CHECK(list[0].where.column == 14);
+  CHECK(contains(list[0].message, "[signal] modulation: unknown value \"nrzz\""));
+  CHECK(contains(list[0].message, "did you mean \"nrz\"?"));
+  CHECK(list[1].where.line == 11);
+  CHECK(list[1].where.column == 8);
+  CHECK(contains(list[1].message, "stage 'a1': c_in: expected a capacitance"));
+  CHECK(list[2].where.line == 20);
+  CHECK(list[2].where.column == 5);
+  CHECK(contains(list[2].message, "stage 'a2': k must be in (-1, 1), saw 1.2"));
+
+  const CliRun run = run_analyze_json(path);
+  CHECK(run.status == 2);
+  CHECK(run.out.empty());
+  const auto lines = lines_of(run.err);
+  REQUIRE(lines.size() == 3);
+  CHECK(lines[0].rfind(position_prefix(path, 4, 14), 0) == 0);
+  CHECK(lines[1].rfind(position_prefix(path, 11, 8), 0) == 0);
+  CHECK(lines[2].rfind(position_prefix(path, 20, 5), 0) == 0);
+}
+
+TEST_CASE("chain-file errors: past Diagnostics::limit the rest are counted on a 'more errors not shown' line") {
+  // The fixture has 23 unknown keys x01 .. x23 on lines 7 .. 29; the reader reports them in
+  // key order, which here is also line order.
+  const fs::path path = kFixtures / "too_many_errors.toml";
+  peakplan::Diagnostics diagnostics(path.string());
+  CHECK_FALSE(peakplan::load_chain_file(path.string(), diagnostics));
+  REQUIRE(diagnostics.list().size() == peakplan::Diagnostics::limit);
+  CHECK(peakplan::Diagnostics::limit == 20);
+  CHECK(diagnostics.dropped() == 3);
+  const auto& last = diagnostics.list().back();
+  CHECK(last.where.line == 26);
+  CHECK(last.where.column == 1);
+  CHECK(contains(last.message, "unknown key 'x20'"));
+
+  const CliRun run = run_analyze_json(path);
+  CHECK(run.status == 2);
+  CHECK(run.out.empty());
+  const auto lines = lines_of(run.err);
+  REQUIRE(lines.size() == 21);
+  CHECK(lines[19].rfind(position_prefix(path, 26, 1), 0) == 0);
+  CHECK(lines[20] == path.string() + ": 3 more errors not shown");
+}
+
+TEST_CASE("chain-file errors: \"auto\" and kind candidates are valid chain-file input that only analyze rejects") {
+  // The planner reads the same files, so these must pass the parser and fail only at resolve.
+  const fs::path path = kFixtures / "auto_value_in_analyze.toml";
+  peakplan::Diagnostics parse_diagnostics(path.string());
+  const auto spec = peakplan::parse_chain_spec(read_bytes(path), parse_diagnostics);
+  REQUIRE(spec);
+  CHECK(parse_diagnostics.empty());
+  REQUIRE(spec->stages.size() == 1);
+  const auto* l = spec->stages[0].find("l");
+  REQUIRE(l != nullptr);
+  CHECK(l->mode == peakplan::Adjustable::Mode::automatic);
+  CHECK(l->where.line == 8);
+  CHECK(l->where.column == 5);
+
+  peakplan::Diagnostics resolve_diagnostics(path.string());
+  CHECK_FALSE(peakplan::resolve_chain(*spec, resolve_diagnostics));
+  REQUIRE(resolve_diagnostics.list().size() == 1);
+  CHECK(contains(resolve_diagnostics.list()[0].message, "l is \"auto\""));
+}
+
+TEST_CASE("chain-file errors: the good demo chain passes the same harness with exit 0 and JSON on stdout") {
+  // A control for the harness above: if redirection or the binary path were broken, an
+  // empty stdout would prove nothing about bad input.
+  const fs::path path = fs::path(PEAKPLAN_SOURCE_DIR) / "chains" / "demo_postamp.toml";
+  const std::string before = read_bytes(path);
+  const CliRun run = run_analyze_json(path);
+  INFO("stderr: " << run.err);
+  CHECK(run.status == 0);
+  CHECK(run.err.empty());
+  REQUIRE_FALSE(run.out.empty());
+  CHECK(run.out.front() == '{');
+  CHECK(contains(run.out, "\"outputs\""));
+  CHECK(read_bytes(path) == before);
+}
