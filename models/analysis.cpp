@@ -100,7 +100,16 @@ ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) 
       cascade.append(rationals[static_cast<size_t>(s)]);
       exact.push_back(&systems[static_cast<size_t>(s)]);
     }
-    result.outputs.push_back({out, summarise(cascade, exact, options)});
+    OutputSummary summary{out, summarise(cascade, exact, options), std::nullopt};
+    if (options.signal) {
+      EyeSummary eye{estimate_eye(cascade, *options.signal), {}, std::nullopt};
+      const ChainNoise noise(chain, out, options.noise);
+      eye.noise = summarise_noise(noise);
+      if (options.swing_given)
+        eye.statistical = statistical_eye(eye.estimate.pulse, eye.estimate.prbs, *options.signal, eye.noise.output_rms_v);
+      summary.eye = std::move(eye);
+    }
+    result.outputs.push_back(std::move(summary));
   }
   return result;
 }

@@ -7,6 +7,8 @@
 #include <vector>
 
 #include "models/chain.hpp"
+#include "models/eye.hpp"
+#include "models/noise.hpp"
 #include "models/frequency_response.hpp"
 #include "models/step_response.hpp"
 
@@ -16,6 +18,17 @@ struct AnalysisOptions {
   int points = 201;                      // samples of the reported frequency response
   double ripple_band_hz = not_found;     // group-delay ripple band; NaN = up to the bandwidth
   bool keep_waveforms = true;            // keep sampled responses and the step waveform
+  // With a signal, every output also gets its eye, its noise and (when the signal has a swing)
+  // a bit-error estimate.
+  std::optional<Signal> signal;
+  bool swing_given = false;
+  NoiseOptions noise;
+};
+
+struct EyeSummary {
+  EyeEstimate estimate;
+  NoiseSummary noise;
+  std::optional<StatisticalEye> statistical;  // needs the input swing
 };
 
 struct ResponseSummary {
@@ -47,6 +60,7 @@ struct StageSummary {
 struct OutputSummary {
   int stage = 0;  // the stage whose output node this is
   ResponseSummary response;
+  std::optional<EyeSummary> eye;
 };
 
 struct ChainAnalysis {

@@ -119,8 +119,11 @@ double q_from_ber(double ber);  // ber in (0, 0.5); throws std::invalid_argument
 // ISI = sum_{j != main} a_j c_j (a_j independent and uniform over the symbol levels; the
 // distribution built by convolving per-cursor distributions on a voltage grid) plus Gaussian
 // noise of rms sigma (in the same normalised units as the cursors). NRZ and PAM4 give the same
-// model per eye, scaled by the level spacing. Grid resolution: about 1/4096 of the ISI range
-// or sigma/8, whichever is finer (at most 65536 bins); `resolution` receives the bin width.
+// model per eye, scaled by the level spacing. Grid: bins of max(ISI range/2048, (ISI range +
+// 2*reach*sigma)/8192), reach = max(8, Q(ber) + 2); `resolution` receives the bin width (0 when
+// there is neither ISI nor noise). Cursors below 1/16 bin are left out and their magnitudes
+// subtracted from the opening (conservative). Throws std::invalid_argument for sigma < 0 or
+// ber outside (0, 0.5).
 double height_at_ber(std::span<const double> cursors, int main_index, Modulation modulation,
                      double sigma, double ber, double* resolution = nullptr);
 
@@ -129,15 +132,17 @@ struct StatisticalEye {
   double ideal_eye_v = 0.0;      // swing * |DC gain| (NRZ) or a third of it (PAM4)
   double q = 0.0;                // (prbs inner eye / 2) / noise at the best PRBS sampling instant
   double ber = 0.0;              // 0.5*erfc(q/sqrt(2)); PAM4: of the worst eye's slicer
-  double height_at_ber = 0.0;    // fraction of the ideal eye, at the peak-distortion phase best
+  double height_at_ber = 0.0;    // fraction of the ideal eye, the best over sample-grid phases
   double height_at_ber_v = 0.0;
   double width_at_ber_ui = 0.0;  // contiguous phases around the best where height_at_ber > 0
-  double sample_time_s = 0.0;    // of the best height_at_ber
+  double sample_time_s = 0.0;    // of the best height_at_ber, after the start of the pulse
   double target_ber = 0.0;
 };
 
 // noise_rms_v: rms noise at the chain's output in volts (input-referred noise is the caller's to
-// propagate). Throws std::invalid_argument for a negative noise or swing.
+// propagate); 0 gives q = inf, ber = 0 and the noise-free ISI opening. Throws
+// std::invalid_argument for a negative noise, a non-positive swing or a target_ber outside
+// (0, 0.5).
 StatisticalEye statistical_eye(const PulseResponse& pulse, const PrbsEye& prbs, const Signal& signal,
                                double noise_rms_v);
 

@@ -5,6 +5,7 @@
 // 2^n - 1 bits and it contains every n-bit word except all zeros once per period.
 #pragma once
 
+#include <cstddef>
 #include <cstdint>
 #include <optional>
 #include <string_view>

@@ -295,3 +295,28 @@ std::optional<Chain> load_chain_file(const std::string& path, Diagnostics& diagn
 }
 
 }  // namespace peakplan
+
+namespace peakplan {
+
+AnalysisOptions analysis_options(const ChainSpec& spec, int points) {
+  AnalysisOptions options;
+  options.points = points;
+  if (spec.limits.ripple_band) options.ripple_band_hz = *spec.limits.ripple_band;
+  options.noise.temperature = spec.technology.temperature;
+  options.noise.gamma = spec.technology.gamma;
+  if (spec.input_noise_density) options.noise.input_density = *spec.input_noise_density;
+  if (spec.signal) {
+    Signal signal;
+    signal.bit_rate = spec.signal->bit_rate;
+    signal.modulation = spec.signal->modulation == "pam4" ? Modulation::pam4 : Modulation::nrz;
+    signal.pattern = prbs_from_name(spec.signal->pattern).value_or(PrbsKind::prbs7);
+    signal.input_rise = spec.signal->input_rise.value_or(0.0);
+    signal.swing = spec.signal->swing.value_or(1.0);
+    signal.target_ber = spec.signal->target_ber;
+    options.signal = signal;
+    options.swing_given = spec.signal->swing.has_value();
+  }
+  return options;
+}
+
+}  // namespace peakplan

@@ -7,6 +7,7 @@
 #include <string>
 #include <vector>
 
+#include "models/analysis.hpp"
 #include "models/chain.hpp"
 #include "planner/chain_file.hpp"
 
@@ -36,4 +37,9 @@ std::optional<Chain> load_chain_file(const std::string& path, Diagnostics& diagn
 // node capacitances are otherwise set (shared by resolve_chain and the planner).
 void apply_designs(Chain& chain, const ChainSpec& spec, const std::vector<GraphStage>& graph);
 
+}  // namespace peakplan
+
+namespace peakplan {
+// How the chain file asks to be analysed: ripple band, signal and noise settings.
+AnalysisOptions analysis_options(const ChainSpec& spec, int points = 201);
 }  // namespace peakplan

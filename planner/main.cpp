@@ -8,6 +8,10 @@
 #include "planner/chain_graph.hpp"
 #include "reports/json_report.hpp"
 #include "reports/netlist.hpp"
+#include "reports/plan_report.hpp"
+#include "planner/planner.hpp"
+#include <filesystem>
+#include <fstream>
 #include "reports/text_report.hpp"
 
 namespace {
@@ -33,6 +37,68 @@ int run_netlist(const std::string& path) {
   return ok;
 }
 
+// Writes `text` to `path` whole or not at all: a temporary file beside it, then a rename.
+bool write_whole_file(const std::string& path, const std::string& text, std::string& error) {
+  const std::filesystem::path target(path);
+  auto temporary = target;
+  temporary += ".peakplan-tmp";
+  {
+    std::ofstream out(temporary, std::ios::binary | std::ios::trunc);
+    out << text;
+    out.close();
+    if (!out) {
+      error = "cannot write " + temporary.string();
+      std::filesystem::remove(temporary);
+      return false;
+    }
+  }
+  std::error_code ec;
+  std::filesystem::rename(temporary, target, ec);
+  if (ec) {
+    error = "cannot rename " + temporary.string() + " to " + path + ": " + ec.message();
+    std::filesystem::remove(temporary);
+    return false;
+  }
+  return true;
+}
+
+struct PlanArgs {
+  std::string chain;
+  bool json = false;
+  std::string write;
+};
+
+int run_plan(const PlanArgs& args) {
+  peakplan::Diagnostics diagnostics(args.chain);
+  if (!args.write.empty()) {
+    std::error_code ec;
+    if (std::filesystem::exists(args.write) && std::filesystem::equivalent(args.write, args.chain, ec)) {
+      std::cerr << args.write << ": error: --write would overwrite the chain file itself; choose another path\n";
+      return bad_input;
+    }
+  }
+  const auto spec = peakplan::load_chain_spec(args.chain, diagnostics);
+  const auto plan = spec ? peakplan::plan_chain(*spec, diagnostics) : std::nullopt;
+  if (!plan) {
+    std::cerr << diagnostics.format();
+    return bad_input;
+  }
+  const auto options = peakplan::analysis_options(*spec);
+  const auto analysis = peakplan::analyze_chain(plan->chain, options);
+  const std::string text = args.json ? peakplan::plan_json(*spec, *plan, analysis).dump(2) + "\n"
+                                     : peakplan::plan_text(*spec, *plan, analysis);
+  if (!args.write.empty()) {
+    std::string error;
+    if (!write_whole_file(args.write, peakplan::planned_chain_toml(*spec, *plan), error)) {
+      std::cerr << "peakplan: error: " << error << "\n";
+      return internal_error;
+    }
+  }
+  print(text);
+  std::cerr << plan->brief() << "\n";
+  return plan->termination == peakplan::Plan::Termination::met ? ok : target_not_met;
+}
+
 int run_analyze(const AnalyzeArgs& args) {
   peakplan::Diagnostics diagnostics(args.chain);
   const auto spec = peakplan::load_chain_spec(args.chain, diagnostics);
@@ -41,12 +107,10 @@ int run_analyze(const AnalyzeArgs& args) {
     std::cerr << diagnostics.format();
     return bad_input;
   }
-  peakplan::AnalysisOptions options;
-  options.points = args.points;
-  if (spec->limits.ripple_band) options.ripple_band_hz = *spec->limits.ripple_band;
+  const auto options = peakplan::analysis_options(*spec, args.points);
   const auto analysis = peakplan::analyze_chain(*chain, options);
   // Build the whole document before printing, so a failure never leaves half an output.
-  const std::string text = args.json ? peakplan::analysis_json(*chain, analysis).dump(2) + "\n"
+  const std::string text = args.json ? peakplan::analysis_json(*chain, analysis, {true, options.signal}).dump(2) + "\n"
                                      : peakplan::analysis_text(*chain, analysis);
   print(text);
   return ok;
@@ -66,6 +130,12 @@ int main(int argc, char** argv) {
   analyze_cmd->add_option("--points", analyze.points, "frequency points of the reported response")
       ->check(CLI::Range(2, 100000));
 
+  PlanArgs plan;
+  auto* plan_cmd = app.add_subcommand("plan", "choose the \"auto\" values to meet [target] within [limits]");
+  plan_cmd->add_option("chain", plan.chain, "chain file (TOML)")->required();
+  plan_cmd->add_flag("--json", plan.json, "print one JSON document on stdout");
+  plan_cmd->add_option("--write", plan.write, "write the planned chain as a complete chain file");
+
   std::string netlist_chain;
   auto* netlist_cmd = app.add_subcommand("netlist", "SPICE netlist of the chain on stdout");
   netlist_cmd->add_option("chain", netlist_chain, "chain file (TOML)")->required();
@@ -79,6 +149,7 @@ int main(int argc, char** argv) {
   try {
     if (*analyze_cmd) return run_analyze(analyze);
     if (*netlist_cmd) return run_netlist(netlist_chain);
+    if (*plan_cmd) return run_plan(plan);
   } catch (const std::exception& e) {
     std::cerr << "peakplan: internal error: " << e.what() << "\n";
     return internal_error;

@@ -33,6 +33,50 @@ void put_metrics(nlohmann::json& j, const ResponseSummary& r) {
   j["zeros_rad_s"] = roots_json(r.zeros);
 }
 
+nlohmann::json opening_json(const EyeOpening& e) {
+  return {{"height", number(e.height)}, {"width_ui", number(e.width_ui)},
+          {"open_span_ui", number(e.open_span_ui)}, {"best_offset_s", number(e.best_offset_s)}};
+}
+
+nlohmann::json eye_json(const EyeSummary& eye, const Signal& signal) {
+  const auto& pda = eye.estimate.pda;
+  const auto& prbs = eye.estimate.prbs;
+  nlohmann::json j{{"modulation", signal.modulation == Modulation::pam4 ? "pam4" : "nrz"},
+                   {"bit_rate", signal.bit_rate},
+                   {"symbol_rate", signal.symbol_rate()},
+                   {"pattern", std::string(to_string(signal.pattern))},
+                   {"pda_height", number(pda.height)},
+                   {"sample_time_s", number(pda.sample_time_s)},
+                   {"prbs_height", number(prbs.eye.height)},
+                   {"prbs_width_ui", number(prbs.eye.width_ui)},
+                   {"open_span_ui", number(prbs.eye.open_span_ui)},
+                   {"prbs_sample_time_s", number(prbs.sample_time_s)},
+                   {"ddj_pp_s", number(prbs.ddj_pp_s)},
+                   {"symbols_overlaid", prbs.symbols_overlaid},
+                   {"pattern_truncated", prbs.pattern_truncated}};
+  if (signal.modulation == Modulation::pam4) {
+    j["eyes"] = nlohmann::json::array();
+    for (const auto& e : prbs.eyes) j["eyes"].push_back(opening_json(e));
+    j["worst_eye"] = prbs.worst_eye;
+  }
+  if (eye.statistical) {
+    const auto& st = *eye.statistical;
+    j["q"] = number(st.q);
+    j["ber"] = number(st.ber);
+    j["target_ber"] = st.target_ber;
+    j["height_at_ber"] = number(st.height_at_ber);
+    j["height_at_ber_v"] = number(st.height_at_ber_v);
+    j["width_at_ber_ui"] = number(st.width_at_ber_ui);
+  }
+  return j;
+}
+
+nlohmann::json noise_json(const NoiseSummary& n) {
+  return {{"output_rms_v", number(n.output_rms_v)},
+          {"noise_bandwidth_hz", number(n.noise_bandwidth_hz)},
+          {"input_density_v_rthz", number(n.equivalent_input_density)}};
+}
+
 }  // namespace
 
 nlohmann::json stage_values_json(const ChainStage& stage) {
@@ -67,6 +111,10 @@ nlohmann::json analysis_json(const Chain& chain, const ChainAnalysis& analysis, 
     nlohmann::json o;
     o["node"] = chain.stages[static_cast<size_t>(out.stage)].id;
     put_metrics(o, out.response);
+    if (out.eye && options.signal) {
+      o["eye"] = eye_json(*out.eye, *options.signal);
+      o["noise"] = noise_json(out.eye->noise);
+    }
     if (options.include_response && !out.response.sampled.frequency_hz.empty()) {
       o["response"] = {{"frequency_hz", out.response.sampled.frequency_hz},
                        {"magnitude_db", out.response.sampled.magnitude_db()},

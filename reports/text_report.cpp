@@ -64,6 +64,27 @@ std::string analysis_text(const Chain& chain, const ChainAnalysis& analysis) {
                        format_si(f.group_delay_ripple_s, "s"), pct(t.overshoot_pct), format_si(t.rise_time_s, "s"),
                        format_si(t.settling_time_s, "s"));
   }
+  bool header = false;
+  for (const auto& o : analysis.outputs) {
+    if (!o.eye) continue;
+    if (!header) {
+      out += "\neyes (pulse response superposed; heights as a fraction of the ideal eye)\n";
+      out += fmt::format("  {:<10} {:>9} {:>9} {:>9} {:>9} {:>11} {:>10} {:>8} {:>10}\n", "node", "PDA", "PRBS h",
+                         "PRBS w", "DDJ pp", "noise rms", "noise BW", "Q", "BER");
+      header = true;
+    }
+    const auto& e = *o.eye;
+    const auto& p = e.estimate.prbs;
+    out += fmt::format("  {:<10} {:>9.3f} {:>9.3f} {:>6.3f} UI {:>9} {:>11} {:>10} {:>8} {:>10}\n",
+                       chain.stages[static_cast<size_t>(o.stage)].id, e.estimate.pda.height, p.eye.height,
+                       p.eye.width_ui, format_si(p.ddj_pp_s, "s"), format_si(e.noise.output_rms_v, "V"),
+                       format_si(e.noise.noise_bandwidth_hz, "Hz"),
+                       e.statistical ? fmt::format("{:.2f}", e.statistical->q) : "-",
+                       e.statistical ? fmt::format("{:.1e}", e.statistical->ber) : "-");
+    if (p.pattern_truncated)
+      out += fmt::format("  note: the pattern is longer than the simulation bound; {} symbols were overlaid\n",
+                         p.symbols_overlaid);
+  }
   return out;
 }
 

@@ -163,7 +163,10 @@ TEST_CASE("eye: PAM4 of an ideal chain opens all three eyes to a third of the NR
   REQUIRE(eye4.prbs.eyes.size() == 3);
   for (const auto& e : eye4.prbs.eyes) {
     CHECK(e.height == doctest::Approx(1.0).epsilon(1e-12));
-    CHECK(e.width_ui == doctest::Approx(1.0).epsilon(1e-12));
+    // derived: the traces jump between two samples and the margins either side of a jump are
+    // unequal for PAM4 (the far side can be any of four levels), so the interpolated edge can
+    // land anywhere in that sample interval: within one sample (1/64 UI) of 1 UI per edge pair.
+    CHECK(std::fabs(e.width_ui - 1.0) <= 1.0 / 64.0);
   }
   CHECK(eye4.pulse.ui == doctest::Approx(2.0 / 112e9));  // symbol rate = bit rate / 2
   const auto eye2 = estimate_eye(pure_gain(5.0), binary);

@@ -1,0 +1,410 @@
+#include "models/eye.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <numbers>
+#include <stdexcept>
+
+#include "models/step_response.hpp"
+
+namespace peakplan {
+namespace {
+
+constexpr double kTie = 1e-9;  // heights closer than this are treated as equal
+
+// The centre of the first run of near-maximal values of f over [first, last].
+template <class F>
+int centre_of_best(F&& f, int first, int last) {
+  double best = -std::numeric_limits<double>::infinity();
+  for (int i = first; i <= last; ++i) best = std::max(best, f(i));
+  int start = first;
+  while (f(start) < best - kTie) ++start;
+  int end = start;
+  while (end + 1 <= last && f(end + 1) >= best - kTie) ++end;
+  return (start + end) / 2;
+}
+
+// Span (in samples) of the contiguous region around `centre` where f > 0, over [first, last],
+// its ends found by linear interpolation between the last open and first closed sample.
+template <class F>
+double open_span(F&& f, int centre, int first, int last) {
+  if (!(f(centre) > 0.0)) return 0.0;
+  int l = centre;
+  while (l - 1 >= first && f(l - 1) > 0.0) --l;
+  int r = centre;
+  while (r + 1 <= last && f(r + 1) > 0.0) ++r;
+  const double left = l - 1 >= first ? (l - 1) + (-f(l - 1)) / (f(l) - f(l - 1)) : first;
+  const double right = r + 1 <= last ? r + f(r) / (f(r) - f(r + 1)) : last;
+  return right - left;
+}
+
+int main_cursor(const std::vector<double>& c) {
+  return static_cast<int>(std::max_element(c.begin(), c.end()) - c.begin());
+}
+
+double ideal_eye_fraction(Modulation m) { return m == Modulation::pam4 ? 1.0 / 3.0 : 1.0; }
+
+}  // namespace
+
+std::vector<double> PulseResponse::cursors(int phase_index) const {
+  std::vector<double> c(static_cast<size_t>(ui_count));
+  for (int j = 0; j < ui_count; ++j)
+    c[static_cast<size_t>(j)] = p[static_cast<size_t>(phase_index + j * steps_per_ui)];
+  return c;
+}
+
+std::vector<double> PulseResponse::cursors_at(double phase_s) const {
+  const double x = phase_s / dt();
+  const int i0 = static_cast<int>(std::floor(x));
+  const double frac = x - i0;
+  std::vector<double> c(static_cast<size_t>(ui_count));
+  auto at = [&](long k) { return k >= 0 && k < static_cast<long>(p.size()) ? p[static_cast<size_t>(k)] : 0.0; };
+  for (int j = 0; j < ui_count; ++j) {
+    const long k = i0 + static_cast<long>(j) * steps_per_ui;
+    c[static_cast<size_t>(j)] = (1.0 - frac) * at(k) + frac * at(k + 1);
+  }
+  return c;
+}
+
+PulseResponse pulse_response(const Cascade& chain, const Signal& signal, int steps_per_ui) {
+  if (!(signal.bit_rate > 0.0) || !std::isfinite(signal.bit_rate))
+    throw std::invalid_argument("pulse_response: bit_rate must be positive");
+  if (steps_per_ui < default_steps_per_ui)
+    throw std::invalid_argument("pulse_response: at least 64 steps per UI");
+  if (!(signal.input_rise >= 0.0)) throw std::invalid_argument("pulse_response: input_rise < 0");
+
+  Cascade cascade = chain;
+  const double ts = chain.blocks().empty() ? 1e-12 : chain.blocks().front().time_scale();
+  if (signal.input_rise > 0.0) {
+    const double tau = signal.input_rise / std::log(4.0);
+    cascade.append(Rational({1.0}, {1.0, tau / ts}, ts));
+  }
+  PulseResponse r;
+  r.ui = signal.ui();
+  r.steps_per_ui = steps_per_ui;
+  r.dc_gain = cascade.dc_value();
+  if (r.dc_gain == 0.0 || !std::isfinite(r.dc_gain))
+    throw std::invalid_argument("pulse_response: the chain has no finite, nonzero DC gain");
+
+  double slowest = std::numeric_limits<double>::infinity();
+  for (const auto& pole : cascade.poles()) {
+    if (!(pole.real() < 0.0)) throw std::invalid_argument("pulse_response: unstable chain");
+    slowest = std::min(slowest, -pole.real());
+  }
+  // The pulse's tail decays like exp(-slowest*t) once the delay has passed; 16 time constants
+  // leave 1e-7 of it, below anything the eye metrics resolve.
+  int span = 2;
+  if (std::isfinite(slowest)) {
+    const double delay = std::max(0.0, -cascade.log_derivative({0.0, 0.0}).real());
+    const double needed = std::ceil((2.0 * delay + 16.0 / slowest) / r.ui) + 2.0;
+    r.span_capped = needed > max_pulse_ui;
+    span = static_cast<int>(std::min<double>(needed, max_pulse_ui));
+  }
+  r.ui_count = span;
+
+  const SteppedSimulator sim(realise(cascade), r.dt());
+  const int points = span * steps_per_ui;
+  const auto s = sim.step(points);
+  r.p.resize(static_cast<size_t>(points));
+  for (int k = 0; k < points; ++k) {
+    const double delayed = k >= steps_per_ui ? s[static_cast<size_t>(k - steps_per_ui)] : 0.0;
+    r.p[static_cast<size_t>(k)] = (s[static_cast<size_t>(k)] - delayed) / r.dc_gain;
+  }
+  return r;
+}
+
+PeakDistortion peak_distortion(const PulseResponse& pulse, Modulation modulation) {
+  const double weight = modulation == Modulation::pam4 ? 3.0 : 1.0;
+  const int n = pulse.steps_per_ui;
+  std::vector<double> height(static_cast<size_t>(n));
+  for (int phase = 0; phase < n; ++phase) {
+    const auto c = pulse.cursors(phase);
+    const int main = main_cursor(c);
+    double others = 0.0;
+    for (size_t j = 0; j < c.size(); ++j)
+      if (static_cast<int>(j) != main) others += std::fabs(c[j]);
+    height[static_cast<size_t>(phase)] = c[static_cast<size_t>(main)] - weight * others;
+  }
+  PeakDistortion r;
+  r.phase_index = centre_of_best([&](int i) { return height[static_cast<size_t>(i)]; }, 0, n - 1);
+  r.height = height[static_cast<size_t>(r.phase_index)];
+  r.cursors = pulse.cursors(r.phase_index);
+  r.main_index = main_cursor(r.cursors);
+  r.sample_time_s = (r.phase_index + static_cast<double>(r.main_index) * n) * pulse.dt();
+  return r;
+}
+
+PrbsEye prbs_eye(const PulseResponse& pulse, const Signal& signal) {
+  const auto pda = peak_distortion(pulse, signal.modulation);
+  const int n = pulse.steps_per_ui;
+  const long span = pulse.ui_count;
+  const long m = pda.main_index;
+  const long ref = pda.phase_index;
+  const bool pam4 = signal.modulation == Modulation::pam4;
+  const int levels = pam4 ? 4 : 2;
+  const int eyes = levels - 1;
+
+  const std::uint64_t period = prbs_period(signal.pattern);
+  PrbsEye r;
+  r.modulation = signal.modulation;
+  r.pattern_truncated = period > max_overlay_symbols;
+  const long count = static_cast<long>(r.pattern_truncated ? max_overlay_symbols : period);
+  // Truncated patterns start from the register's seed; their first `span` symbols of history
+  // are simulated and discarded. Periodic ones wrap: the exact periodic steady state.
+  const long n0 = r.pattern_truncated ? span + 2 : 0;
+  const long generated = r.pattern_truncated ? n0 + count + m + 3 : count;
+  const auto bits = prbs_bits(signal.pattern, static_cast<size_t>(pam4 ? 2 * generated : generated));
+  const auto symbol = pam4 ? pam4_levels(bits) : nrz_levels(bits);
+  std::vector<std::uint8_t> level(symbol.size());
+  for (size_t i = 0; i < symbol.size(); ++i)
+    level[i] = static_cast<std::uint8_t>(std::lround(symbol[i] * eyes));
+  auto index = [&](long i) {
+    return static_cast<size_t>(r.pattern_truncated ? i : ((i % count) + count) % count);
+  };
+  r.symbols_overlaid = static_cast<std::uint64_t>(count);
+  r.settling_symbols = r.pattern_truncated
+                           ? static_cast<std::uint64_t>(n0)
+                           : static_cast<std::uint64_t>(std::max<long>(1, (span + count - 1) / count) * count);
+
+  // Blocks of one UI; block b holds t in [b*UI, (b+1)*UI). Symbol k's pulse starts in block k,
+  // its sampling instant is in block k + m, and its trace spans the block either side.
+  const long b0 = n0 + m - 1;
+  const long b1 = n0 + count + m + 2;
+  std::vector<double> w(static_cast<size_t>((b1 - b0) * n), 0.0);
+  for (long b = b0; b < b1; ++b) {
+    double* out = w.data() + (b - b0) * n;
+    for (long j = 0; j < span; ++j) {
+      const double a = symbol[index(b - j)];
+      if (a == 0.0) continue;
+      const double* pj = pulse.p.data() + j * n;
+      for (int k = 0; k < n; ++k) out[k] += a * pj[k];
+    }
+  }
+
+  // Per level, the lowest and highest trace at every offset in [-UI, UI].
+  const int offsets = 2 * n + 1;
+  std::vector<double> lo(static_cast<size_t>(levels * offsets), std::numeric_limits<double>::infinity());
+  std::vector<double> hi(static_cast<size_t>(levels * offsets), -std::numeric_limits<double>::infinity());
+  for (long k = n0; k < n0 + count; ++k) {
+    const int l = level[index(k)];
+    const double* centre = w.data() + ((k + m - b0) * n + ref);
+    double* lo_l = lo.data() + l * offsets;
+    double* hi_l = hi.data() + l * offsets;
+    for (int o = -n; o <= n; ++o) {
+      const double v = centre[o];
+      lo_l[o + n] = std::min(lo_l[o + n], v);
+      hi_l[o + n] = std::max(hi_l[o + n], v);
+    }
+  }
+  const double scale = eyes;  // an eye's opening as a fraction of its ideal 1/eyes
+  auto eye_height = [&](int e, int o) {
+    return scale * (lo[static_cast<size_t>((e + 1) * offsets + o + n)] -
+                    hi[static_cast<size_t>(e * offsets + o + n)]);
+  };
+  auto eye_margin = [&](int e, int o) {
+    const double threshold = (2.0 * e + 1.0) / (2.0 * eyes);
+    return scale * std::min(lo[static_cast<size_t>((e + 1) * offsets + o + n)] - threshold,
+                            threshold - hi[static_cast<size_t>(e * offsets + o + n)]);
+  };
+  auto opening = [&](auto&& height, auto&& margin) {
+    EyeOpening e;
+    const int best = centre_of_best(height, -n / 2, n / 2);
+    e.height = height(best);
+    e.best_offset_s = best * pulse.dt();
+    e.width_ui = open_span(margin, best, -n, n) / n;
+    e.open_span_ui = open_span(height, best, -n, n) / n;
+    return e;
+  };
+  for (int e = 0; e < eyes; ++e)
+    r.eyes.push_back(opening([&](int o) { return eye_height(e, o); },
+                             [&](int o) { return eye_margin(e, o); }));
+  auto worst = [&](auto&& f) {
+    return [&, f](int o) {
+      double v = std::numeric_limits<double>::infinity();
+      for (int e = 0; e < eyes; ++e) v = std::min(v, f(e, o));
+      return v;
+    };
+  };
+  r.eye = opening(worst(eye_height), worst(eye_margin));
+  for (int e = 0; e < eyes; ++e)
+    if (r.eyes[static_cast<size_t>(e)].height < r.eyes[static_cast<size_t>(r.worst_eye)].height) r.worst_eye = e;
+  r.sample_time_s = pda.sample_time_s + r.eye.best_offset_s;
+
+  if (!pam4) {
+    // Symbols n0 .. n0+K-1 own the boundaries (k-1, k) for k in (n0, n0+K]; their edges lie
+    // between consecutive sampling instants, where the crossings are looked for.
+    const long boundaries = r.pattern_truncated ? count - 1 : count;
+    for (long k = n0 + 1; k <= n0 + boundaries; ++k)
+      if (level[index(k)] != level[index(k - 1)]) ++r.transitions;
+    const long g_start = (n0 + m) * n + ref, g_end = (n0 + boundaries + m) * n + ref;
+    const double edge = ref + n / 2.0;  // nominal edge phase: half a UI from the sampling phase
+    double earliest = std::numeric_limits<double>::infinity(), latest = -earliest;
+    for (long g = g_start; g < g_end; ++g) {
+      const double y0 = w[static_cast<size_t>(g - b0 * n)], y1 = w[static_cast<size_t>(g + 1 - b0 * n)];
+      if ((y0 >= 0.5) == (y1 >= 0.5)) continue;
+      ++r.crossings;
+      const double t = g + (0.5 - y0) / (y1 - y0);
+      double offset = std::fmod(t - edge, n);
+      if (offset < -n / 2.0) offset += n;
+      if (offset >= n / 2.0) offset -= n;
+      earliest = std::min(earliest, offset);
+      latest = std::max(latest, offset);
+    }
+    if (r.crossings == r.transitions && r.crossings > 0) r.ddj_pp_s = (latest - earliest) * pulse.dt();
+  }
+  return r;
+}
+
+double ber_from_q(double q) { return 0.5 * std::erfc(q / std::numbers::sqrt2); }
+
+double q_from_ber(double ber) {
+  if (!(ber > 0.0 && ber < 0.5)) throw std::invalid_argument("q_from_ber: ber must be in (0, 0.5)");
+  // Bisection on the monotone tail: no approximation of the inverse to justify.
+  double lo = 0.0, hi = 40.0;
+  for (int i = 0; i < 200 && hi - lo > 1e-13; ++i) {
+    const double mid = 0.5 * (lo + hi);
+    (ber_from_q(mid) > ber ? lo : hi) = mid;
+  }
+  return 0.5 * (lo + hi);
+}
+
+double height_at_ber(std::span<const double> cursors, int main_index, Modulation modulation,
+                     double sigma, double ber, double* resolution) {
+  if (!(sigma >= 0.0)) throw std::invalid_argument("height_at_ber: sigma < 0");
+  const int eyes = modulation == Modulation::pam4 ? 3 : 1;
+  const int levels = eyes + 1;
+  const double spacing = cursors[static_cast<size_t>(main_index)] / eyes;
+  double isi_min = 0.0, isi_max = 0.0;
+  for (size_t j = 0; j < cursors.size(); ++j) {
+    if (static_cast<int>(j) == main_index) continue;
+    isi_min += std::min(0.0, cursors[j]);
+    isi_max += std::max(0.0, cursors[j]);
+  }
+  const double isi_range = isi_max - isi_min;
+  const double reach = std::max(8.0, q_from_ber(ber) + 2.0);  // noise tail, in sigma
+  const double total = isi_range + 2.0 * reach * sigma;
+  if (resolution) *resolution = 0.0;
+  if (total == 0.0) return spacing * eyes;
+  const double delta = std::max(isi_range / 2048.0, total / 8192.0);
+  if (resolution) *resolution = delta;
+
+  // ISI distribution on x = isi_min + i*delta. Each cursor's share a*c - min(0, c) in [0, |c|]
+  // is split between its two neighbouring bins so the mean stays exact. Cursors below delta/16
+  // are left out and their sum added to the spread instead, which only makes the result
+  // conservative.
+  const int bins = static_cast<int>(std::ceil(isi_range / delta)) + 2;
+  std::vector<double> pmf(static_cast<size_t>(bins), 0.0), next(pmf.size());
+  pmf[0] = 1.0;
+  int occupied = 1;
+  double dropped = 0.0;
+  for (size_t j = 0; j < cursors.size(); ++j) {
+    if (static_cast<int>(j) == main_index) continue;
+    const double c = cursors[j];
+    if (std::fabs(c) < delta / 16.0) {
+      dropped += std::fabs(c);
+      continue;
+    }
+    std::fill(next.begin(), next.begin() + std::min(bins, occupied + static_cast<int>(std::fabs(c) / delta) + 2), 0.0);
+    int reach_bins = occupied;
+    for (int l = 0; l < levels; ++l) {
+      const double a = static_cast<double>(l) / eyes;
+      const double shift = (a * c - std::min(0.0, c)) / delta;
+      const int whole = static_cast<int>(std::floor(shift));
+      const double frac = shift - whole;
+      const double w0 = (1.0 - frac) / levels, w1 = frac / levels;
+      for (int i = 0; i < occupied; ++i) {
+        const double v = pmf[static_cast<size_t>(i)];
+        if (v == 0.0) continue;
+        const int k = std::min(i + whole, bins - 2);
+        next[static_cast<size_t>(k)] += w0 * v;
+        next[static_cast<size_t>(k + 1)] += w1 * v;
+      }
+      reach_bins = std::max(reach_bins, std::min(bins, occupied + whole + 2));
+    }
+    occupied = reach_bins;
+    std::swap(pmf, next);
+  }
+
+  // P(X + noise > x_i) and P(X + noise < x_i) at grid points i (which may lie outside the ISI
+  // bins, out to the noise reach), with the Gaussian tail evaluated exactly at each offset.
+  const int noise_bins = sigma > 0.0 ? static_cast<int>(std::ceil(reach * sigma / delta)) + 1 : 1;
+  const int table_half = occupied + noise_bins + 2;
+  std::vector<double> tail(static_cast<size_t>(2 * table_half + 1));  // P(N > m*delta)
+  for (int mm = -table_half; mm <= table_half; ++mm) {
+    double t;
+    if (sigma > 0.0) t = 0.5 * std::erfc(mm * delta / (sigma * std::numbers::sqrt2));
+    else t = mm < 0 ? 1.0 : 0.0;
+    tail[static_cast<size_t>(mm + table_half)] = t;
+  }
+  auto above = [&](int i) {  // P(X + N > x_i)
+    double sum = 0.0;
+    for (int k = 0; k < occupied; ++k) sum += pmf[static_cast<size_t>(k)] * tail[static_cast<size_t>(i - k + table_half)];
+    return sum;
+  };
+  auto below = [&](int i) {  // P(X + N < x_i) = sum D_k P(N > x_k - x_i)
+    double sum = 0.0;
+    for (int k = 0; k < occupied; ++k) sum += pmf[static_cast<size_t>(k)] * tail[static_cast<size_t>(k - i + table_half)];
+    return sum;
+  };
+  const int i_lo = -noise_bins - 1, i_hi = occupied + noise_bins;
+  // Upper quantile: the smallest grid point with P(> x) <= ber, refined in log between points.
+  auto quantile = [&](auto&& tail_at, bool upper) {
+    int a = i_lo, b = i_hi;  // upper: tail(a) > ber >= tail(b); lower mirrored
+    while (b - a > 1) {
+      const int mid = (a + b) / 2;
+      const bool beyond = tail_at(mid) <= ber;
+      if (upper ? beyond : !beyond) b = mid;
+      else a = mid;
+    }
+    const int inside = upper ? a : b, outside = upper ? b : a;
+    const double t_in = tail_at(inside), t_out = tail_at(outside);
+    double x = outside;
+    if (t_out > 0.0 && t_in > t_out && sigma > 0.0)
+      x = inside + (outside - inside) * (std::log(t_in) - std::log(ber)) / (std::log(t_in) - std::log(t_out));
+    return isi_min + x * delta;
+  };
+  const double upper = quantile(above, true);
+  const double lower = quantile(below, false);
+  return eyes * (spacing - (upper - lower) - dropped);
+}
+
+StatisticalEye statistical_eye(const PulseResponse& pulse, const PrbsEye& prbs, const Signal& signal,
+                               double noise_rms_v) {
+  if (!(noise_rms_v >= 0.0)) throw std::invalid_argument("statistical_eye: noise < 0");
+  if (!(signal.swing > 0.0)) throw std::invalid_argument("statistical_eye: swing must be positive");
+  StatisticalEye r;
+  r.noise_rms_v = noise_rms_v;
+  r.target_ber = signal.target_ber;
+  r.ideal_eye_v = signal.swing * std::fabs(pulse.dc_gain) * ideal_eye_fraction(signal.modulation);
+  const double sigma = noise_rms_v / (signal.swing * std::fabs(pulse.dc_gain));  // normalised
+
+  const double inner_v = std::max(0.0, prbs.eye.height) * r.ideal_eye_v;
+  r.q = noise_rms_v > 0.0 ? inner_v / (2.0 * noise_rms_v) : std::numeric_limits<double>::infinity();
+  r.ber = ber_from_q(r.q);
+
+  const int n = pulse.steps_per_ui;
+  std::vector<double> h(static_cast<size_t>(n));
+  for (int phase = 0; phase < n; ++phase) {
+    const auto c = pulse.cursors(phase);
+    h[static_cast<size_t>(phase)] = height_at_ber(c, main_cursor(c), signal.modulation, sigma, signal.target_ber);
+  }
+  // The phase axis is circular: phase n-1 is followed by phase 0 of the next UI.
+  auto at = [&](int i) { return h[static_cast<size_t>(((i % n) + n) % n)]; };
+  const int best = centre_of_best(at, 0, n - 1);
+  r.height_at_ber = at(best);
+  r.height_at_ber_v = r.height_at_ber * r.ideal_eye_v;
+  r.width_at_ber_ui = std::min(1.0, open_span(at, best, best - n, best + n) / n);
+  const auto c = pulse.cursors(best);
+  r.sample_time_s = (best + static_cast<double>(main_cursor(c)) * n) * pulse.dt();
+  return r;
+}
+
+EyeEstimate estimate_eye(const Cascade& chain, const Signal& signal, int steps_per_ui) {
+  EyeEstimate e;
+  e.pulse = pulse_response(chain, signal, steps_per_ui);
+  e.pda = peak_distortion(e.pulse, signal.modulation);
+  e.prbs = prbs_eye(e.pulse, signal);
+  return e;
+}
+
+}  // namespace peakplan

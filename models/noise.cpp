@@ -1,0 +1,160 @@
+#include "models/noise.hpp"
+
+#include <cmath>
+#include <limits>
+#include <numbers>
+#include <stdexcept>
+
+namespace peakplan {
+namespace {
+
+constexpr double kTwoPi = 2.0 * std::numbers::pi;
+
+double generator_psd(const NodalSystem::NoiseGenerator& g, const NoiseOptions& o) {
+  const double four_kt = 4.0 * boltzmann * o.temperature;
+  using Kind = NodalSystem::NoiseGenerator::Kind;
+  switch (g.kind) {
+    case Kind::resistor: return o.resistor_noise ? four_kt * g.value : 0.0;   // A^2/Hz
+    case Kind::coil_loss: return o.resistor_noise ? four_kt * g.value : 0.0;  // V^2/Hz
+    case Kind::gm_cell: return o.gm_noise ? four_kt * o.gamma * g.value : 0.0;  // A^2/Hz
+  }
+  return 0.0;
+}
+
+std::complex<double> excitation(const Eigen::VectorXcd& w, const NodalSystem::NoiseGenerator& g) {
+  std::complex<double> v = 0.0;
+  if (g.plus != NodalSystem::ground) v += w(g.plus);
+  if (g.minus != NodalSystem::ground) v -= w(g.minus);
+  return v;
+}
+
+}  // namespace
+
+CircuitNoise::CircuitNoise(const NodalSystem& system, const NoiseOptions& options) {
+  if (system.output_node() == NodalSystem::ground) throw std::logic_error("noise: no output node set");
+  g_ = system.G().cast<std::complex<double>>();
+  c_ = system.C().cast<std::complex<double>>();
+  b_ = system.b().cast<std::complex<double>>();
+  e_out_ = Eigen::VectorXcd::Zero(system.size());
+  e_out_(system.output_node()) = 1.0;
+  for (const auto& g : system.noise_generators()) {
+    const double psd = generator_psd(g, options);
+    if (psd > 0.0) generators_.emplace_back(g, psd);
+  }
+}
+
+std::pair<std::complex<double>, double> CircuitNoise::evaluate(double f_hz) const {
+  const std::complex<double> s_scaled(0.0, kTwoPi * f_hz * NodalSystem::time_scale);
+  // v_out = e_out^T (G + sC)^-1 e = w^T e for every right-hand side e: one transposed solve.
+  const Eigen::MatrixXcd y = (g_ + s_scaled * c_).transpose();
+  const Eigen::VectorXcd w = Eigen::PartialPivLU<Eigen::MatrixXcd>(y).solve(e_out_);
+  double psd = 0.0;
+  for (const auto& [gen, density] : generators_) psd += std::norm(excitation(w, gen)) * density;
+  return {w.cwiseProduct(b_).sum(), psd};
+}
+
+ChainNoise::ChainNoise(const Chain& chain, int output, NoiseOptions options) : options_(options) {
+  if (output < 0 || output >= static_cast<int>(chain.stages.size()))
+    throw std::logic_error("ChainNoise: output is not a stage of the chain");
+  // The source network as analyze_chain and output_cascade see it; with c_in = 0 it is a plain
+  // resistor whose noise reaches the first gate unfiltered.
+  if (chain.r_source > 0.0) {
+    NodalSystem source;
+    const int in = source.add_node("in");
+    source.add_source(in, chain.r_source);
+    source.add_capacitor(in, NodalSystem::ground,
+                         chain.stages[static_cast<size_t>(chain.input_stage())].c_in);
+    source.set_output(in);
+    blocks_.emplace_back(source, options_);
+  }
+  for (int s : chain.path_to(output))
+    blocks_.emplace_back(build_stage_system(chain.stages[static_cast<size_t>(s)].circuit), options_);
+  cascade_ = output_cascade(chain, output);
+}
+
+std::pair<std::complex<double>, double> ChainNoise::evaluate(double f_hz) const {
+  // From the output backwards, so each block's own noise meets the gain after it.
+  double psd = 0.0, gain_after = 1.0;
+  std::complex<double> h = 1.0;
+  for (auto it = blocks_.rbegin(); it != blocks_.rend(); ++it) {
+    const auto [hi, own] = it->evaluate(f_hz);
+    psd += own * gain_after;
+    gain_after *= std::norm(hi);
+    h *= hi;
+  }
+  psd += options_.input_density * options_.input_density * gain_after;
+  return {h, psd};
+}
+
+double ChainNoise::output_psd(double f_hz) const { return evaluate(f_hz).second; }
+std::complex<double> ChainNoise::transfer(double f_hz) const { return evaluate(f_hz).first; }
+
+std::vector<NoisePoint> noise_spectrum(const ChainNoise& noise, const FrequencyGrid& grid) {
+  std::vector<NoisePoint> out;
+  out.reserve(grid.size());
+  for (double f : grid.hz()) {
+    const auto [h, psd] = noise.evaluate(f);
+    NoisePoint p;
+    p.frequency_hz = f;
+    p.output_density = std::sqrt(psd);
+    p.gain = std::abs(h);
+    p.input_density = p.gain > 0.0 ? p.output_density / p.gain : std::numeric_limits<double>::infinity();
+    out.push_back(p);
+  }
+  return out;
+}
+
+double integrate_psd(const std::function<double(double)>& psd, double f_lo, double f_hi) {
+  constexpr int kPerDecade = 160;  // even, for Simpson's pairs
+  const double u_lo = std::log(f_lo), u_hi = std::log(f_hi);
+  int intervals = static_cast<int>(std::ceil((u_hi - u_lo) / std::log(10.0) * kPerDecade));
+  intervals += intervals % 2;
+  const double h = (u_hi - u_lo) / intervals;
+  // In u = ln f the integrand is S(f) f: smooth on a log grid for responses spanning decades.
+  auto g = [&](double u) {
+    const double f = std::exp(u);
+    return psd(f) * f;
+  };
+  double sum = g(u_lo) + g(u_hi);
+  for (int i = 1; i < intervals; ++i) sum += (i % 2 ? 4.0 : 2.0) * g(u_lo + i * h);
+  const double middle = sum * h / 3.0;
+  const double below = psd(f_lo) * f_lo;  // flat below f_lo
+  // Above f_hi the response is its high-frequency asymptote, a power of f: its slope from two
+  // close points integrates the tail in closed form.
+  const double s_hi = psd(f_hi);
+  if (s_hi == 0.0) return below + middle;
+  const double ratio = 1.01;
+  const double slope = std::log(psd(f_hi * ratio) / s_hi) / std::log(ratio);
+  if (!(slope < -1.5)) return std::numeric_limits<double>::infinity();
+  return below + middle + s_hi * f_hi / (-slope - 1.0);
+}
+
+double noise_bandwidth(const Cascade& cascade) {
+  int relative_degree = 0;
+  for (const auto& block : cascade.blocks()) relative_degree += block.order() - block.numerator_degree();
+  if (relative_degree <= 0) return std::numeric_limits<double>::infinity();
+  const double h0 = cascade.dc_value();
+  const auto [f_lo, f_hi] = natural_span(cascade, 3.0);
+  return integrate_psd(
+      [&](double f) { return std::norm(cascade.evaluate({0.0, kTwoPi * f}) / h0); }, f_lo, f_hi);
+}
+
+NoiseSummary summarise_noise(const ChainNoise& noise) {
+  NoiseSummary r;
+  auto [f_lo, f_hi] = natural_span(noise.cascade(), 3.0);
+  // A generator may see a mode the signal path cancels; if the PSD still falls slowly at the
+  // end of the span, the span grows (up to six decades) before the tail is trusted.
+  const auto psd = [&](double f) { return noise.output_psd(f); };
+  double total = integrate_psd(psd, f_lo, f_hi);
+  for (int extra = 0; extra < 6 && !std::isfinite(total); ++extra) {
+    f_hi *= 10.0;
+    total = integrate_psd(psd, f_lo, f_hi);
+  }
+  r.output_rms_v = std::sqrt(total);
+  r.integration_limit_hz = f_hi;
+  r.noise_bandwidth_hz = noise_bandwidth(noise.cascade());
+  r.equivalent_input_density = r.output_rms_v / (std::fabs(noise.dc_gain()) * std::sqrt(r.noise_bandwidth_hz));
+  return r;
+}
+
+}  // namespace peakplan

@@ -1,0 +1,113 @@
+// planned_chain_toml: the planned chain as a complete chain file.
+#include <cmath>
+#include <fmt/format.h>
+
+#include "models/units.hpp"
+#include "planner/planner.hpp"
+
+namespace peakplan {
+namespace {
+
+std::string quoted(std::string_view text) {
+  std::string out = "\"";
+  for (const unsigned char ch : text) {
+    if (ch == '"' || ch == '\\') {
+      out += '\\';
+      out += static_cast<char>(ch);
+    } else if (ch < 0x20 || ch == 0x7f) {
+      out += fmt::format("\\u{:04x}", ch);
+    } else {
+      out += static_cast<char>(ch);
+    }
+  }
+  return out + "\"";
+}
+
+// Full precision so that analyzing the written file reproduces the plan exactly, with the
+// engineering form alongside for the reader.
+std::string number_line(std::string_view key, double value, std::string_view unit) {
+  return fmt::format("{} = {:.17g}{}\n", key, value, unit.empty() ? "" : fmt::format("    # {}", format_si(value, unit, 4)));
+}
+
+}  // namespace
+
+std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
+  std::string out = fmt::format(
+      "# Planned by peakplan from {}: {}.\n# Every value is written out; analyzing this file reproduces the plan.\n\n",
+      spec.file, plan.termination == Plan::Termination::met ? "every target and limit met" : "NOT MET (" + plan.message + ")");
+  out += "[chain]\nname = " + quoted(spec.name) + "\n\n[input]\n" + number_line("r_source", spec.r_source, "ohm");
+  if (spec.input_noise_density) out += number_line("noise_density", *spec.input_noise_density, "V/rtHz");
+  if (spec.signal) {
+    const auto& s = *spec.signal;
+    out += "\n[signal]\n" + number_line("bit_rate", s.bit_rate, "b/s");
+    out += "modulation = " + quoted(s.modulation) + "\npattern = " + quoted(s.pattern) + "\n";
+    if (s.input_rise) out += number_line("input_rise", *s.input_rise, "s");
+    if (s.swing) out += number_line("swing", *s.swing, "V");
+    out += fmt::format("target_ber = {:.17g}\n", s.target_ber);
+  }
+  const auto& t = spec.target;
+  if (t.gain_db || t.bandwidth || t.gain_bandwidth) {
+    out += "\n[target]\n";
+    if (t.gain_db) out += fmt::format("gain = \"{:.17g} dB\"\n", *t.gain_db);
+    if (t.bandwidth) out += number_line("bandwidth", *t.bandwidth, "Hz");
+    if (t.gain_bandwidth) out += number_line("gain_bandwidth", *t.gain_bandwidth, "Hz");
+    out += "objective = " + quoted(t.objective) + "\n";
+  }
+  const auto& l = spec.limits;
+  if (l.overshoot || l.peaking_db || l.group_delay_ripple || l.ripple_band) {
+    out += "\n[limits]\n";
+    if (l.overshoot) out += fmt::format("overshoot = {:.17g}\n", *l.overshoot);
+    if (l.peaking_db) out += fmt::format("peaking = \"{:.17g} dB\"\n", *l.peaking_db);
+    if (l.group_delay_ripple) out += number_line("group_delay_ripple", *l.group_delay_ripple, "s");
+    if (l.ripple_band) out += number_line("ripple_band", *l.ripple_band, "Hz");
+  }
+  const auto& tech = spec.technology;
+  out += "\n[technology]\n";
+  auto opt = [&](std::string_view key, const std::optional<double>& v, std::string_view unit) {
+    if (v) out += number_line(key, *v, unit);
+  };
+  opt("ft", tech.ft, "Hz");
+  opt("c_out_ratio", tech.c_out_ratio, "");
+  opt("inductor_q", tech.inductor_q, "");
+  opt("max_inductance", tech.max_inductance, "H");
+  opt("min_cb", tech.min_cb, "F");
+  opt("max_gm", tech.max_gm, "S");
+  opt("gm_over_id", tech.gm_over_id, "");
+  opt("current_budget", tech.current_budget, "");
+  if (tech.k_min && tech.k_max) out += fmt::format("k_range = [{:.17g}, {:.17g}]\n", *tech.k_min, *tech.k_max);
+  out += fmt::format("gamma = {:.17g}\ntemperature = {:.17g}\n", tech.gamma, tech.temperature);
+
+  for (const auto& planned : plan.stages) {
+    const auto& s = spec.stages[planned.spec];
+    size_t first = 0;
+    while (plan.graph[first].spec != planned.spec) ++first;
+    const auto& stage = plan.chain.stages[first];
+    const auto& c = stage.circuit;
+    out += "\n[[stage]]\nid = " + quoted(s.id) + "\nkind = " + quoted(to_string(planned.kind)) + "\n";
+    if (planned.count != 1) out += fmt::format("count = {}\n", planned.count);
+    out += number_line("gm", c.gm, "S") + number_line("rd", c.rd, "ohm");
+    out += number_line("c_in", stage.c_in, "F") + number_line("c_out", c.c_out, "F");
+    if (stage.c_load > 0.0) out += number_line("c_load", stage.c_load, "F");
+    if (std::isfinite(c.r_load)) out += number_line("r_load", c.r_load, "ohm");
+    switch (planned.kind) {
+      case LoadKind::plain: break;
+      case LoadKind::shunt:
+      case LoadKind::series: out += number_line("l", c.l, "H") + number_line("r_l", c.r_l, "ohm"); break;
+      case LoadKind::tcoil:
+        out += number_line("l1", c.l1, "H") + number_line("l2", c.l2, "H") + fmt::format("k = {:.17g}\n", c.k);
+        out += number_line("cb", c.cb, "F");
+        if (c.c_w > 0.0) out += number_line("c_w", c.c_w, "F");
+        out += number_line("r_l1", c.r_l1, "ohm") + number_line("r_l2", c.r_l2, "ohm");
+        break;
+    }
+    if (s.feeds) {
+      out += "feeds = [";
+      for (size_t i = 0; i < s.feeds->size(); ++i) out += (i ? ", " : "") + quoted((*s.feeds)[i]);
+      out += "]\n";
+    }
+    if (s.tap) out += "tap = true\n";
+  }
+  return out;
+}
+
+}  // namespace peakplan

@@ -1,0 +1,57 @@
+#include "reports/plan_report.hpp"
+
+#include <cmath>
+#include <fmt/format.h>
+
+#include "models/units.hpp"
+#include "reports/json_report.hpp"
+#include "reports/text_report.hpp"
+
+namespace peakplan {
+namespace {
+
+std::string shown(const PlanCheck& c, double x) {
+  if (c.unit == "dB") return fmt::format("{:.2f} dB", x);
+  if (c.unit == "%") return fmt::format("{:.2f} %", x);
+  return format_si(x, c.unit, 4);
+}
+
+}  // namespace
+
+nlohmann::json plan_json(const ChainSpec& spec, const Plan& plan, const ChainAnalysis& analysis) {
+  auto doc = analysis_json(plan.chain, analysis, {true, analysis_options(spec).signal});
+  doc["status"] = plan.termination == Plan::Termination::met ? "met" : "not_met";
+  doc["message"] = plan.message;
+  doc["binding"] = plan.binding;
+  doc["objective"] = spec.target.objective;
+  doc["evaluations"] = plan.evaluations;
+  doc["plan_time_s"] = plan.seconds;
+  doc["checks"] = nlohmann::json::array();
+  for (const auto& c : plan.checks)
+    doc["checks"].push_back({{"name", c.name}, {"unit", c.unit}, {"value", c.value}, {"limit", c.limit},
+                             {"kind", c.is_minimum ? "minimum" : "maximum"}, {"margin", c.margin}, {"met", c.met}});
+  doc["chosen"] = nlohmann::json::array();
+  for (const auto& p : plan.stages) {
+    size_t first = 0;
+    while (plan.graph[first].spec != p.spec) ++first;
+    doc["chosen"].push_back({{"id", spec.stages[p.spec].id},
+                             {"kind", std::string(to_string(p.kind))},
+                             {"count", p.count},
+                             {"values", stage_values_json(plan.chain.stages[first])}});
+  }
+  return doc;
+}
+
+std::string plan_text(const ChainSpec& spec, const Plan& plan, const ChainAnalysis& analysis) {
+  std::string out = plan.brief() + "\n\n" + analysis_text(plan.chain, analysis);
+  out += fmt::format("\ntargets and limits (objective: {})\n", spec.target.objective);
+  out += fmt::format("  {:<20} {:>12} {:>14} {:>14}  {}\n", "check", "required", "achieved", "margin", "");
+  for (const auto& c : plan.checks)
+    out += fmt::format("  {:<20} {:>12} {:>14} {:>14}  {}{}\n", c.name, (c.is_minimum ? ">= " : "<= ") + shown(c, c.limit),
+                       shown(c, c.value), shown(c, c.margin), c.met ? "met" : "NOT MET",
+                       c.name == plan.binding ? " (binding)" : "");
+  if (plan.checks.empty()) out += "  (the file sets no [target] or [limits])\n";
+  return out;
+}
+
+}  // namespace peakplan

@@ -1,0 +1,186 @@
+#include <doctest/doctest.h>
+
+#include <cmath>
+#include <numbers>
+
+#include "models/noise.hpp"
+#include "models/peaking_design.hpp"
+
+using namespace peakplan;
+
+namespace {
+
+constexpr double kPi = std::numbers::pi;
+constexpr double kTs = 1e-12;
+constexpr double kT = boltzmann * 300.0;
+
+// The quadrature (Simpson in ln f, 160 points per decade, flat below and power-law tail beyond
+// 3 decades past every pole) errs by about 1e-8 of the total for these responses (derived:
+// Simpson's remainder (b-a) h^4 max|g''''|/180 with h = ln10/160 and g = S(f) f of order sech
+// in ln f; the tail and the flat start miss terms of order (1e-3)^2 of 1e-3 of the total).
+// The checks allow 1e-6.
+constexpr double kQuadrature = 1e-6;
+
+NoiseOptions resistors_only() {
+  NoiseOptions o;
+  o.gm_noise = false;
+  return o;
+}
+
+ChainStage stage(StageCircuit circuit, int driver, double c_in = 0.0, double c_load = 0.0) {
+  ChainStage s;
+  s.id = "s" + std::to_string(driver + 1);
+  s.circuit = circuit;
+  s.driver = driver;
+  s.c_in = c_in;
+  s.c_load = c_load;
+  return s;
+}
+
+StageCircuit plain(double gm, double rd, double c_out) {
+  StageCircuit c;
+  c.kind = LoadKind::plain;
+  c.gm = gm;
+  c.rd = rd;
+  c.c_out = c_out;
+  return c;
+}
+
+Chain one_stage(StageCircuit circuit, double c_load) {
+  Chain chain;
+  chain.stages.push_back(stage(circuit, -1, 0.0, c_load));
+  fill_node_capacitances(chain);
+  return chain;
+}
+
+double output_ms(const Chain& chain, const NoiseOptions& options) {
+  const ChainNoise noise(chain, static_cast<int>(chain.stages.size()) - 1, options);
+  const double rms = summarise_noise(noise).output_rms_v;
+  return rms * rms;
+}
+
+}  // namespace
+
+TEST_CASE("noise: noise bandwidths of first- and second-order responses") {
+  // derived (REFERENCES.md closed forms): first order  int df/(1+(f/f3)^2) = pi/2 f3;
+  // Butterworth-2 int df/(1+(f/f3)^4) = pi/(2 sqrt2) f3 = 1.1107 f3; two coincident poles
+  // 1/(1+s tau)^2: NBW = 1/(8 tau), f3 = sqrt(sqrt2 - 1)/(2 pi tau), ratio 1.2203.
+  const double f3 = 20e9, t = 1.0 / (2.0 * kPi * f3) / kTs;
+  CHECK(noise_bandwidth(Cascade({Rational({3.0}, {1.0, t}, kTs)})) / f3 ==
+        doctest::Approx(kPi / 2.0).epsilon(kQuadrature));
+  const double nbw_butter = noise_bandwidth(Cascade({Rational({1.0}, {1.0, std::numbers::sqrt2 * t, t * t}, kTs)}));
+  CHECK(nbw_butter / f3 == doctest::Approx(kPi / (2.0 * std::numbers::sqrt2)).epsilon(kQuadrature));
+  CHECK(nbw_butter / f3 == doctest::Approx(1.1107).epsilon(1e-4));  // printed precision
+  const double tau = std::sqrt(std::sqrt(2.0) - 1.0) / (2.0 * kPi * f3) / kTs;
+  const Cascade critical({Rational({1.0}, {1.0, tau}, kTs), Rational({1.0}, {1.0, tau}, kTs)});
+  CHECK(noise_bandwidth(critical) / f3 == doctest::Approx(2.0 * kPi / (8.0 * std::sqrt(std::sqrt(2.0) - 1.0))).epsilon(kQuadrature));
+  CHECK(noise_bandwidth(Cascade({Rational({1.0, 0.5}, {1.0, 1.0}, kTs)})) == std::numeric_limits<double>::infinity());
+}
+
+TEST_CASE("noise: a resistor on a capacitor integrates to kT/C whatever the resistance") {
+  // Equipartition (REFERENCES.md, standard physics); the plain stage's node holds 50 fF.
+  for (double rd : {50.0, 200.0, 1000.0}) {
+    CAPTURE(rd);
+    const Chain chain = one_stage(plain(0.02, rd, 20e-15), 30e-15);
+    CHECK(output_ms(chain, resistors_only()) == doctest::Approx(kT / 50e-15).epsilon(kQuadrature));
+  }
+}
+
+TEST_CASE("noise: kT/C holds on a shunt-peaked load, whatever the inductor and its loss") {
+  // Equipartition: the drain node is the only capacitor (Rd, r_l and r_load are the losses).
+  for (double m : {0.414, 0.707}) {
+    CAPTURE(m);
+    StageCircuit c = plain(0.02, 150.0, 15e-15);
+    c.kind = LoadKind::shunt;
+    c.l = inductance_for_m(m, c.rd, 60e-15);
+    c.r_l = 8.0;
+    c.r_load = 400.0;
+    const Chain chain = one_stage(c, 45e-15);
+    CHECK(output_ms(chain, resistors_only()) == doctest::Approx(kT / 60e-15).epsilon(kQuadrature));
+  }
+}
+
+TEST_CASE("noise: kT/C holds on the centre tap of a T-coil") {
+  // Equipartition gives <v v^T> = kT Cmat^-1 for the node capacitance matrix; with no winding
+  // capacitance the tap's only capacitor is c_node to ground (c_out and Cb sit on the drain and
+  // Rd end), so <v_tap^2> = kT / c_node whatever L1, L2, k and the coil losses (derived).
+  StageCircuit c;
+  c.kind = LoadKind::tcoil;
+  c.gm = 0.03;
+  c.rd = 100.0;
+  c.c_out = 20e-15;
+  const double c_tap = 80e-15;
+  const auto d = tcoil_for_zeta(1.0 / std::numbers::sqrt2, c.rd, c_tap);
+  c.l1 = c.l2 = d.l_half;
+  c.k = d.k;
+  c.cb = d.cb;
+  c.r_l1 = c.r_l2 = 3.0;
+  c.r_load = 500.0;
+  const Chain chain = one_stage(c, c_tap);
+  CHECK(output_ms(chain, resistors_only()) == doctest::Approx(kT / c_tap).epsilon(kQuadrature));
+}
+
+TEST_CASE("noise: gm-cell noise of a plain stage is kT gamma gm R / C") {
+  // derived: 4kT gamma gm * R^2 / (1 + (w R C)^2) integrates over f to 4kT gamma gm R^2/(4 R C).
+  NoiseOptions o;
+  o.resistor_noise = false;
+  o.gamma = 2.0 / 3.0;
+  const Chain chain = one_stage(plain(0.025, 120.0, 10e-15), 40e-15);
+  CHECK(output_ms(chain, o) == doctest::Approx(kT * o.gamma * 0.025 * 120.0 / 50e-15).epsilon(kQuadrature));
+}
+
+TEST_CASE("noise: upstream noise passes through the downstream gain") {
+  // derived: a source Rs on c_in feeding plain stage 1 (R1, C1) feeding plain stage 2 (R2, C2).
+  // int_0^inf df / ((1 + w^2 a^2)(1 + w^2 b^2)) = 1/(4(a + b)) and
+  // int_0^inf df / ((1 + w^2 a^2)(1 + w^2 b^2)(1 + w^2 c^2)) = (ab + bc + ca)/(4 (a+b)(b+c)(c+a))
+  // (partial fractions; the second reduces to the first as c -> 0 and to 3/(32 a) for equal
+  // poles, the textbook int dx/(1+x^2)^3 = 3 pi/16).
+  // Stage 2's own noise: kT/C2. Stage 1's: 4kT R1 A2^2 / (4 (t1 + t2)) = kT R1 A2^2/(t1 + t2).
+  // The source's 4kT Rs through its own pole and both stages:
+  //   kT Rs A1^2 A2^2 (ts t1 + t1 t2 + t2 ts) / ((ts + t1)(t1 + t2)(t2 + ts)).
+  const double rs = 50.0, c_in1 = 30e-15, c_in2 = 25e-15;
+  const double gm1 = 0.04, r1 = 100.0, c1 = 10e-15 + c_in2;
+  const double gm2 = 0.03, r2 = 150.0, c2 = 12e-15 + 40e-15;
+  Chain chain;
+  chain.r_source = rs;
+  chain.stages.push_back(stage(plain(gm1, r1, 10e-15), -1, c_in1));
+  chain.stages.push_back(stage(plain(gm2, r2, 12e-15), 0, c_in2, 40e-15));
+  fill_node_capacitances(chain);
+  const double ts = rs * c_in1, t1 = r1 * c1, t2 = r2 * c2, a1 = gm1 * r1, a2 = gm2 * r2;
+  const double expected = kT / c2 + kT * r1 * a2 * a2 / (t1 + t2) +
+                          kT * rs * a1 * a1 * a2 * a2 * (ts * t1 + t1 * t2 + t2 * ts) /
+                              ((ts + t1) * (t1 + t2) * (t2 + ts));
+  CHECK(output_ms(chain, resistors_only()) == doctest::Approx(expected).epsilon(kQuadrature));
+
+  // The transfer from the adjoint solves is the chain's transfer function (an independent path:
+  // the interpolated rational form); both are exact, so only rounding separates them.
+  const ChainNoise noise(chain, 1, resistors_only());
+  for (double f : {1e8, 5e9, 3e10, 2e11}) {
+    const auto h = noise.transfer(f);
+    const auto ref = noise.cascade().evaluate({0.0, 2.0 * kPi * f});
+    CHECK(std::abs(h / ref - 1.0) < 1e-9);
+  }
+}
+
+TEST_CASE("noise: a white input density is referred back unchanged") {
+  // derived: with every internal generator off, S_out = e^2 |H|^2, so S_out/|H|^2 = e^2 at every
+  // frequency and the output mean square is e^2 A^2 (pi/2) f3.
+  NoiseOptions o;
+  o.resistor_noise = false;
+  o.gm_noise = false;
+  o.input_density = 3e-9;
+  const Chain chain = one_stage(plain(0.02, 200.0, 25e-15), 25e-15);
+  const ChainNoise noise(chain, 0, o);
+  for (const auto& p : noise_spectrum(noise, FrequencyGrid::log(1e8, 1e12, 9)))
+    CHECK(p.input_density == doctest::Approx(3e-9).epsilon(1e-12));
+  const auto summary = summarise_noise(noise);
+  const double f3 = 1.0 / (2.0 * kPi * 200.0 * 50e-15), a = 0.02 * 200.0;
+  CHECK(summary.output_rms_v == doctest::Approx(3e-9 * a * std::sqrt(kPi / 2.0 * f3)).epsilon(kQuadrature));
+  CHECK(summary.noise_bandwidth_hz == doctest::Approx(kPi / 2.0 * f3).epsilon(kQuadrature));
+  CHECK(summary.equivalent_input_density == doctest::Approx(3e-9).epsilon(kQuadrature));
+}
+
+TEST_CASE("noise: an output that is not a stage is rejected") {
+  const Chain chain = one_stage(plain(0.02, 200.0, 25e-15), 0.0);
+  CHECK_THROWS_AS(ChainNoise(chain, 3), std::logic_error);
+}
