@@ -138,10 +138,23 @@ std::optional<std::vector<GraphStage>> build_stage_graph(const ChainSpec& spec, 
 }
 
 void apply_designs(Chain& chain, const ChainSpec& spec, const std::vector<GraphStage>& graph) {
+  // Copies of a counted stage are identical: each is resolved as the first copy is, against
+  // the first copy's load (the copies before the last all drive another copy).
+  std::vector<int> first_copy(spec.stages.size(), -1);
   for (size_t i = 0; i < chain.stages.size(); ++i) {
     auto& stage = chain.stages[i];
     auto& c = stage.circuit;
     const auto& s = spec.stages[graph[i].spec];
+    if (int& first = first_copy[graph[i].spec]; first >= 0) {
+      const auto& model = chain.stages[static_cast<size_t>(first)];
+      const double c_node = c.c_node;
+      c = model.circuit;
+      c.c_node = c_node;
+      stage.intent = model.intent;
+      continue;
+    } else {
+      first = static_cast<int>(i);
+    }
     if (s.m && (c.kind == LoadKind::shunt || c.kind == LoadKind::series)) {
       c.l = inductance_for_m(*s.m, c.rd, c.c_out + c.c_node);
       stage.intent = {DesignIntent::Kind::m, *s.m, fmt::format("m = {:.4g}", *s.m)};

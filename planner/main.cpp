@@ -95,7 +95,7 @@ int run_plan(const PlanArgs& args) {
     }
   }
   print(text);
-  std::cerr << plan->brief() << "\n";
+  if (args.json) std::cerr << plan->brief() << "\n";
   return plan->termination == peakplan::Plan::Termination::met ? ok : target_not_met;
 }
 

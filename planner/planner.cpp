@@ -351,23 +351,16 @@ std::optional<Plan> plan_chain(const ChainSpec& spec, Diagnostics& diagnostics, 
       lo[v] = vars[v].to_unit(vars[v].lo);
       hi[v] = vars[v].to_unit(vars[v].hi);
     }
-    for (int start = 0; start < options.starts; ++start) {
-      std::vector<double> u = p.seed();
-      if (start > 0)
-        for (size_t v = 0; v < vars.size(); ++v) {
-          // Random starts spread around the seed across the whole box.
-          std::uniform_real_distribution<double> pick(lo[v], hi[v]);
-          u[v] = start % 2 ? pick(random) : 0.5 * (u[v] + pick(random));
-        }
-      // COBYLA on the objective with a smooth exterior penalty keeps one code path for
-      // feasible and infeasible problems, so an infeasible target still yields its best try.
+    // COBYLA on the objective with a smooth exterior penalty keeps one code path for feasible
+    // and infeasible problems, so an infeasible target still yields its best try.
+    auto local_run = [&](std::vector<double>& u, double step_fraction, int budget) {
       nlopt::opt local(nlopt::LN_COBYLA, static_cast<unsigned>(vars.size()));
       local.set_lower_bounds(lo);
       local.set_upper_bounds(hi);
-      local.set_maxeval(budget_per_run);
-      local.set_xtol_rel(1e-7);
+      local.set_maxeval(budget);
+      local.set_xtol_rel(1e-8);
       std::vector<double> step_size(vars.size());
-      for (size_t v = 0; v < vars.size(); ++v) step_size[v] = 0.15 * (hi[v] - lo[v]);
+      for (size_t v = 0; v < vars.size(); ++v) step_size[v] = step_fraction * (hi[v] - lo[v]);
       local.set_initial_step(step_size);
       struct Context {
         decltype(score_of)* score;
@@ -387,12 +380,33 @@ std::optional<Plan> plan_chain(const ChainSpec& spec, Diagnostics& diagnostics, 
       } catch (const std::exception&) {
         // NLopt's roundoff-limited stop still leaves the best point in u.
       }
+    };
+    Candidate local_best;
+    auto consider = [&](const std::vector<double>& u) {
       double violation = 0.0;
       const double obj = score_of(p, u, violation);
       const double score = obj + 1e3 * violation;
-      if (violation < best.violation - 1e-9 || (violation <= best.violation + 1e-9 && score < best.score))
-        best = {u, pi, score, violation};
+      if (violation < local_best.violation - 1e-9 || (violation <= local_best.violation + 1e-9 && score < local_best.score))
+        local_best = {u, pi, score, violation};
+    };
+    for (int start = 0; start < options.starts; ++start) {
+      std::vector<double> u = p.seed();
+      if (start > 0)
+        for (size_t v = 0; v < vars.size(); ++v) {
+          // Random starts spread around the seed across the whole box.
+          std::uniform_real_distribution<double> pick(lo[v], hi[v]);
+          u[v] = start % 2 ? pick(random) : 0.5 * (u[v] + pick(random));
+        }
+      local_run(u, 0.15, budget_per_run);
+      consider(u);
     }
+    // Polish the best start with small steps: the optimum usually sits on a constraint edge.
+    auto polished = local_best.u;
+    local_run(polished, 0.01, budget_per_run);
+    consider(polished);
+    if (local_best.violation < best.violation - 1e-9 ||
+        (local_best.violation <= best.violation + 1e-9 && local_best.score < best.score))
+      best = local_best;
   }
 
   // The final check uses the full-resolution response, as analyze computes it.

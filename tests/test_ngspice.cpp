@@ -34,6 +34,8 @@
 #include "models/chain.hpp"
 #include "models/frequency_response.hpp"
 #include "models/nodal_system.hpp"
+#include "planner/chain_graph.hpp"
+#include "planner/planner.hpp"
 #include "reports/netlist.hpp"
 
 namespace peakplan {
@@ -447,3 +449,27 @@ TEST_CASE("ngspice: fan-out with a tap gives peakplan's response at every output
 }
 
 }  // namespace peakplan
+
+TEST_CASE("ngspice: every shipped chain (planned first where it leaves values open) gives peakplan's response") {
+  int checked = 0;
+  for (const auto& entry : std::filesystem::directory_iterator(std::string(PEAKPLAN_SOURCE_DIR) + "/chains")) {
+    if (entry.path().extension() != ".toml") continue;
+    const std::string path = entry.path().string();
+    CAPTURE(path);
+    peakplan::Diagnostics d(path);
+    const auto spec = peakplan::load_chain_spec(path, d);
+    REQUIRE(spec);
+    auto chain = peakplan::resolve_chain(*spec, d);
+    if (!chain) {
+      // A planning example: its open values are chosen first, then the plan is cross-checked.
+      peakplan::Diagnostics plan_diagnostics(path);
+      const auto plan = peakplan::plan_chain(*spec, plan_diagnostics);
+      INFO(plan_diagnostics.format());
+      REQUIRE(plan);
+      chain = plan->chain;
+    }
+    peakplan::check_with_ngspice(*chain);
+    ++checked;
+  }
+  CHECK(checked >= 6);
+}
