@@ -271,20 +271,7 @@ std::optional<Chain> resolve_chain(const ChainSpec& spec, Diagnostics& diagnosti
   }
   if (!diagnostics.empty()) return std::nullopt;
 
-  Chain chain;
-  chain.name = spec.name;
-  chain.r_source = spec.r_source;
-  for (const auto& g : *graph) {
-    ChainStage stage;
-    stage.id = g.id;
-    stage.circuit = circuits[g.spec];
-    stage.c_in = c_in[g.spec];
-    stage.c_load = c_load[g.spec];
-    stage.driver = g.driver;
-    stage.tap = spec.stages[g.spec].tap;
-    chain.stages.push_back(std::move(stage));
-  }
-  fill_node_capacitances(chain);
+  Chain chain = assemble_chain(spec, *graph, circuits, c_in, c_load);
   // A design that needs the output node's capacitance cannot be resolved without one.
   for (size_t i = 0; i < chain.stages.size(); ++i) {
     const auto& s = spec.stages[(*graph)[i].spec];
@@ -298,6 +285,26 @@ std::optional<Chain> resolve_chain(const ChainSpec& spec, Diagnostics& diagnosti
   }
   if (!diagnostics.empty()) return std::nullopt;
   apply_designs(chain, spec, *graph);
+  return chain;
+}
+
+Chain assemble_chain(const ChainSpec& spec, const std::vector<GraphStage>& graph,
+                     const std::vector<StageCircuit>& circuits, const std::vector<double>& c_in,
+                     const std::vector<double>& c_load) {
+  Chain chain;
+  chain.name = spec.name;
+  chain.r_source = spec.r_source;
+  for (const auto& g : graph) {
+    ChainStage stage;
+    stage.id = g.id;
+    stage.circuit = circuits[g.spec];
+    stage.c_in = c_in[g.spec];
+    stage.c_load = c_load[g.spec];
+    stage.driver = g.driver;
+    stage.tap = spec.stages[g.spec].tap;
+    chain.stages.push_back(std::move(stage));
+  }
+  fill_node_capacitances(chain);
   return chain;
 }
 

@@ -33,6 +33,12 @@ std::optional<Chain> resolve_chain(const ChainSpec& spec, Diagnostics& diagnosti
 // Loads, validates and resolves a chain file; nullopt with diagnostics on any input error.
 std::optional<Chain> load_chain_file(const std::string& path, Diagnostics& diagnostics);
 
+// The models chain for a graph, from per-[[stage]] circuits and capacitances (indexed like
+// ChainSpec::stages), with node capacitances filled.
+Chain assemble_chain(const ChainSpec& spec, const std::vector<GraphStage>& graph,
+                     const std::vector<StageCircuit>& circuits, const std::vector<double>& c_in,
+                     const std::vector<double>& c_load);
+
 // Resolves the normalised designs and Q-derived losses of a chain whose element values and
 // node capacitances are otherwise set (shared by resolve_chain and the planner).
 void apply_designs(Chain& chain, const ChainSpec& spec, const std::vector<GraphStage>& graph);

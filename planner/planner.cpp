@@ -146,20 +146,7 @@ class Problem {
       c.r_l1 = value(u, i, "r_l1", r_l);
       c.r_l2 = value(u, i, "r_l2", r_l);
     }
-    Chain chain;
-    chain.name = spec_.name;
-    chain.r_source = spec_.r_source;
-    for (const auto& g : graph_) {
-      ChainStage stage;
-      stage.id = g.id;
-      stage.circuit = circuits[g.spec];
-      stage.c_in = c_in[g.spec];
-      stage.c_load = c_load[g.spec];
-      stage.driver = g.driver;
-      stage.tap = spec_.stages[g.spec].tap;
-      chain.stages.push_back(std::move(stage));
-    }
-    fill_node_capacitances(chain);
+    Chain chain = assemble_chain(spec_, graph_, circuits, c_in, c_load);
     apply_designs(chain, spec_, graph_);
     return chain;
   }
