@@ -37,6 +37,7 @@
 #include "planner/chain_graph.hpp"
 #include "planner/planner.hpp"
 #include "reports/netlist.hpp"
+#include "test_support.hpp"
 
 namespace peakplan {
 namespace {
@@ -268,25 +269,8 @@ NgspiceComparison check_with_ngspice(const Chain& chain) {
   return c;
 }
 
-ChainStage make_stage(std::string id, int driver, StageCircuit circuit, double c_in,
-                      double c_load = 0.0) {
-  ChainStage s;
-  s.id = std::move(id);
-  s.driver = driver;
-  s.circuit = circuit;
-  s.c_in = c_in;
-  s.c_load = c_load;
-  return s;
-}
-
-StageCircuit plain(double gm, double rd, double c_out) {
-  StageCircuit c;
-  c.kind = LoadKind::plain;
-  c.gm = gm;
-  c.rd = rd;
-  c.c_out = c_out;
-  return c;
-}
+StageCircuit plain(double gm, double rd, double c_out) { return test::plain_circuit(gm, rd, c_out); }
+using test::make_stage;
 
 StageCircuit inductive(LoadKind kind, double gm, double rd, double l, double r_l, double c_out) {
   StageCircuit c = plain(gm, rd, c_out);

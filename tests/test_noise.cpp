@@ -1,5 +1,7 @@
 #include <doctest/doctest.h>
 
+#include "test_support.hpp"
+
 #include <cmath>
 #include <numbers>
 
@@ -28,23 +30,10 @@ NoiseOptions resistors_only() {
 }
 
 ChainStage stage(StageCircuit circuit, int driver, double c_in = 0.0, double c_load = 0.0) {
-  ChainStage s;
-  s.id = "s" + std::to_string(driver + 1);
-  s.circuit = circuit;
-  s.driver = driver;
-  s.c_in = c_in;
-  s.c_load = c_load;
-  return s;
+  return test::make_stage("s" + std::to_string(driver + 1), driver, circuit, c_in, c_load);
 }
 
-StageCircuit plain(double gm, double rd, double c_out) {
-  StageCircuit c;
-  c.kind = LoadKind::plain;
-  c.gm = gm;
-  c.rd = rd;
-  c.c_out = c_out;
-  return c;
-}
+StageCircuit plain(double gm, double rd, double c_out) { return test::plain_circuit(gm, rd, c_out); }
 
 Chain one_stage(StageCircuit circuit, double c_load) {
   Chain chain;

@@ -6,6 +6,8 @@
 #include <numbers>
 
 #include "models/analysis.hpp"
+#include "models/chain.hpp"
+#include <string>
 #include "models/load_kinds.hpp"
 #include "models/peaking_design.hpp"
 
@@ -38,6 +40,26 @@ inline StageCircuit tcoil_stage(double zeta, double rd = 100.0, double c = 100e-
   s.l1 = s.l2 = d.l_half;
   s.k = d.k;
   s.cb = d.cb;
+  return s;
+}
+
+// A plain gm stage's circuit with its own drain capacitance; the node load is filled later.
+inline StageCircuit plain_circuit(double gm, double rd, double c_out) {
+  StageCircuit c;
+  c.kind = LoadKind::plain;
+  c.gm = gm;
+  c.rd = rd;
+  c.c_out = c_out;
+  return c;
+}
+
+inline ChainStage make_stage(std::string id, int driver, StageCircuit circuit, double c_in, double c_load = 0.0) {
+  ChainStage s;
+  s.id = std::move(id);
+  s.driver = driver;
+  s.circuit = circuit;
+  s.c_in = c_in;
+  s.c_load = c_load;
   return s;
 }
 
