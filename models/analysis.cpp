@@ -93,6 +93,13 @@ ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) 
                                 chain.stages[static_cast<size_t>(chain.input_stage())].c_in);
     source_system.set_output(in);
   }
+  for (size_t i = 0; i < chain.stages.size(); ++i) {
+    Cascade cascade;
+    if (driven_through_source) cascade.append(source_system.rational());
+    for (int s : chain.path_to(static_cast<int>(i))) cascade.append(rationals[static_cast<size_t>(s)]);
+    result.stages[i].cumulative.frequency = frequency_metrics(cascade, options.ripple_band_hz);
+  }
+
   for (int out : chain.outputs()) {
     Cascade cascade;
     std::vector<const NodalSystem*> exact;

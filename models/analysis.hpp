@@ -51,9 +51,16 @@ struct DesignCheck {
   double input_impedance_error = 0.0;     // max |Z_in/Rd - 1| of the load, DC .. 3x bandwidth
 };
 
+// The chain from its input (source network included) to one stage's output node: what a
+// budget table calls the cumulative gain, bandwidth and group delay at that node.
+struct NodeMetrics {
+  FrequencyMetrics frequency;
+};
+
 struct StageSummary {
   int stage = 0;
   ResponseSummary alone;
+  NodeMetrics cumulative;
   std::optional<DesignCheck> design_check;
 };
 

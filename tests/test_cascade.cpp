@@ -58,3 +58,28 @@ TEST_CASE("cascade: the step response of two defective T-coil poles is exact") {
     CHECK(step.y[k] == doctest::Approx(expected).epsilon(1e-9));
   }
 }
+
+TEST_CASE("cascade: cumulative metrics at each node follow the n-stage closed form") {
+  // Three identical plain stages, each loaded only by the next one's c_in (100 fF on every
+  // node: 10 fF c_out + 90 fF c_in; the last carries 90 fF c_load). At node n the cascade is
+  // n identical poles, so the bandwidth is f1*sqrt(2^(1/n) - 1) (derived, as above) and the
+  // gain (gm*Rd)^n.
+  Chain chain;
+  for (int i = 0; i < 3; ++i)
+    chain.stages.push_back(make_stage("s" + std::to_string(i + 1), i - 1, plain_circuit(0.02, 100.0, 10e-15),
+                                      90e-15, i == 2 ? 90e-15 : 0.0));
+  fill_node_capacitances(chain);
+  AnalysisOptions options;
+  options.keep_waveforms = false;
+  const auto analysis = analyze_chain(chain, options);
+  for (int n = 1; n <= 3; ++n) {
+    CAPTURE(n);
+    const auto& node = analysis.stages[static_cast<size_t>(n - 1)].cumulative.frequency;
+    CHECK(node.bandwidth_hz / plain_bandwidth() == doctest::Approx(std::sqrt(std::pow(2.0, 1.0 / n) - 1.0)).epsilon(1e-9));
+    CHECK(std::abs(node.dc_gain) == doctest::Approx(std::pow(2.0, n)).epsilon(1e-12));
+    CHECK(node.group_delay_s == doctest::Approx(n * 10e-12).epsilon(1e-9));  // n RC (derived)
+  }
+  // The last node's cumulative metrics are the main output's.
+  CHECK(analysis.stages.back().cumulative.frequency.bandwidth_hz ==
+        doctest::Approx(analysis.outputs.back().response.frequency.bandwidth_hz).epsilon(1e-12));
+}

@@ -1,0 +1,46 @@
+// peakplan analyze CHAIN.toml [--json] [--points N]
+#include <iostream>
+#include <memory>
+
+#include "planner/commands/command.hpp"
+#include "planner/chain_graph.hpp"
+#include "reports/json_report.hpp"
+#include "reports/text_report.hpp"
+
+namespace peakplan::cli {
+namespace {
+
+struct AnalyzeArgs {
+  std::string chain;
+  bool json = false;
+  int points = 201;
+};
+
+int run_analyze(const AnalyzeArgs& args) {
+  Diagnostics diagnostics(args.chain);
+  const auto spec = load_chain_spec(args.chain, diagnostics);
+  const auto chain = spec ? resolve_chain(*spec, diagnostics) : std::nullopt;
+  if (!chain) {
+    std::cerr << diagnostics.format();
+    return bad_input;
+  }
+  const auto options = analysis_options(*spec, args.points);
+  const auto analysis = analyze_chain(*chain, options);
+  print(args.json ? analysis_json(*chain, analysis, {true, options.signal}).dump(2) + "\n"
+                  : analysis_text(*chain, analysis));
+  return ok;
+}
+
+}  // namespace
+
+Command add_analyze_command(CLI::App& app) {
+  auto args = std::make_shared<AnalyzeArgs>();
+  auto* cmd = app.add_subcommand("analyze", "response, metrics and per-stage figures of a chain as written");
+  cmd->add_option("chain", args->chain, "chain file (TOML)")->required();
+  cmd->add_flag("--json", args->json, "print one JSON document on stdout");
+  cmd->add_option("--points", args->points, "frequency points of the reported response")
+      ->check(CLI::Range(2, 100000));
+  return {cmd, [args] { return run_analyze(*args); }};
+}
+
+}  // namespace peakplan::cli

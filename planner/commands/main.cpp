@@ -1,0 +1,35 @@
+// The peakplan command line: the only code that touches argv, stdout, stderr and exit codes.
+// Each subcommand lives in its own planner/commands/command_<name>.cpp and registers itself here.
+#include <exception>
+#include <iostream>
+#include <vector>
+
+#include "planner/commands/command.hpp"
+
+int main(int argc, char** argv) {
+  using namespace peakplan::cli;
+  CLI::App app{"peakplan: plan the gain, bandwidth and peaking of a broadband amplifier chain"};
+  app.set_version_flag("--version", std::string("peakplan ") + PEAKPLAN_VERSION);
+  app.require_subcommand(1);
+
+  const std::vector<Command> commands{
+      add_analyze_command(app),
+      add_plan_command(app),
+      add_netlist_command(app),
+  };
+
+  try {
+    app.parse(argc, argv);
+  } catch (const CLI::ParseError& e) {
+    const int code = app.exit(e);
+    return code == 0 ? ok : bad_input;
+  }
+  try {
+    for (const auto& command : commands)
+      if (*command.app) return command.run();
+  } catch (const std::exception& e) {
+    std::cerr << "peakplan: internal error: " << e.what() << "\n";
+    return internal_error;
+  }
+  return internal_error;
+}
