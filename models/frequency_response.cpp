@@ -9,7 +9,6 @@ namespace peakplan {
 namespace {
 
 constexpr double kTwoPi = 2.0 * std::numbers::pi;
-constexpr int kScanPerDecade = 60;
 
 std::complex<double> at(double f_hz) { return {0.0, kTwoPi * f_hz}; }
 
@@ -114,48 +113,90 @@ double group_delay(const Cascade& cascade, double f_hz) {
   return cascade.at_frequency(kTwoPi * f_hz).group_delay;
 }
 
-FrequencyMetrics frequency_metrics(const Cascade& cascade, double ripple_band_hz) {
+namespace {
+
+// Scan abscissae (log frequency about f_lo): a uniform grid plus the natural frequency of every
+// pole and zero inside the span. A lightly damped zero pair makes a notch, and a lightly damped
+// pole pair a peak, narrower than any grid step could promise to catch; sampling at each root's
+// |s| puts a scan point where the notch or peak is, so the first -3 dB crossing and the peak are
+// never missed between grid points.
+std::vector<double> scan_points(const Cascade& cascade, double f_lo, double u_end, int points) {
+  std::vector<double> us(static_cast<size_t>(points));
+  for (int i = 0; i < points; ++i) us[static_cast<size_t>(i)] = u_end * i / (points - 1);
+  auto include = [&](const std::vector<std::complex<double>>& roots) {
+    for (const auto& r : roots) {
+      const double f = std::abs(r) / kTwoPi;
+      if (!(f > f_lo)) continue;
+      const double u = std::log(f / f_lo);
+      if (u < u_end) us.push_back(u);
+    }
+  };
+  include(cascade.poles());
+  include(cascade.zeros());
+  std::sort(us.begin(), us.end());
+  us.erase(std::unique(us.begin(), us.end()), us.end());
+  return us;
+}
+
+}  // namespace
+
+FrequencyMetrics frequency_metrics(const Cascade& cascade, double ripple_band_hz, const ScanResolution& scan) {
   FrequencyMetrics m;
   m.dc_gain = cascade.dc_value();
   m.group_delay_s = -cascade.log_derivative({0.0, 0.0}).real();
   const double h0 = std::fabs(m.dc_gain);
   if (h0 == 0.0 || !std::isfinite(h0)) return m;
 
-  const auto [f_lo, f_hi] = natural_span(cascade);
-  const int points = std::max(2, static_cast<int>(std::log10(f_hi / f_lo) * kScanPerDecade));
-  const double step = std::log(f_hi / f_lo) / (points - 1);
+  const auto [f_lo, f_hi] = natural_span(cascade, scan.margin_decades);
+  const int points = std::max(2, static_cast<int>(std::log10(f_hi / f_lo) * scan.per_decade));
   auto freq = [&](double u) { return f_lo * std::exp(u); };
-  auto mag = [&](double u) { return std::abs(cascade.at_frequency(kTwoPi * freq(u)).h); };
+  auto mag = [&](double u) { return cascade.gain_at(kTwoPi * freq(u)); };
+  const auto us = scan_points(cascade, f_lo, std::log(f_hi / f_lo), points);
+  const size_t n_scan = us.size();
 
-  // Bandwidth: the first scan point below h0/sqrt(2), then bisection on log frequency.
+  // Bandwidth: the first fall below h0/sqrt(2), bracketed by the scan, then bisection.
   const double level = h0 / std::sqrt(2.0);
-  double peak_u = 0.0, peak_mag = h0;
-  int peak_index = -1;
-  std::vector<double> mags(static_cast<size_t>(points));
-  for (int i = 0; i < points; ++i) {
-    mags[static_cast<size_t>(i)] = mag(step * i);
-    if (mags[static_cast<size_t>(i)] > peak_mag) {
-      peak_mag = mags[static_cast<size_t>(i)];
+  double peak_mag = h0;
+  size_t peak_index = n_scan;
+  std::vector<double> mags(n_scan);
+  for (size_t i = 0; i < n_scan; ++i) {
+    mags[i] = mag(us[i]);
+    if (mags[i] > peak_mag) {
+      peak_mag = mags[i];
       peak_index = i;
     }
   }
-  for (int i = 0; i < points; ++i) {
-    if (mags[static_cast<size_t>(i)] >= level) continue;
-    if (i == 0) break;  // already below at the bottom of the span: not expected for dc-coupled
-    double a = step * (i - 1), b = step * i;
+  // A shallow dip can touch the level between two scan points: every local minimum of the scan
+  // within 0.5 dB of the level is refined, and the crossing taken in the first that reaches it.
+  size_t crossing = n_scan;
+  double a = 0.0, b = 0.0;  // the bracket of the crossing
+  for (size_t i = 0; i < n_scan && crossing == n_scan; ++i) {
+    if (mags[i] < level) {
+      if (i == 0) break;  // already below at the bottom of the span: not expected for dc-coupled
+      crossing = i;
+      a = us[i - 1];
+      b = us[i];
+    } else if (i > 0 && i + 1 < n_scan && mags[i] <= mags[i - 1] && mags[i] <= mags[i + 1] &&
+               mags[i] < level * 1.06) {
+      const auto [u_min, neg] = golden_max([&](double u) { return -mag(u); }, us[i - 1], us[i + 1]);
+      if (-neg < level) {
+        crossing = i;
+        a = us[i - 1];
+        b = u_min;
+      }
+    }
+  }
+  if (crossing < n_scan) {
     for (int it = 0; it < 100 && b - a > 1e-14; ++it) {
       const double mid = 0.5 * (a + b);
       (mag(mid) >= level ? a : b) = mid;
     }
     m.bandwidth_hz = freq(0.5 * (a + b));
-    break;
   }
 
-  if (peak_index >= 0 && peak_mag > h0 * (1.0 + 1e-12)) {
-    const double a = step * std::max(0, peak_index - 1);
-    const double b = step * std::min(points - 1, peak_index + 1);
-    const auto [u, g] = golden_max(mag, a, b);
-    peak_u = u;
+  if (peak_index < n_scan && peak_mag > h0 * (1.0 + 1e-12)) {
+    const auto [u, g] = golden_max(mag, us[peak_index == 0 ? 0 : peak_index - 1], us[std::min(n_scan - 1, peak_index + 1)]);
+    const double peak_u = g > peak_mag ? u : us[peak_index];
     peak_mag = std::max(g, peak_mag);
     m.peaking_db = 20.0 * std::log10(peak_mag / h0);
     m.peak_frequency_hz = freq(peak_u);
@@ -167,19 +208,19 @@ FrequencyMetrics frequency_metrics(const Cascade& cascade, double ripple_band_hz
     m.ripple_band_hz = band;
     auto tau = [&](double u) { return group_delay(cascade, freq(u)); };
     const double u_end = std::log(band / f_lo);
-    const int n = std::max(3, static_cast<int>(u_end / step) + 2);
-    const double du = u_end / (n - 1);
-    std::vector<double> taus(static_cast<size_t>(n));
-    for (int i = 0; i < n; ++i) taus[static_cast<size_t>(i)] = tau(du * i);
+    const double step = std::log(f_hi / f_lo) / (points - 1);
+    const auto ts = scan_points(cascade, f_lo, u_end, std::max(3, static_cast<int>(u_end / step) + 2));
+    const size_t n = ts.size();
+    std::vector<double> taus(n);
+    for (size_t i = 0; i < n; ++i) taus[i] = tau(ts[i]);
     double hi = std::max({m.group_delay_s, taus.front(), taus.back()});
     double lo = std::min({m.group_delay_s, taus.front(), taus.back()});
-    for (int i = 1; i + 1 < n; ++i) {
-      const double t = taus[static_cast<size_t>(i)];
-      const double left = taus[static_cast<size_t>(i - 1)], right = taus[static_cast<size_t>(i + 1)];
-      if (t >= left && t >= right)
-        hi = std::max(hi, golden_max(tau, du * (i - 1), du * (i + 1)).second);
+    for (size_t i = 1; i + 1 < n; ++i) {
+      const double t = taus[i];
+      const double left = taus[i - 1], right = taus[i + 1];
+      if (t >= left && t >= right) hi = std::max({hi, t, golden_max(tau, ts[i - 1], ts[i + 1]).second});
       if (t <= left && t <= right)
-        lo = std::min(lo, -golden_max([&](double u) { return -tau(u); }, du * (i - 1), du * (i + 1)).second);
+        lo = std::min({lo, t, -golden_max([&](double u) { return -tau(u); }, ts[i - 1], ts[i + 1]).second});
     }
     m.group_delay_ripple_s = hi - lo;
   }

@@ -51,8 +51,17 @@ struct FrequencyMetrics {
 // Frequencies (Hz) that bracket every pole and zero of the cascade by `margin` decades.
 std::pair<double, double> natural_span(const Cascade& cascade, double margin_decades = 3.0);
 
+// How densely the metrics scan the response before refining: the span reaches margin_decades
+// beyond the outermost pole or zero, at per_decade points per decade. The default is what every
+// reported figure uses; a planner's search may scan more coarsely and re-measure at the end.
+struct ScanResolution {
+  double margin_decades = 3.0;
+  int per_decade = 60;
+};
+
 // ripple_band_hz: upper end of the group-delay ripple band; NaN means up to the bandwidth.
-FrequencyMetrics frequency_metrics(const Cascade& cascade, double ripple_band_hz = not_found);
+FrequencyMetrics frequency_metrics(const Cascade& cascade, double ripple_band_hz = not_found,
+                                   const ScanResolution& scan = {});
 
 double group_delay(const Cascade& cascade, double f_hz);
 

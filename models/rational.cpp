@@ -56,6 +56,11 @@ Rational::FrequencyPoint Rational::at_frequency(double omega) const {
   return {n / d, -(dn / n - dd / d).real() * time_scale_};
 }
 
+double Rational::gain_squared_at(double omega) const {
+  const double y = omega * time_scale_;
+  return std::norm(at_imaginary(num_, y)) / std::norm(at_imaginary(den_, y));
+}
+
 Rational::Rational(std::vector<double> num, std::vector<double> den, double time_scale)
     : num_(std::move(num)), den_(std::move(den)), time_scale_(time_scale) {
   while (num_.size() > 1 && num_.back() == 0.0) num_.pop_back();
@@ -159,6 +164,12 @@ Rational::FrequencyPoint Cascade::at_frequency(double omega) const {
     total.group_delay += p.group_delay;
   }
   return total;
+}
+
+double Cascade::gain_at(double omega) const {
+  double g2 = 1.0;
+  for (const auto& b : blocks_) g2 *= b.gain_squared_at(omega);
+  return std::sqrt(g2);
 }
 
 double Cascade::dc_value() const {

@@ -26,6 +26,8 @@ class Rational {
     double group_delay;
   };
   FrequencyPoint at_frequency(double omega) const;
+  // |H(j omega)|^2, real arithmetic only (what magnitude scans need).
+  double gain_squared_at(double omega) const;
 
   std::vector<std::complex<double>> poles() const;
   std::vector<std::complex<double>> zeros() const;
@@ -61,6 +63,7 @@ class Cascade {
   std::complex<double> log_derivative(std::complex<double> s) const;
   double dc_value() const;
   Rational::FrequencyPoint at_frequency(double omega) const;
+  double gain_at(double omega) const;  // |H(j omega)|
   std::vector<std::complex<double>> poles() const;
   std::vector<std::complex<double>> zeros() const;
   const std::vector<Rational>& blocks() const { return blocks_; }

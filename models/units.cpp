@@ -32,6 +32,7 @@ constexpr std::array kSpellings{
     UnitSpelling{"V/rtHz", Dimension::noise_density, true},
     UnitSpelling{"V/sqrtHz", Dimension::noise_density, true},
     UnitSpelling{"V", Dimension::voltage, true},
+    UnitSpelling{"A", Dimension::current, true},  // after "A/V", which it would otherwise shadow
     UnitSpelling{"K", Dimension::temperature, false},
     UnitSpelling{"dB", Dimension::decibels, false},
     UnitSpelling{"%", Dimension::fraction, false},
@@ -84,6 +85,7 @@ std::string_view unit_symbol(Dimension d) {
     case Dimension::time: return "s";
     case Dimension::bit_rate: return "b/s";
     case Dimension::voltage: return "V";
+    case Dimension::current: return "A";
     case Dimension::temperature: return "K";
     case Dimension::noise_density: return "V/rtHz";
     case Dimension::decibels: return "dB";
@@ -103,6 +105,7 @@ std::string describe(Dimension d) {
     case Dimension::time: return "a time (s, e.g. \"3 ps\")";
     case Dimension::bit_rate: return "a bit rate (b/s, e.g. \"56 Gb/s\")";
     case Dimension::voltage: return "a voltage (V, e.g. \"400 mV\")";
+    case Dimension::current: return "a current (A, e.g. \"20 mA\")";
     case Dimension::temperature: return "a temperature (K, e.g. 300)";
     case Dimension::noise_density: return "a noise density (V/rtHz, e.g. \"10 nV/rtHz\")";
     case Dimension::decibels: return "a level in dB (e.g. \"30 dB\")";

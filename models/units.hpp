@@ -1,6 +1,6 @@
 // Physical quantities as written in a chain file, and engineering notation for display.
 //
-// Inside peakplan every value is a double in SI base units (F, H, ohm, S, Hz, s, b/s, K, V).
+// Inside peakplan every value is a double in SI base units (F, H, ohm, S, Hz, s, b/s, K, V, A).
 // Units matter only at the edges: parsing what a user wrote and formatting what a user reads.
 #pragma once
 
@@ -19,6 +19,7 @@ enum class Dimension {
   time,           // s
   bit_rate,       // b/s
   voltage,        // V
+  current,        // A
   temperature,    // K
   noise_density,  // V/rtHz
   decibels,       // dB: "30 dB" or a plain number taken as dB

@@ -261,7 +261,7 @@ void read_technology(Reader& reader, const toml::table& root, ChainSpec& spec) {
   positive("max_inductance", Dimension::inductance, tech.max_inductance);
   positive("max_gm", Dimension::conductance, tech.max_gm);
   positive("gm_over_id", Dimension::dimensionless, tech.gm_over_id);
-  positive("current_budget", Dimension::dimensionless, tech.current_budget);
+  positive("current_budget", Dimension::current, tech.current_budget);
   if (const auto* n = t->get("min_cb")) tech.min_cb = reader.bounded(*n, Dimension::capacitance, "[technology] min_cb", false);
   if (const auto* n = t->get("gamma")) {
     if (auto v = reader.bounded(*n, Dimension::dimensionless, "[technology] gamma", false)) tech.gamma = *v;

@@ -1,13 +1,22 @@
 // Choosing the values a chain file leaves open ("auto", ranges, candidate kinds, counts) so the
 // chain meets its [target] under its [limits], by the [target] objective.
 //
-// Method: every combination of the discrete choices (kind, count) is planned in turn; for each,
-// a deterministic multi-start of NLopt's COBYLA (constraints handled natively, no derivatives)
-// runs from closed-form seeds (maximally flat shunt peaking, the T-coil conditions, equal gain
-// per stage) and from fixed-seed random points. Every limit of the returned plan is checked on
-// the full chain response, never on an approximation.
+// Method (deterministic for a given file; NLopt's COBYLA, derivative-free, throughout):
+//  1. global stage: for every combination of the discrete choices (kind, count), a multi-start
+//     in the low-dimensional design space of plan_problem.hpp (stage gain, device size and
+//     taper, m and zeta), from the closed-form seed (equal gain per stage, maximally flat shunt
+//     peaking, the T-coil conditions) and from fixed-seed random points;
+//  2. local stage: the best combinations refined in the full space of every open value, and
+//     polished with small steps;
+//  3. the final plan measured like analyze measures it; should a limit the search only just
+//     met be missed there, a short repair run at full fidelity follows.
+// COBYLA handles the targets and limits as constraints; when they cannot all be met, its merit
+// function still reduces the violation, so an infeasible target yields its best try.
+// Every limit of the returned plan is checked on the full chain response, never on an
+// approximation.
 #pragma once
 
+#include <functional>
 #include <string>
 #include <vector>
 
@@ -18,16 +27,28 @@
 
 namespace peakplan {
 
+// Where a running plan is, for a progress display.
+struct PlanProgress {
+  int evaluations = 0;
+  double seconds = 0.0;
+  std::string stage;          // "design space", "full space", "repair"
+  bool feasible = false;      // the best so far meets every target and limit (as searched)
+  double objective = 0.0;     // of the best so far
+};
+
 struct PlanOptions {
-  int max_evaluations = 60000;  // over all starts and combinations
-  int starts = 6;               // per combination: the closed-form seed plus random points
+  int starts = 6;             // per combination in the design space: the seed plus random points
+  int refined = 2;            // combinations refined in the full space
   unsigned seed = 20261202;
+  // Called every `progress_every` evaluations and once at the end; may be empty.
+  std::function<void(const PlanProgress&)> progress;
+  int progress_every = 250;
 };
 
 // One target or limit of the plan, as checked on the final chain.
 struct PlanCheck {
-  std::string name;   // "gain", "bandwidth", "gain_bandwidth", "overshoot", "peaking", "group_delay_ripple"
-  std::string unit;   // "dB", "Hz", "%", "s"
+  std::string name;   // "gain", "bandwidth", "gain_bandwidth", "overshoot", "peaking", "group_delay_ripple", "current"
+  std::string unit;   // "dB", "Hz", "%", "s", "A"
   double value = 0.0; // achieved
   double limit = 0.0; // required (a minimum for targets, a maximum for limits)
   bool is_minimum = true;
@@ -63,7 +84,12 @@ std::optional<Plan> plan_chain(const ChainSpec& spec, Diagnostics& diagnostics, 
 // reproduces the plan exactly.
 std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan);
 
-// The checks of `spec`'s targets and limits against an analysed output.
-std::vector<PlanCheck> check_targets(const ChainSpec& spec, const FrequencyMetrics& f, const StepMetrics& t);
+// The checks of `spec`'s targets and limits against an analysed output. `total_gm` (every stage
+// copy of the chain) adds the supply-current check when [technology] gives gm_over_id and a
+// current_budget.
+std::vector<PlanCheck> check_targets(const ChainSpec& spec, const FrequencyMetrics& f, const StepMetrics& t,
+                                     std::optional<double> total_gm = std::nullopt);
+// Sum of gm over every stage of a chain (copies counted), S.
+double total_gm(const Chain& chain);
 
 }  // namespace peakplan

@@ -1,0 +1,285 @@
+#include "planner/plan_problem.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+#include <numbers>
+
+#include "models/peaking_design.hpp"
+#include "models/units.hpp"
+
+namespace peakplan {
+namespace {
+
+constexpr double kTwoPi = 2.0 * std::numbers::pi;
+
+// The default search bounds of a key when the file says "auto" and the technology is silent.
+std::pair<double, double> default_bounds(std::string_view key, const TechnologySpec& tech) {
+  const double l_max = tech.max_inductance.value_or(2e-9);
+  if (key == "gm") {
+    double gm_max = tech.max_gm.value_or(0.2);
+    // A current budget caps every single device too.
+    if (tech.current_budget && tech.gm_over_id) gm_max = std::min(gm_max, *tech.current_budget * *tech.gm_over_id);
+    return {std::min(1e-3, 0.5 * gm_max), gm_max};
+  }
+  if (key == "rd") return {10.0, 2000.0};
+  if (key == "l" || key == "l1" || key == "l2") return {1e-12, l_max};
+  if (key == "k") return {tech.k_min.value_or(0.0), tech.k_max.value_or(0.9)};
+  if (key == "cb") return {std::max(tech.min_cb.value_or(0.05e-15), 0.05e-15), 200e-15};
+  return {0.0, 1.0};
+}
+
+const std::vector<std::string_view>& plannable_keys(LoadKind kind) {
+  static const std::vector<std::string_view> plain{"gm", "rd"};
+  static const std::vector<std::string_view> peaked{"gm", "rd", "l"};
+  static const std::vector<std::string_view> tcoil{"gm", "rd", "l1", "l2", "k", "cb"};
+  return kind == LoadKind::tcoil ? tcoil : kind == LoadKind::plain ? plain : peaked;
+}
+
+bool needs_step(const ChainSpec& spec) {
+  return spec.limits.overshoot.has_value() || spec.target.objective == "flattest";
+}
+
+// The search's step response: about 50 samples per 1/bandwidth (a rise time spans about 17),
+// at most 500 of them. Overshoot peaks within a few rise times of the delay, so the short
+// record finds it; the final plan is measured on analyze's full record.
+TimeAxis search_time_axis(const Cascade& cascade, double bandwidth_hz) {
+  auto axis = choose_time_axis(cascade, bandwidth_hz);
+  constexpr int kMaxPoints = 500;
+  if (std::isfinite(bandwidth_hz) && bandwidth_hz > 0.0) {
+    const double dt = std::max(axis.dt, 1.0 / (50.0 * bandwidth_hz));
+    const double duration = axis.dt * (axis.points - 1);
+    axis.points = std::min(kMaxPoints, static_cast<int>(std::ceil(duration / dt)) + 1);
+    axis.dt = dt;
+  } else if (axis.points > kMaxPoints) {
+    axis.dt *= static_cast<double>(axis.points) / kMaxPoints;
+    axis.points = kMaxPoints;
+  }
+  return axis;
+}
+
+}  // namespace
+
+double Variable::to_value(double u) const { return log_scale ? std::exp(u) : u; }
+double Variable::to_unit(double v) const { return log_scale ? std::log(v) : v; }
+
+std::vector<Combination> combinations(const ChainSpec& spec) {
+  std::vector<Combination> all{{}};
+  for (const auto& s : spec.stages) {
+    std::vector<int> counts;
+    if (s.count.mode == Adjustable::Mode::fixed) {
+      counts = {static_cast<int>(s.count.value)};
+    } else {
+      const int lo = s.count.mode == Adjustable::Mode::range ? static_cast<int>(s.count.min) : 1;
+      const int hi = s.count.mode == Adjustable::Mode::range ? static_cast<int>(s.count.max) : 8;
+      for (int c = lo; c <= hi; ++c) counts.push_back(c);
+    }
+    std::vector<Combination> next;
+    for (const auto& partial : all)
+      for (auto kind : s.kinds)
+        for (int count : counts) {
+          auto c = partial;
+          c.kinds.push_back(kind);
+          c.counts.push_back(count);
+          next.push_back(std::move(c));
+        }
+    all = std::move(next);
+  }
+  return all;
+}
+
+Problem::Problem(const ChainSpec& spec, Combination combo, std::vector<GraphStage> graph)
+    : spec_(spec), combo_(std::move(combo)), graph_(std::move(graph)) {
+  for (size_t i = 0; i < spec.stages.size(); ++i) {
+    for (auto key : plannable_keys(combo_.kinds[i])) {
+      const auto* a = spec.stages[i].find(key);
+      const bool designed = (key == "l" && spec.stages[i].m) ||
+                            (key != "gm" && key != "rd" && combo_.kinds[i] == LoadKind::tcoil &&
+                             (spec.stages[i].zeta || !spec.stages[i].response.empty()));
+      if (designed) continue;
+      // A value the file leaves out entirely is free when the kind was left to the planner.
+      const bool free = (a && !a->is_fixed()) ||
+                        (!a && !spec.stages[i].kind_is_fixed() && key != "gm" && key != "rd");
+      if (!free) continue;
+      auto [lo, hi] = default_bounds(key, spec.technology);
+      if (a && a->mode == Adjustable::Mode::range) {
+        lo = a->min;
+        hi = a->max;
+      }
+      const bool log_scale = key != "k" && lo > 0.0;
+      variables_.push_back({i, std::string(key), lo, hi, log_scale});
+    }
+  }
+
+  // The design space: only the axes some open value hangs on.
+  auto any = [&](auto predicate) { return std::any_of(variables_.begin(), variables_.end(), predicate); };
+  auto add = [&](Axis axis, double lo, double hi) {
+    design_.push_back(axis);
+    design_lo_.push_back(lo);
+    design_hi_.push_back(hi);
+  };
+  if (any([](const Variable& v) { return v.key == "rd"; })) add(Axis::stage_gain, std::log(1.02), std::log(40.0));
+  size_t sized = 0;
+  double gm_lo = std::numeric_limits<double>::infinity(), gm_hi = 0.0;
+  for (const auto& v : variables_)
+    if (v.key == "gm") {
+      ++sized;
+      gm_lo = std::min(gm_lo, v.lo);
+      gm_hi = std::max(gm_hi, v.hi);
+    }
+  if (sized > 0) add(Axis::size, std::log(gm_lo), std::log(gm_hi));
+  if (sized > 1) add(Axis::taper, -2.5, 2.5);
+  auto peaked = [&](LoadKind kind) {
+    return any([&](const Variable& v) { return v.key == "l" && combo_.kinds[v.spec] == kind; });
+  };
+  if (peaked(LoadKind::shunt)) add(Axis::m_shunt, 0.05, 1.2);
+  if (peaked(LoadKind::series)) add(Axis::m_series, 0.05, 1.5);
+  if (any([&](const Variable& v) { return combo_.kinds[v.spec] == LoadKind::tcoil && v.key != "gm" && v.key != "rd"; }))
+    add(Axis::zeta, 0.52, 1.3);
+}
+
+int Problem::variable_index(size_t stage, std::string_view key) const {
+  for (size_t v = 0; v < variables_.size(); ++v)
+    if (variables_[v].spec == stage && variables_[v].key == key) return static_cast<int>(v);
+  return -1;
+}
+
+double Problem::value(const std::vector<double>& u, size_t stage, std::string_view key, double fallback) const {
+  if (const int v = variable_index(stage, key); v >= 0) return variables_[static_cast<size_t>(v)].to_value(u[static_cast<size_t>(v)]);
+  const auto* a = spec_.stages[stage].find(key);
+  return a && a->is_fixed() ? a->value : fallback;
+}
+
+Chain Problem::build(const std::vector<double>& u) const {
+  std::vector<StageCircuit> circuits(spec_.stages.size());
+  std::vector<double> c_in(spec_.stages.size()), c_load(spec_.stages.size());
+  for (size_t i = 0; i < spec_.stages.size(); ++i) {
+    auto& c = circuits[i];
+    c.kind = combo_.kinds[i];
+    c.gm = value(u, i, "gm", 0.0);
+    c.rd = value(u, i, "rd", 0.0);
+    const auto* gm = spec_.stages[i].find("gm");
+    if (gm && !gm->is_fixed()) {
+      // The device is being sized: its capacitances follow gm at the technology's fT.
+      c_in[i] = c.gm / (kTwoPi * spec_.technology.ft.value_or(1e12));
+      c.c_out = spec_.technology.c_out_ratio.value_or(0.0) * c_in[i];
+    } else {
+      c_in[i] = value(u, i, "c_in", 0.0);
+      c.c_out = value(u, i, "c_out", 0.0);
+    }
+    c_load[i] = value(u, i, "c_load", 0.0);
+    c.r_load = value(u, i, "r_load", std::numeric_limits<double>::infinity());
+    c.l = value(u, i, "l", 0.0);
+    c.r_l = value(u, i, "r_l", 0.0);
+    c.l1 = value(u, i, "l1", 0.0);
+    c.l2 = value(u, i, "l2", 0.0);
+    c.k = value(u, i, "k", 0.0);
+    c.cb = value(u, i, "cb", 0.0);
+    c.c_w = value(u, i, "c_w", 0.0);
+    const double r_l = value(u, i, "r_l", 0.0);
+    c.r_l1 = value(u, i, "r_l1", r_l);
+    c.r_l2 = value(u, i, "r_l2", r_l);
+  }
+  Chain chain = assemble_chain(spec_, graph_, circuits, c_in, c_load);
+  apply_designs(chain, spec_, graph_);
+  return chain;
+}
+
+Evaluation Problem::evaluate(const std::vector<double>& u, Fidelity fidelity) const {
+  const Chain chain = build(u);
+  Evaluation e;
+  const auto cascade = output_cascade(chain, chain.outputs().back());
+  const double band = spec_.limits.ripple_band.value_or(not_found);
+  // Two decades beyond the outermost roots at 30 points per decade: the scan includes every
+  // root's frequency, so a notch or a sharp peak is caught at any density; the low side must
+  // still reach far, because a barely peaking response has its faint maximum far below its roots.
+  e.f = fidelity == Fidelity::final ? frequency_metrics(cascade, band)
+                                    : frequency_metrics(cascade, band, ScanResolution{2.0, 30});
+  if (fidelity == Fidelity::final || needs_step(spec_)) {
+    const auto axis = fidelity == Fidelity::final ? choose_time_axis(cascade, e.f.bandwidth_hz)
+                                                  : search_time_axis(cascade, e.f.bandwidth_hz);
+    e.t = step_metrics(step_response(cascade, axis));
+  }
+  for (const auto& s : chain.stages) e.total_gm += s.circuit.gm;
+  return e;
+}
+
+std::vector<double> Problem::design_seed() const {
+  int free_copies = 0;
+  double fixed_db = 0.0;
+  for (size_t i = 0; i < spec_.stages.size(); ++i) {
+    if (variable_index(i, "rd") >= 0) {
+      free_copies += combo_.counts[i];
+    } else {
+      const auto* gm = spec_.stages[i].find("gm");
+      const auto* rd = spec_.stages[i].find("rd");
+      if (gm && gm->is_fixed() && rd && rd->is_fixed()) fixed_db += combo_.counts[i] * to_db(gm->value * rd->value);
+    }
+  }
+  const double wanted_db = spec_.target.gain_db ? *spec_.target.gain_db - fixed_db : 6.0 * free_copies;
+  const double stage_db = std::max(1.0, wanted_db / std::max(1, free_copies));
+  std::vector<double> z(design_.size());
+  for (size_t d = 0; d < design_.size(); ++d) {
+    switch (design_[d]) {
+      case Axis::stage_gain: z[d] = std::log(from_db(stage_db)); break;
+      case Axis::size: z[d] = 0.5 * (design_lo_[d] + design_hi_[d]); break;
+      case Axis::taper: z[d] = 0.0; break;
+      case Axis::m_shunt: z[d] = std::sqrt(2.0) - 1.0; break;  // maximally flat (Shekhar et al.)
+      case Axis::m_series: z[d] = 0.5; break;
+      case Axis::zeta: z[d] = 0.78; break;  // between Butterworth and Bessel
+    }
+    z[d] = std::clamp(z[d], design_lo_[d], design_hi_[d]);
+  }
+  return z;
+}
+
+std::vector<double> Problem::expand(const std::vector<double>& z) const {
+  double stage_gain = 2.0, log_size = std::log(0.02), taper = 0.0;
+  double m_shunt = std::sqrt(2.0) - 1.0, m_series = 0.5, zeta = 0.78;
+  for (size_t d = 0; d < design_.size(); ++d) {
+    switch (design_[d]) {
+      case Axis::stage_gain: stage_gain = std::exp(z[d]); break;
+      case Axis::size: log_size = z[d]; break;
+      case Axis::taper: taper = z[d]; break;
+      case Axis::m_shunt: m_shunt = z[d]; break;
+      case Axis::m_series: m_series = z[d]; break;
+      case Axis::zeta: zeta = z[d]; break;
+    }
+  }
+  std::vector<double> u(variables_.size());
+  auto set = [&](size_t v, double x) {
+    const auto& var = variables_[v];
+    if (std::isfinite(x) && (x > 0.0 || !var.log_scale)) u[v] = var.to_unit(std::clamp(x, var.lo, var.hi));
+  };
+  for (size_t v = 0; v < variables_.size(); ++v) {
+    const auto& var = variables_[v];
+    u[v] = var.log_scale ? 0.5 * (std::log(var.lo) + std::log(var.hi)) : 0.5 * (var.lo + var.hi);
+  }
+  // Device sizes along the chain: a geometric taper about the size, by file position.
+  std::vector<size_t> sized;
+  for (size_t v = 0; v < variables_.size(); ++v)
+    if (variables_[v].key == "gm") sized.push_back(v);
+  for (size_t n = 0; n < sized.size(); ++n) {
+    const double x = sized.size() > 1 ? static_cast<double>(n) / static_cast<double>(sized.size() - 1) - 0.5 : 0.0;
+    set(sized[n], std::exp(log_size + taper * x));
+  }
+  for (size_t v = 0; v < variables_.size(); ++v)
+    if (variables_[v].key == "rd") set(v, stage_gain / std::max(value(u, variables_[v].spec, "gm", 0.02), 1e-6));
+  // Peaking elements from the published designs, against each stage's actual load.
+  const Chain chain = build(u);
+  for (size_t v = 0; v < variables_.size(); ++v) {
+    const auto& var = variables_[v];
+    const auto stage = std::find_if(graph_.begin(), graph_.end(), [&](const GraphStage& g) { return g.spec == var.spec; });
+    const auto& c = chain.stages[static_cast<size_t>(stage - graph_.begin())].circuit;
+    if (var.key == "l") set(v, inductance_for_m(c.kind == LoadKind::series ? m_series : m_shunt, c.rd, c.c_out + c.c_node));
+    if (c.kind == LoadKind::tcoil && c.c_node > 0.0 && var.key != "gm" && var.key != "rd") {
+      const auto d = tcoil_for_zeta(zeta, c.rd, c.c_node);
+      if (var.key == "l1" || var.key == "l2") set(v, d.l_half);
+      if (var.key == "k") set(v, d.k);
+      if (var.key == "cb") set(v, d.cb);
+    }
+  }
+  return u;
+}
+
+}  // namespace peakplan

@@ -1,0 +1,85 @@
+// One planning problem: a chain file with its discrete choices (kinds, counts) made, the
+// continuous values it leaves open, and how a candidate is built and scored.
+//
+// A candidate lives in two coordinate systems. The full space has one coordinate per open
+// element value (gm, Rd, L, L1, L2, k, Cb), in log units for magnitudes. The design space has a
+// handful of coordinates a designer reasons in: one stage gain shared by every stage whose Rd is
+// open, a device size and a taper along the chain for every open gm, and one normalised peaking
+// parameter per load kind (m for shunt and series peaking, zeta for symmetric T-coils), each
+// mapped to element values against the stage's actual load. The search explores the design
+// space first and then refines every value in the full space.
+#pragma once
+
+#include <string>
+#include <vector>
+
+#include "models/chain.hpp"
+#include "models/frequency_response.hpp"
+#include "models/step_response.hpp"
+#include "planner/chain_file.hpp"
+#include "planner/chain_graph.hpp"
+
+namespace peakplan {
+
+// One open element value, searched in log space when it is a magnitude.
+struct Variable {
+  size_t spec = 0;
+  std::string key;
+  double lo = 0.0, hi = 0.0;
+  bool log_scale = false;
+  double to_value(double u) const;
+  double to_unit(double v) const;
+};
+
+struct Combination {
+  std::vector<LoadKind> kinds;  // per spec stage
+  std::vector<int> counts;      // per spec stage
+};
+
+// Every combination of the file's kind candidates and counts, in a fixed order.
+std::vector<Combination> combinations(const ChainSpec& spec);
+
+// How finely a candidate is measured. The search uses a coarser frequency scan and a shorter,
+// coarser step response; the final plan is always measured like `analyze` measures it.
+enum class Fidelity { search, final };
+
+struct Evaluation {
+  FrequencyMetrics f;
+  StepMetrics t;
+  double total_gm = 0.0;  // S, every stage copy counted
+};
+
+class Problem {
+ public:
+  Problem(const ChainSpec& spec, Combination combo, std::vector<GraphStage> graph);
+
+  const std::vector<Variable>& variables() const { return variables_; }
+  const Combination& combination() const { return combo_; }
+  const std::vector<GraphStage>& graph() const { return graph_; }
+
+  Chain build(const std::vector<double>& u) const;
+  Evaluation evaluate(const std::vector<double>& u, Fidelity fidelity) const;
+  // Every value from the published designs at an equal gain per stage (the design space's seed).
+  std::vector<double> seed() const { return expand(design_seed()); }
+
+  // The design space: its bounds, its seed and its map into the full space.
+  size_t design_dimensions() const { return design_.size(); }
+  const std::vector<double>& design_lower() const { return design_lo_; }
+  const std::vector<double>& design_upper() const { return design_hi_; }
+  std::vector<double> design_seed() const;
+  std::vector<double> expand(const std::vector<double>& z) const;
+
+ private:
+  enum class Axis { stage_gain, size, taper, m_shunt, m_series, zeta };
+  double value(const std::vector<double>& u, size_t stage, std::string_view key, double fallback) const;
+  int variable_index(size_t stage, std::string_view key) const;
+
+  const ChainSpec& spec_;
+  Combination combo_;
+  std::vector<GraphStage> graph_;
+  std::vector<Variable> variables_;
+  std::vector<Axis> design_;
+  std::vector<double> design_lo_, design_hi_;
+};
+
+}  // namespace peakplan
