@@ -113,7 +113,9 @@ ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) 
     }
     OutputSummary summary{out, summarise(cascade, exact, options), std::nullopt};
     if (options.signal) {
-      EyeSummary eye{estimate_eye(cascade, *options.signal), {}, std::nullopt};
+      EyeSummary eye{estimate_eye(cascade, *options.signal), {}, std::nullopt, std::nullopt};
+      if (options.keep_waveforms)
+        eye.traces = eye_traces(eye.estimate.pulse, eye.estimate.prbs, *options.signal);
       const ChainNoise noise(chain, out, options.noise);
       eye.noise = summarise_noise(noise);
       if (options.swing_given)

@@ -8,6 +8,7 @@
 
 #include "models/chain.hpp"
 #include "models/eye.hpp"
+#include "models/eye_traces.hpp"
 #include "models/noise.hpp"
 #include "models/frequency_response.hpp"
 #include "models/step_response.hpp"
@@ -29,6 +30,7 @@ struct EyeSummary {
   EyeEstimate estimate;
   NoiseSummary noise;
   std::optional<StatisticalEye> statistical;  // needs the input swing
+  std::optional<EyeTraces> traces;            // the overlay for drawing; with keep_waveforms
 };
 
 struct ResponseSummary {

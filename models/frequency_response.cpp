@@ -192,6 +192,20 @@ FrequencyMetrics frequency_metrics(const Cascade& cascade, double ripple_band_hz
       (mag(mid) >= level ? a : b) = mid;
     }
     m.bandwidth_hz = freq(0.5 * (a + b));
+    // Sags: interior minima of the scan before the crossing that the response rises out of
+    // (by more than 0.01 dB, so that numerical flatness is not one).
+    double rise_after = 0.0;
+    for (size_t i = crossing; i-- > 1;) {
+      rise_after = std::max(rise_after, mags[i + 1 < n_scan ? i + 1 : i]);
+      if (mags[i] <= mags[i - 1] && mags[i] <= mags[i + 1] && rise_after > mags[i] * 1.00115) {
+        const auto [u_min, neg] = golden_max([&](double u) { return -mag(u); }, us[i - 1], us[i + 1]);
+        const double dip_db = 20.0 * std::log10(std::max(-neg, 1e-300) / h0);
+        if (dip_db < m.sag_db) {
+          m.sag_db = dip_db;
+          m.sag_frequency_hz = freq(u_min);
+        }
+      }
+    }
   }
 
   if (peak_index < n_scan && peak_mag > h0 * (1.0 + 1e-12)) {

@@ -46,6 +46,11 @@ struct FrequencyMetrics {
   double group_delay_s = 0.0;      // at DC
   double group_delay_ripple_s = 0.0;
   double ripple_band_hz = 0.0;     // the band the ripple was taken over
+  // The deepest dip inside the band that the response climbs back out of before its -3 dB edge,
+  // in dB against DC (0 when the passband has none). A response can hover just above -3 dB and
+  // recover, which stretches the -3 dB bandwidth far past where its gain first sagged.
+  double sag_db = 0.0;
+  double sag_frequency_hz = 0.0;   // 0 when there is no sag
 };
 
 // Frequencies (Hz) that bracket every pole and zero of the cascade by `margin` decades.

@@ -8,6 +8,8 @@
 #include <sstream>
 #include <toml++/toml.h>
 
+#include "planner/overrides.hpp"
+
 namespace peakplan {
 namespace {
 
@@ -36,7 +38,8 @@ Dimension stage_key_dimension(std::string_view key) {
 }
 
 SourcePosition position(const toml::source_region& region) {
-  return {static_cast<int>(region.begin.line), static_cast<int>(region.begin.column)};
+  return source_position(static_cast<int>(region.begin.line), static_cast<int>(region.begin.column),
+                         region.path.get());
 }
 
 std::string quoted_list(const Keys& keys) {
@@ -513,8 +516,14 @@ const Adjustable* StageSpec::find(std::string_view key) const {
 const std::vector<std::string_view>& common_stage_keys() { return kStageKeys; }
 
 std::optional<ChainSpec> parse_chain_spec(std::string_view text, Diagnostics& diagnostics) {
+  return parse_chain_spec(text, {}, diagnostics);
+}
+
+std::optional<ChainSpec> parse_chain_spec(std::string_view text, const std::vector<Override>& overrides,
+                                          Diagnostics& diagnostics) {
   try {
-    const toml::table root = toml::parse(text, diagnostics.file());
+    toml::table root = toml::parse(text, diagnostics.file());
+    apply_overrides(root, overrides, diagnostics);
     return read_document(root, diagnostics);
   } catch (const toml::parse_error& e) {
     diagnostics.error(position(e.source()), "TOML syntax: " + std::string(e.description()));

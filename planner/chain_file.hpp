@@ -87,6 +87,11 @@ struct ChainSpec {
 // the user gave it). Returns nullopt when there were errors; they are in `diagnostics`.
 std::optional<ChainSpec> load_chain_spec(const std::string& path, Diagnostics& diagnostics);
 std::optional<ChainSpec> parse_chain_spec(std::string_view text, Diagnostics& diagnostics);
+// The same with command-line overrides (planner/overrides.hpp) applied to the parsed TOML
+// before it is read, so every check applies to the overridden values.
+struct Override;
+std::optional<ChainSpec> parse_chain_spec(std::string_view text, const std::vector<Override>& overrides,
+                                          Diagnostics& diagnostics);
 
 // The keys every [[stage]] accepts, whatever its kind.
 const std::vector<std::string_view>& common_stage_keys();

@@ -5,7 +5,23 @@
 
 namespace peakplan {
 
+namespace {
+// No file path starts with a control character, so this prefix cannot be mistaken for one.
+constexpr std::string_view kCommandLineMark = "\x1f";
+}  // namespace
+
+std::string command_line_path(std::string_view origin) {
+  return std::string(kCommandLineMark) + std::string(origin);
+}
+
+SourcePosition source_position(int line, int column, const std::string* path) {
+  if (path && path->starts_with(kCommandLineMark))
+    return {line, column, path->substr(kCommandLineMark.size())};
+  return {line, column};
+}
+
 std::string Diagnostic::format() const {
+  if (!where.origin.empty()) return where.origin + ": error: " + message;
   std::string out = file;
   if (where.line > 0) out += ":" + std::to_string(where.line) + ":" + std::to_string(where.column);
   return out + ": error: " + message;

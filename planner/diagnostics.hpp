@@ -11,7 +11,16 @@ namespace peakplan {
 struct SourcePosition {
   int line = 0;    // 1-based; 0 = no position (the whole file)
   int column = 0;  // 1-based
+  // Set when the value came from the command line rather than the file: the option text that
+  // supplied it ("--set a1.rd=80x"). Diagnostics then name it instead of the file and line.
+  std::string origin = {};
 };
+
+// TOML++ keeps a source path per parsed node. Text parsed from a command-line option is given
+// the path command_line_path(origin), so that a position taken from the node can tell it from
+// the file; source_position builds the SourcePosition either way.
+std::string command_line_path(std::string_view origin);
+SourcePosition source_position(int line, int column, const std::string* path);
 
 struct Diagnostic {
   std::string file;

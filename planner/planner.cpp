@@ -361,6 +361,13 @@ std::optional<Plan> plan_chain(const ChainSpec& spec, Diagnostics& diagnostics, 
   plan.message = plan.checks.empty() ? "no targets or limits to meet"
                  : met               ? "every target and limit is met, " + plan.binding + " binds"
                                      : "the best plan found misses " + plan.binding;
+  // A -3 dB edge far beyond a deep in-band sag meets the letter of a bandwidth target, not its
+  // intent; say so rather than let the figure stand alone.
+  if (final_eval.f.sag_db < -1.0)
+    plan.message += fmt::format("; note: the passband sags to {:.2f} dB at {} before its -3 dB edge at {} "
+                                "(a group_delay_ripple or peaking limit excludes such shapes)",
+                                final_eval.f.sag_db, format_si(final_eval.f.sag_frequency_hz, "Hz"),
+                                format_si(final_eval.f.bandwidth_hz, "Hz"));
   plan.evaluations = search.evaluations() + 1;
   plan.seconds = search.seconds();
   search.report();

@@ -26,6 +26,8 @@ void put_metrics(nlohmann::json& j, const ResponseSummary& r) {
   j["group_delay_s"] = number(f.group_delay_s);
   j["group_delay_ripple_s"] = number(f.group_delay_ripple_s);
   j["ripple_band_hz"] = number(f.ripple_band_hz);
+  j["sag_db"] = number(f.sag_db);
+  j["sag_frequency_hz"] = f.sag_db < 0.0 ? number(f.sag_frequency_hz) : nlohmann::json(nullptr);
   j["overshoot_pct"] = number(r.step.overshoot_pct);
   j["rise_time_s"] = number(r.step.rise_time_s);
   j["settling_time_s"] = number(r.step.settling_time_s);

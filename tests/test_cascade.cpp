@@ -83,3 +83,20 @@ TEST_CASE("cascade: cumulative metrics at each node follow the n-stage closed fo
   CHECK(analysis.stages.back().cumulative.frequency.bandwidth_hz ==
         doctest::Approx(analysis.outputs.back().response.frequency.bandwidth_hz).epsilon(1e-12));
 }
+
+TEST_CASE("cascade: a sag inside the band is measured at its depth and the -3 dB edge beyond it") {
+  // H = (s^2 + 2 zz s + 1) / ((s^2 + 2 zp s + 1)(1 + s/100)), time in ps. The biquad ratio
+  // ((1-w^2)^2 + 4 zz^2 w^2) / ((1-w^2)^2 + 4 zp^2 w^2) is smallest at w = 1, where it is
+  // (zz/zp)^2 (derived); the far pole adds -10 log10(1 + 1e-4) dB there.
+  const double zz = 0.2, zp = 0.25;
+  const std::vector<double> num{1.0, 2.0 * zz, 1.0};
+  const std::vector<double> den{1.0, 2.0 * zp + 0.01, 1.0 + 2.0 * zp * 0.01, 0.01};
+  const Cascade c({Rational(num, den, 1e-12)});
+  const auto f = frequency_metrics(c);
+  const double expected = 20.0 * std::log10(zz / zp) - 10.0 * std::log10(1.0 + 1e-4);
+  CHECK(f.sag_db == doctest::Approx(expected).epsilon(1e-5));
+  CHECK(f.sag_frequency_hz == doctest::Approx(1e12 / (2.0 * pi)).epsilon(0.01));
+  CHECK(f.bandwidth_hz > 50.0 * f.sag_frequency_hz);  // the edge is set by the far pole
+  // A single pole has no sag.
+  CHECK(frequency_metrics(alone(plain_stage())).sag_db == 0.0);
+}

@@ -29,5 +29,8 @@ bool same_file(const std::string& output, const std::string& input);
 Command add_analyze_command(CLI::App& app);
 Command add_plan_command(CLI::App& app);
 Command add_netlist_command(CLI::App& app);
+Command add_compare_command(CLI::App& app);
+Command add_sweep_command(CLI::App& app);
+Command add_report_command(CLI::App& app);
 
 }  // namespace peakplan::cli

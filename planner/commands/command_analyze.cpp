@@ -1,9 +1,10 @@
-// peakplan analyze CHAIN.toml [--json] [--points N]
+// peakplan analyze CHAIN.toml [--json] [--points N] [--set ID.KEY=VALUE ...]
 #include <iostream>
 #include <memory>
 
 #include "planner/commands/command.hpp"
 #include "planner/chain_graph.hpp"
+#include "planner/what_if.hpp"
 #include "reports/json_report.hpp"
 #include "reports/text_report.hpp"
 
@@ -14,11 +15,13 @@ struct AnalyzeArgs {
   std::string chain;
   bool json = false;
   int points = 201;
+  WhatIf what_if;
 };
 
 int run_analyze(const AnalyzeArgs& args) {
   Diagnostics diagnostics(args.chain);
-  const auto spec = load_chain_spec(args.chain, diagnostics);
+  const auto what_if = load_what_if(args.chain, args.what_if, diagnostics);
+  const auto* spec = what_if ? &what_if->spec : nullptr;
   const auto chain = spec ? resolve_chain(*spec, diagnostics) : std::nullopt;
   if (!chain) {
     std::cerr << diagnostics.format();
@@ -40,6 +43,8 @@ Command add_analyze_command(CLI::App& app) {
   cmd->add_flag("--json", args->json, "print one JSON document on stdout");
   cmd->add_option("--points", args->points, "frequency points of the reported response")
       ->check(CLI::Range(2, 100000));
+  cmd->add_option("--set", args->what_if.sets, "override ID.KEY=VALUE without editing the file (repeatable)")
+      ->allow_extra_args(false);
   return {cmd, [args] { return run_analyze(*args); }};
 }
 

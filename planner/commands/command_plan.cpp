@@ -1,10 +1,11 @@
-// peakplan plan CHAIN.toml [--json] [--write OUT.toml]
+// peakplan plan CHAIN.toml [--json] [--write OUT.toml] [--set ID.KEY=VALUE ...] [--lock ID,...]
 #include <iostream>
 #include <memory>
 
 #include "planner/commands/command.hpp"
 #include "planner/chain_graph.hpp"
 #include "planner/planner.hpp"
+#include "planner/what_if.hpp"
 #include "reports/plan_report.hpp"
 
 namespace peakplan::cli {
@@ -14,6 +15,7 @@ struct PlanArgs {
   std::string chain;
   bool json = false;
   std::string write;
+  WhatIf what_if;
 };
 
 int run_plan(const PlanArgs& args) {
@@ -22,12 +24,15 @@ int run_plan(const PlanArgs& args) {
     std::cerr << args.write << ": error: --write would overwrite the chain file itself; choose another path\n";
     return bad_input;
   }
-  const auto spec = load_chain_spec(args.chain, diagnostics);
+  const auto what_if = load_what_if(args.chain, args.what_if, diagnostics);
+  const auto* spec = what_if ? &what_if->spec : nullptr;
   const auto plan = spec ? plan_chain(*spec, diagnostics) : std::nullopt;
   if (!plan) {
     std::cerr << diagnostics.format();
     return bad_input;
   }
+  if (what_if->baseline == Plan::Termination::not_met)
+    std::cerr << "peakplan: note: --lock holds values of a plan of the file as written that does not meet its target\n";
   const auto options = analysis_options(*spec);
   const auto analysis = analyze_chain(plan->chain, options);
   const std::string text = args.json ? plan_json(*spec, *plan, analysis).dump(2) + "\n"
@@ -52,6 +57,11 @@ Command add_plan_command(CLI::App& app) {
   cmd->add_option("chain", args->chain, "chain file (TOML)")->required();
   cmd->add_flag("--json", args->json, "print one JSON document on stdout");
   cmd->add_option("--write", args->write, "write the planned chain as a complete chain file");
+  cmd->add_option("--set", args->what_if.sets, "override ID.KEY=VALUE without editing the file (repeatable)")
+      ->allow_extra_args(false);
+  cmd->add_option("--lock", args->what_if.locks, "fix these stages at their current values (ID,...)")
+      ->delimiter(',')
+      ->allow_extra_args(false);
   return {cmd, [args] { return run_plan(*args); }};
 }
 

@@ -16,6 +16,9 @@ int main(int argc, char** argv) {
       add_analyze_command(app),
       add_plan_command(app),
       add_netlist_command(app),
+      add_compare_command(app),
+      add_sweep_command(app),
+      add_report_command(app),
   };
 
   try {

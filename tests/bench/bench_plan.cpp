@@ -1,6 +1,7 @@
 // How long a plan takes: six stages of mixed kinds with every value left to the planner.
 #include <benchmark/benchmark.h>
 
+#include "planner/plan_problem.hpp"
 #include "planner/planner.hpp"
 
 namespace {
@@ -77,6 +78,21 @@ void plan_six_stages(benchmark::State& state) {
                                                            benchmark::Counter::kIsRate);
 }
 BENCHMARK(plan_six_stages)->Unit(benchmark::kMillisecond)->Iterations(3);
+
+// One candidate of the same chain at its closed-form seed, measured as the search measures it
+// and as the final plan is measured.
+void evaluate_candidate(benchmark::State& state) {
+  peakplan::Diagnostics d("bench.toml");
+  const auto spec = peakplan::parse_chain_spec(kSixStageChain, d);
+  const auto combo = peakplan::combinations(*spec).front();
+  const auto graph = peakplan::build_stage_graph(*spec, d, &combo.counts);
+  const peakplan::Problem problem(*spec, combo, *graph);
+  const auto u = problem.seed();
+  const auto fidelity = state.range(0) ? peakplan::Fidelity::final : peakplan::Fidelity::search;
+  for (auto _ : state) benchmark::DoNotOptimize(problem.evaluate(u, fidelity));
+  state.SetLabel(state.range(0) ? "final" : "search");
+}
+BENCHMARK(evaluate_candidate)->Arg(0)->Arg(1)->Unit(benchmark::kMicrosecond);
 
 }  // namespace
 

@@ -1,0 +1,71 @@
+// peakplan compare A.toml B.toml [--json]
+#include <algorithm>
+#include <iostream>
+#include <memory>
+
+#include "planner/commands/command.hpp"
+#include "planner/chain_graph.hpp"
+#include "planner/planner.hpp"
+#include "planner/what_if.hpp"
+#include "reports/compare_report.hpp"
+
+namespace peakplan::cli {
+namespace {
+
+struct CompareArgs {
+  std::string a, b;
+  bool json = false;
+};
+
+// One side: the chain as written, or planned first when the file leaves values open.
+struct Loaded {
+  ChainSpec spec;
+  Chain chain;
+  std::optional<Plan::Termination> planned;
+  ChainAnalysis analysis;
+};
+
+std::optional<Loaded> load_side(const std::string& path, Diagnostics& diagnostics) {
+  auto spec = load_chain_spec(path, diagnostics);
+  if (!spec) return std::nullopt;
+  Loaded side{*spec, {}, std::nullopt, {}};
+  if (std::any_of(spec->stages.begin(), spec->stages.end(), has_open_values)) {
+    auto plan = plan_chain(*spec, diagnostics);
+    if (!plan) return std::nullopt;
+    side.planned = plan->termination;
+    side.chain = std::move(plan->chain);
+  } else {
+    auto chain = resolve_chain(*spec, diagnostics);
+    if (!chain) return std::nullopt;
+    side.chain = std::move(*chain);
+  }
+  side.analysis = analyze_chain(side.chain, analysis_options(side.spec));
+  return side;
+}
+
+int run_compare(const CompareArgs& args) {
+  Diagnostics diagnostics_a(args.a), diagnostics_b(args.b);
+  const auto a = load_side(args.a, diagnostics_a);
+  const auto b = load_side(args.b, diagnostics_b);
+  if (!a || !b) {
+    std::cerr << diagnostics_a.format() << diagnostics_b.format();
+    return bad_input;
+  }
+  const CompareSide side_a{args.a, a->chain, a->analysis, a->planned};
+  const CompareSide side_b{args.b, b->chain, b->analysis, b->planned};
+  print(args.json ? compare_json(side_a, side_b).dump(2) + "\n" : compare_text(side_a, side_b));
+  return ok;
+}
+
+}  // namespace
+
+Command add_compare_command(CLI::App& app) {
+  auto args = std::make_shared<CompareArgs>();
+  auto* cmd = app.add_subcommand("compare", "two chains' metrics and stage values side by side, with deltas B - A");
+  cmd->add_option("a", args->a, "chain file A (TOML); planned first if it leaves values open")->required();
+  cmd->add_option("b", args->b, "chain file B (TOML); planned first if it leaves values open")->required();
+  cmd->add_flag("--json", args->json, "print one JSON document on stdout");
+  return {cmd, [args] { return run_compare(*args); }};
+}
+
+}  // namespace peakplan::cli

@@ -1,0 +1,122 @@
+// peakplan report CHAIN.toml --out DIR [--plan]
+//
+// Everything is built in memory first; only then is DIR created (when missing) and each file
+// written whole (a temporary name in DIR, then a rename). Bad input writes nothing and leaves
+// DIR as it was; files in DIR that are not part of the report are never touched.
+#include <filesystem>
+#include <fstream>
+#include <iostream>
+#include <memory>
+#include <sstream>
+
+#include "planner/commands/command.hpp"
+#include "planner/chain_graph.hpp"
+#include "planner/planner.hpp"
+#include "reports/report_bundle.hpp"
+
+namespace peakplan::cli {
+namespace {
+
+namespace fs = std::filesystem;
+
+struct ReportArgs {
+  std::string chain;
+  std::string out;
+  bool plan = false;
+};
+
+std::optional<std::string> read_text(const std::string& path) {
+  std::ifstream in(path, std::ios::binary);
+  if (!in) return std::nullopt;
+  std::ostringstream text;
+  text << in.rdbuf();
+  return text.str();
+}
+
+int run_report(const ReportArgs& args) {
+  Diagnostics diagnostics(args.chain);
+  const auto spec = load_chain_spec(args.chain, diagnostics);
+  if (!spec) {
+    std::cerr << diagnostics.format();
+    return bad_input;
+  }
+  const auto text = read_text(args.chain);
+  if (!text) {
+    std::cerr << args.chain << ": error: cannot read the chain file\n";
+    return bad_input;
+  }
+  const auto options = analysis_options(*spec);
+
+  std::optional<Plan> plan;
+  std::optional<Chain> chain;
+  std::optional<Chain> before_chain;
+  std::optional<ChainAnalysis> before_analysis;
+  if (args.plan) {
+    plan = plan_chain(*spec, diagnostics);
+    if (!plan) {
+      std::cerr << diagnostics.format();
+      return bad_input;
+    }
+    chain = plan->chain;
+    // The file as written has a response of its own only when every value is fixed; the
+    // diagnostics of trying are not the user's concern here.
+    Diagnostics scratch(args.chain);
+    before_chain = resolve_chain(*spec, scratch);
+    if (before_chain) before_analysis = analyze_chain(*before_chain, options);
+  } else {
+    chain = resolve_chain(*spec, diagnostics);
+    if (!chain) {
+      std::cerr << diagnostics.format();
+      return bad_input;
+    }
+  }
+  const auto analysis = analyze_chain(*chain, options);
+
+  std::optional<ReportPlan> plan_context;
+  if (plan)
+    plan_context = ReportPlan{&*plan, before_chain ? &*before_chain : nullptr,
+                              before_analysis ? &*before_analysis : nullptr};
+  const auto files = build_report({&*spec, args.chain, *text}, *chain, analysis, plan_context);
+
+  const fs::path dir(args.out);
+  for (const auto& f : files) {
+    if (same_file((dir / f.name).string(), args.chain)) {
+      std::cerr << (dir / f.name).string() << ": error: the report would overwrite the chain file itself; "
+                << "choose another --out directory\n";
+      return bad_input;
+    }
+  }
+  std::error_code ec;
+  fs::create_directories(dir, ec);
+  if (ec || !fs::is_directory(dir)) {
+    std::cerr << args.out << ": error: cannot create the report directory" << (ec ? ": " + ec.message() : "")
+              << "\n";
+    return internal_error;
+  }
+  std::string summary = "report of '" + chain->name + "' in " + dir.string() + "/:";
+  for (const auto& f : files) {
+    std::string error;
+    if (!write_whole_file((dir / f.name).string(), f.contents, error)) {
+      std::cerr << "peakplan: error: " << error << "\n";
+      return internal_error;
+    }
+    summary += " " + f.name;
+  }
+  summary += "\n";
+  if (plan) summary += plan->brief() + "\n";
+  print(summary);
+  return !plan || plan->termination == Plan::Termination::met ? ok : target_not_met;
+}
+
+}  // namespace
+
+Command add_report_command(CLI::App& app) {
+  auto args = std::make_shared<ReportArgs>();
+  auto* cmd = app.add_subcommand("report", "budget tables, plots, HTML page, JSON and netlist in a directory");
+  cmd->add_option("chain", args->chain, "chain file (TOML)")->required();
+  cmd->add_option("--out", args->out, "directory to write the report into (created if missing)")->required();
+  cmd->add_flag("--plan", args->plan, "plan the chain first and report the planned chain, before and after");
+  return {cmd, [args] { return run_report(*args); }};
+}
+
+}  // namespace peakplan::cli

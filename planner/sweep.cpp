@@ -1,0 +1,289 @@
+#include "planner/sweep.hpp"
+
+#include <algorithm>
+#include <charconv>
+#include <cmath>
+#include <fmt/format.h>
+#include <functional>
+#include <limits>
+
+#include "planner/chain_graph.hpp"
+#include "planner/overrides.hpp"
+#include "planner/what_if.hpp"
+
+namespace peakplan {
+namespace {
+
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+
+// A key of a top-level table that can be swept: its display unit and where the reader puts it.
+struct TableKey {
+  std::string_view table, key, unit;
+  std::function<std::optional<double>(const ChainSpec&)> read;
+};
+
+std::optional<double> from_signal(const ChainSpec& s, const std::function<std::optional<double>(const SignalSpec&)>& f) {
+  return s.signal ? f(*s.signal) : std::nullopt;
+}
+
+const std::vector<TableKey>& table_keys() {
+  using S = const ChainSpec&;
+  static const std::vector<TableKey> keys{
+      {"input", "r_source", "ohm", [](S s) { return std::optional(s.r_source); }},
+      {"input", "noise_density", "V/rtHz", [](S s) { return s.input_noise_density; }},
+      {"signal", "bit_rate", "b/s", [](S s) { return from_signal(s, [](const SignalSpec& g) { return std::optional(g.bit_rate); }); }},
+      {"signal", "input_rise", "s", [](S s) { return from_signal(s, [](const SignalSpec& g) { return g.input_rise; }); }},
+      {"signal", "swing", "V", [](S s) { return from_signal(s, [](const SignalSpec& g) { return g.swing; }); }},
+      {"signal", "target_ber", "", [](S s) { return from_signal(s, [](const SignalSpec& g) { return std::optional(g.target_ber); }); }},
+      {"target", "gain", "dB", [](S s) { return s.target.gain_db; }},
+      {"target", "bandwidth", "Hz", [](S s) { return s.target.bandwidth; }},
+      {"target", "gain_bandwidth", "Hz", [](S s) { return s.target.gain_bandwidth; }},
+      {"limits", "overshoot", "%", [](S s) { return s.limits.overshoot; }},
+      {"limits", "peaking", "dB", [](S s) { return s.limits.peaking_db; }},
+      {"limits", "group_delay_ripple", "s", [](S s) { return s.limits.group_delay_ripple; }},
+      {"limits", "ripple_band", "Hz", [](S s) { return s.limits.ripple_band; }},
+      {"technology", "ft", "Hz", [](S s) { return s.technology.ft; }},
+      {"technology", "c_out_ratio", "", [](S s) { return s.technology.c_out_ratio; }},
+      {"technology", "inductor_q", "", [](S s) { return s.technology.inductor_q; }},
+      {"technology", "max_inductance", "H", [](S s) { return s.technology.max_inductance; }},
+      {"technology", "min_cb", "F", [](S s) { return s.technology.min_cb; }},
+      {"technology", "max_gm", "S", [](S s) { return s.technology.max_gm; }},
+      {"technology", "gm_over_id", "", [](S s) { return s.technology.gm_over_id; }},
+      {"technology", "current_budget", "A", [](S s) { return s.technology.current_budget; }},
+      {"technology", "gamma", "", [](S s) { return std::optional(s.technology.gamma); }},
+      {"technology", "temperature", "K", [](S s) { return std::optional(s.technology.temperature); }},
+  };
+  return keys;
+}
+
+const StageSpec* find_stage(const ChainSpec& spec, std::string_view id) {
+  for (const auto& s : spec.stages)
+    if (s.id == id) return &s;
+  return nullptr;
+}
+
+std::string stage_key_unit(const StageSpec& stage, std::string_view key) {
+  if (key == "gm") return "S";
+  if (key == "rd" || key == "r_load") return "ohm";
+  if (key == "c_in" || key == "c_out" || key == "c_load") return "F";
+  for (auto kind : stage.kinds)
+    for (const auto& p : load_kind_info(kind).parameters)
+      if (p.key == key) return p.dimension == Dimension::dimensionless ? "" : std::string(unit_symbol(p.dimension));
+  return "";
+}
+
+// The varied key as the reader left it: its SI value (nullopt when it is not a fixed number)
+// and its display unit. `known` is false when the key is not one that holds a number.
+struct KeyValue {
+  bool known = false;
+  std::optional<double> value;
+  std::string unit;
+};
+
+KeyValue read_key(const ChainSpec& spec, std::string_view target, std::string_view key) {
+  if (const auto* stage = find_stage(spec, target)) {
+    if (key == "count") return {true, stage->count.is_fixed() ? std::optional(stage->count.value) : std::nullopt, ""};
+    if (key == "m") return {true, stage->m, ""};
+    if (key == "zeta") return {true, stage->zeta, ""};
+    if (key == "id" || key == "kind" || key == "feeds" || key == "tap" || key == "response") return {};
+    const auto* a = stage->find(key);
+    return {true, a && a->is_fixed() ? std::optional(a->value) : std::nullopt, stage_key_unit(*stage, key)};
+  }
+  for (const auto& k : table_keys())
+    if (k.table == target && k.key == key) return {true, k.read(spec), std::string(k.unit)};
+  return {};
+}
+
+std::string point_text(double value, bool whole) {
+  // fmt's shortest form reads back as the same double, and a TOML number it always is.
+  return whole ? fmt::format("{}", static_cast<long long>(std::llround(value))) : fmt::format("{}", value);
+}
+
+struct Axis {
+  Override base;  // target and key; value replaced per point
+  std::string start, stop;
+  int points = 0;
+};
+
+std::optional<Axis> parse_vary(const std::string& text, Diagnostics& diagnostics) {
+  auto o = parse_override(text, "--vary", diagnostics);
+  if (!o) return std::nullopt;
+  const auto first = o->value.find(':');
+  const auto second = first == std::string::npos ? std::string::npos : o->value.find(':', first + 1);
+  const auto fail = [&](const std::string& message) {
+    diagnostics.error({0, 0, o->origin}, message + "; expected ID.KEY=START:STOP:N, e.g. --vary a1.rd=80ohm:160ohm:5");
+    return std::nullopt;
+  };
+  if (second == std::string::npos || o->value.find(':', second + 1) != std::string::npos)
+    return fail("the range '" + o->value + "' is not START:STOP:N");
+  Axis axis{*o, o->value.substr(0, first), o->value.substr(first + 1, second - first - 1), 0};
+  const auto n = o->value.substr(second + 1);
+  const auto [end, ec] = std::from_chars(n.data(), n.data() + n.size(), axis.points);
+  if (ec != std::errc{} || end != n.data() + n.size()) return fail("N must be a whole number of points, saw '" + n + "'");
+  if (axis.points < 2) return fail("N must be at least 2, saw " + n);
+  if (axis.start.empty() || axis.stop.empty()) return fail("START and STOP must both be given");
+  for (const auto* word : {"id", "kind", "feeds", "tap", "response", "name", "modulation", "pattern", "objective", "k_range"})
+    if (axis.base.key == word) return fail("'" + axis.base.key + "' is not a number that can be swept");
+  return axis;
+}
+
+// The SI value of one end of the axis, read back through the chain-file reader so it is
+// parsed and checked exactly as the file's own value would be.
+std::optional<double> axis_end(const std::string& text, const std::vector<Override>& sets, const Axis& axis,
+                               const std::string& end, const char* which, KeyValue& key, Diagnostics& diagnostics) {
+  auto overrides = sets;
+  overrides.push_back(axis.base);
+  overrides.back().value = end;
+  const auto spec = parse_chain_spec(text, overrides, diagnostics);
+  if (!spec) return std::nullopt;
+  key = read_key(*spec, axis.base.target, axis.base.key);
+  if (!key.known) {
+    diagnostics.error({0, 0, axis.base.origin}, "'" + axis.base.key + "' of '" + axis.base.target +
+                                                    "' is not a number that can be swept");
+    return std::nullopt;
+  }
+  if (!key.value) {
+    diagnostics.error({0, 0, axis.base.origin},
+                      fmt::format("{} '{}' is not a fixed number; give a quantity such as 80ohm or 0.2nH", which, end));
+    return std::nullopt;
+  }
+  return key.value;
+}
+
+std::vector<OpenValue> open_values(const ChainSpec& spec) {
+  std::vector<OpenValue> open;
+  for (const auto& s : spec.stages) {
+    if (!s.kind_is_fixed()) open.push_back({s.id, "kind", ""});
+    if (!s.count.is_fixed()) open.push_back({s.id, "count", ""});
+    for (const auto& [key, a] : s.values)
+      if (!a.is_fixed()) open.push_back({s.id, key, stage_key_unit(s, key)});
+  }
+  return open;
+}
+
+double circuit_value(const ChainStage& stage, std::string_view key) {
+  const auto& c = stage.circuit;
+  const auto& info = load_kind_info(c.kind);
+  const bool common = key == "gm" || key == "rd" || key == "c_in" || key == "c_out" || key == "c_load" || key == "r_load";
+  bool in_kind = false;
+  for (const auto& p : info.parameters) in_kind = in_kind || p.key == key;
+  if (!common && !in_kind) return kNaN;
+  if (key == "gm") return c.gm;
+  if (key == "rd") return c.rd;
+  if (key == "c_in") return stage.c_in;
+  if (key == "c_out") return c.c_out;
+  if (key == "c_load") return stage.c_load;
+  if (key == "r_load") return c.r_load;
+  if (key == "l") return c.l;
+  if (key == "r_l") return c.kind == LoadKind::tcoil ? c.r_l1 : c.r_l;
+  if (key == "l1") return c.l1;
+  if (key == "l2") return c.l2;
+  if (key == "k") return c.k;
+  if (key == "cb") return c.cb;
+  if (key == "c_w") return c.c_w;
+  if (key == "r_l1") return c.r_l1;
+  if (key == "r_l2") return c.r_l2;
+  return kNaN;
+}
+
+ChosenValue chosen_value(const ChainSpec& spec, const Plan& plan, const OpenValue& open) {
+  size_t index = 0;
+  while (index < spec.stages.size() && spec.stages[index].id != open.stage) ++index;
+  for (const auto& planned : plan.stages) {
+    if (planned.spec != index) continue;
+    if (open.key == "kind") return {kNaN, std::string(to_string(planned.kind))};
+    if (open.key == "count") return {static_cast<double>(planned.count), {}};
+    for (size_t g = 0; g < plan.graph.size(); ++g)
+      if (plan.graph[g].spec == index) return {circuit_value(plan.chain.stages[g], open.key), {}};
+  }
+  return {kNaN, {}};
+}
+
+void fill_metrics(SweepRow& row, const Chain& chain, const ChainSpec& spec) {
+  auto options = analysis_options(spec);
+  options.keep_waveforms = false;
+  const auto analysis = analyze_chain(chain, options);
+  const auto& main = analysis.outputs.back();
+  const auto& f = main.response.frequency;
+  row.gain_db = to_db(f.dc_gain);
+  row.bandwidth_hz = f.bandwidth_hz;
+  row.peaking_db = f.peaking_db;
+  row.group_delay_ripple_s = f.group_delay_ripple_s;
+  row.overshoot_pct = main.response.step.overshoot_pct;
+  if (main.eye) row.eye_height = main.eye->estimate.prbs.eye.height;
+}
+
+}  // namespace
+
+std::optional<SweepResult> run_sweep(const SweepRequest& request, Diagnostics& diagnostics) {
+  const auto sets = parse_overrides(request.sets, diagnostics);
+  const auto axis = parse_vary(request.vary, diagnostics);
+  const auto text = read_chain_text(request.chain, diagnostics);
+  if (!sets || !axis || !text) return std::nullopt;
+
+  KeyValue key;
+  const auto start = axis_end(*text, *sets, *axis, axis->start, "START", key, diagnostics);
+  if (!start) return std::nullopt;
+  const auto stop = axis_end(*text, *sets, *axis, axis->stop, "STOP", key, diagnostics);
+  if (!stop) return std::nullopt;
+  const bool whole = axis->base.key == "count";
+
+  SweepResult result;
+  result.target = axis->base.target;
+  result.key = axis->base.key;
+  result.unit = key.unit;
+  result.replan = request.replan;
+
+  // What each point overrides: the file with --set, or the plan of it when values are open
+  // and held (the planned file already carries the --set values).
+  std::string base_text = *text;
+  std::vector<Override> base_overrides = *sets;
+  const auto as_set = parse_chain_spec(*text, *sets, diagnostics);
+  if (!as_set) return std::nullopt;
+  result.chain_name = as_set->name;
+  const bool open = std::any_of(as_set->stages.begin(), as_set->stages.end(), has_open_values);
+  if (!request.replan && open) {
+    const auto plan = plan_chain(*as_set, diagnostics, request.plan_options);
+    if (!plan) return std::nullopt;
+    result.held_plan = plan->termination;
+    base_text = planned_chain_toml(*as_set, *plan);
+    base_overrides.clear();
+  }
+
+  for (int i = 0; i < axis->points; ++i) {
+    const double t = static_cast<double>(i) / (axis->points - 1);
+    const double value = i + 1 == axis->points ? *stop : *start + (*stop - *start) * t;
+    if (whole && std::fabs(value - std::round(value)) > 1e-9) {
+      diagnostics.error({0, 0, axis->base.origin},
+                        fmt::format("count takes whole numbers, but point {} of the sweep is {:g}", i + 1, value));
+      return std::nullopt;
+    }
+    auto overrides = base_overrides;
+    overrides.push_back(axis->base);
+    overrides.back().value = point_text(value, whole);
+    overrides.back().origin += fmt::format(" (point {}: {})", i + 1, overrides.back().value);
+    const auto spec = parse_chain_spec(base_text, overrides, diagnostics);
+    if (!spec) return std::nullopt;
+    if (i == 0) {
+      result.has_signal = spec->signal.has_value();
+      if (request.replan) result.open = open_values(*spec);
+    }
+    SweepRow row;
+    row.value = whole ? std::round(value) : value;
+    if (request.replan) {
+      const auto plan = plan_chain(*spec, diagnostics, request.plan_options);
+      if (!plan) return std::nullopt;
+      row.status = plan->termination;
+      for (const auto& o : result.open) row.chosen.push_back(chosen_value(*spec, *plan, o));
+      fill_metrics(row, plan->chain, *spec);
+    } else {
+      const auto chain = resolve_chain(*spec, diagnostics);
+      if (!chain) return std::nullopt;
+      fill_metrics(row, *chain, *spec);
+    }
+    result.rows.push_back(std::move(row));
+  }
+  return result;
+}
+
+}  // namespace peakplan

@@ -1,0 +1,76 @@
+// peakplan sweep: the chain's main-output metrics against one value, stepped linearly.
+//
+//   --vary ID.KEY=START:STOP:N   N >= 2 points from START to STOP inclusive; START and STOP
+//                                as the chain file would write the key (80ohm, "0.2 nH", 5%)
+//                                or plain numbers in the key's plain unit (SI; dB for gains).
+//
+// Each point is applied as an override of ID.KEY (planner/overrides.hpp), so every check of
+// the chain-file reader applies to it, and the chain is analysed exactly as `peakplan analyze
+// --set ID.KEY=<point>` would. Without replanning, a file with open values is planned once
+// (at its own value of the key) and every other value is held at that plan while the key
+// varies. With replanning, each point is planned afresh with the key fixed at the point, and
+// the row carries the plan's status and its choice for every value the file leaves open.
+#pragma once
+
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "planner/chain_file.hpp"
+#include "planner/planner.hpp"
+
+namespace peakplan {
+
+struct SweepRequest {
+  std::string chain;              // the chain file
+  std::vector<std::string> sets;  // --set texts, applied before the varied value
+  std::string vary;               // "ID.KEY=START:STOP:N"
+  bool replan = false;
+  PlanOptions plan_options;
+};
+
+// One value the file leaves to the planner, reported per row with --replan.
+struct OpenValue {
+  std::string stage;  // [[stage]] id
+  std::string key;    // an element key, "kind" or "count"
+  std::string unit;   // display unit symbol; empty for kind, count and plain numbers
+};
+
+// What the planner chose for an OpenValue: a number (NaN when the chosen kind has no such
+// element) or, for "kind", a name.
+struct ChosenValue {
+  double number = 0.0;
+  std::string text;
+};
+
+struct SweepRow {
+  double value = 0.0;  // the varied key, SI (dB for decibel keys, a fraction for percentages)
+  // The main output (DESIGN.md section 5 metrics); NaN where a metric does not exist.
+  double gain_db = 0.0;
+  double bandwidth_hz = 0.0;
+  double peaking_db = 0.0;
+  double overshoot_pct = 0.0;
+  double group_delay_ripple_s = 0.0;
+  std::optional<double> eye_height;  // PRBS eye height (fraction of ideal) when [signal]
+  std::optional<Plan::Termination> status;  // with replanning
+  std::vector<ChosenValue> chosen;          // with replanning, one per SweepResult::open
+};
+
+struct SweepResult {
+  std::string chain_name;
+  std::string target, key;  // the varied ID and KEY
+  std::string unit;         // display unit of the key ("ohm", "H", "dB", "%" for fractions, "")
+  bool replan = false;
+  // Without replanning: set when the file had open values and the sweep holds them at the
+  // plan of the file (with --set), whose status this is.
+  std::optional<Plan::Termination> held_plan;
+  bool has_signal = false;
+  std::vector<OpenValue> open;
+  std::vector<SweepRow> rows;
+};
+
+// Nullopt with diagnostics on bad input: a malformed --vary (named by its text, exit 2), a
+// key that is not a number, or a point the chain-file reader rejects.
+std::optional<SweepResult> run_sweep(const SweepRequest& request, Diagnostics& diagnostics);
+
+}  // namespace peakplan

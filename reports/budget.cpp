@@ -1,0 +1,449 @@
+#include "reports/budget.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <fmt/format.h>
+
+#include "models/units.hpp"
+
+namespace peakplan {
+namespace {
+
+using Align = TableView::Align;
+
+// Display scales: one place, shared by every rendering.
+constexpr double kGhz = 1e9, kPs = 1e-12, kFf = 1e-15, kPh = 1e-12, kMs = 1e-3, kMa = 1e-3;
+
+std::string scaled(double value, double scale, int decimals) { return show_number(value / scale, decimals); }
+
+std::string check_label(const std::string& name) {
+  if (name == "gain_bandwidth") return "gain-bandwidth";
+  if (name == "group_delay_ripple") return "group-delay ripple";
+  if (name == "current") return "supply current";
+  return name;
+}
+
+// A check's quantity in the unit a reader expects: GHz for Hz, ps for seconds.
+struct CheckUnit {
+  std::string unit;
+  double scale;
+  int decimals;
+};
+CheckUnit check_unit(const PlanCheck& c) {
+  if (c.unit == "Hz") return {"GHz", kGhz, 2};
+  if (c.unit == "s") return {"ps", kPs, 3};
+  if (c.unit == "%") return {"%", 1.0, 2};
+  if (c.unit == "A") return {"mA", kMa, 2};
+  return {c.unit, 1.0, 2};
+}
+std::string show_check(const PlanCheck& c, double x) {
+  const auto u = check_unit(c);
+  return scaled(x, u.scale, u.decimals) + " " + u.unit;
+}
+
+std::string elements_text(const BudgetRow& r) {
+  switch (r.kind) {
+    case LoadKind::plain: return "-";
+    case LoadKind::shunt:
+    case LoadKind::series: return "L " + scaled(r.l, kPh, 1) + " pH";
+    case LoadKind::tcoil:
+      return fmt::format("L1 {} pH, L2 {} pH, k {}, Cb {} fF", scaled(r.l1, kPh, 1), scaled(r.l2, kPh, 1),
+                         show_number(r.k, 3), scaled(r.cb, kFf, 2));
+  }
+  return "-";
+}
+
+std::string md_cell(const std::string& text) {
+  std::string out;
+  for (char c : text) {
+    if (c == '|') out += "\\|";
+    else if (c == '\n' || c == '\r') out += ' ';
+    else out += c;
+  }
+  return out;
+}
+
+std::string csv_field(const std::string& text) {
+  if (text.find_first_of(",\"\r\n") == std::string::npos) return text;
+  std::string out = "\"";
+  for (char c : text) {
+    if (c == '"') out += '"';
+    out += c;
+  }
+  return out + "\"";
+}
+
+std::string csv_number(double value, double scale = 1.0) {
+  return std::isfinite(value) ? fmt::format("{:.9g}", value / scale) : std::string();
+}
+
+std::string show_si(double value, std::string_view unit) { return format_si(value, unit, 4); }
+
+std::string written_adjustable(const Adjustable& a, std::string_view key, std::string_view unit) {
+  auto one = [&](double v) {
+    if (key == "k" || key == "count") return key == "count" ? fmt::format("{:.0f}", v) : fmt::format("{:.3f}", v);
+    return show_si(v, unit);
+  };
+  switch (a.mode) {
+    case Adjustable::Mode::fixed: return one(a.value);
+    case Adjustable::Mode::automatic: return "auto";
+    case Adjustable::Mode::range: return "range " + one(a.min) + " to " + one(a.max);
+  }
+  return "?";
+}
+
+std::string_view key_unit(std::string_view key) {
+  if (key == "gm") return "S";
+  if (key == "k") return "";
+  if (key.starts_with("c_") || key == "cb") return "F";
+  if (key.starts_with("l")) return "H";
+  return "Ω";  // rd, r_load, r_l, r_l1, r_l2
+}
+
+double planned_value(const ChainStage& s, std::string_view key) {
+  const auto& c = s.circuit;
+  if (key == "gm") return c.gm;
+  if (key == "rd") return c.rd;
+  if (key == "c_in") return s.c_in;
+  if (key == "c_out") return c.c_out;
+  if (key == "c_load") return s.c_load;
+  if (key == "r_load") return c.r_load;
+  if (key == "l") return c.l;
+  if (key == "r_l") return c.r_l;
+  if (key == "l1") return c.l1;
+  if (key == "l2") return c.l2;
+  if (key == "k") return c.k;
+  if (key == "cb") return c.cb;
+  if (key == "c_w") return c.c_w;
+  if (key == "r_l1") return c.r_l1;
+  if (key == "r_l2") return c.r_l2;
+  return not_found;
+}
+
+std::string kinds_written(const std::vector<LoadKind>& kinds) {
+  if (kinds.size() == 1) return std::string(to_string(kinds.front()));
+  if (kinds.size() == all_load_kinds().size()) return "auto";
+  std::string out = "one of ";
+  for (size_t i = 0; i < kinds.size(); ++i) out += (i ? ", " : "") + std::string(to_string(kinds[i]));
+  return out;
+}
+
+}  // namespace
+
+std::string show_number(double value, int decimals) {
+  if (!std::isfinite(value)) return std::isnan(value) ? "n/a" : (value > 0 ? "inf" : "-inf");
+  // Avoid "-0.00" for values that round to zero.
+  if (std::fabs(value) < 0.5 * std::pow(10.0, -decimals)) value = 0.0;
+  return fmt::format("{:.{}f}", value, decimals);
+}
+std::string show_db(double value) { return show_number(value, 2) + " dB"; }
+std::string show_ghz(double hz) { return scaled(hz, kGhz, 2) + " GHz"; }
+std::string show_ps(double s) { return scaled(s, kPs, 2) + " ps"; }
+std::string show_pct(double pct) { return show_number(pct, 2) + " %"; }
+
+Budget build_budget(const ChainSpec& spec, const Chain& chain, const ChainAnalysis& analysis) {
+  if (analysis.outputs.empty()) throw std::logic_error("build_budget: the analysis has no output");
+  Budget b;
+  b.chain = chain.name;
+  const auto& main = analysis.outputs.back();
+  const auto main_path = chain.path_to(main.stage);
+  const double main_delay = main.response.frequency.group_delay_s;
+  const auto gm_over_id = spec.technology.gm_over_id;
+  b.has_current = gm_over_id.has_value() && *gm_over_id > 0.0;
+
+  double path_share = 0.0;
+  for (const auto& s : analysis.stages) {
+    const auto& st = chain.stages[static_cast<size_t>(s.stage)];
+    const auto& c = st.circuit;
+    BudgetRow r;
+    r.id = st.id;
+    r.kind = c.kind;
+    r.gm = c.gm;
+    r.rd = c.rd;
+    if (c.kind == LoadKind::shunt || c.kind == LoadKind::series) r.l = c.l;
+    if (c.kind == LoadKind::tcoil) {
+      r.l1 = c.l1;
+      r.l2 = c.l2;
+      r.k = c.k;
+      r.cb = c.cb;
+    }
+    r.c_node = c.c_node;
+    const auto& f = s.alone.frequency;
+    r.gain_db = to_db(f.dc_gain);
+    r.bandwidth_hz = f.bandwidth_hz;
+    r.peaking_db = f.peaking_db;
+    r.group_delay_s = f.group_delay_s;
+    r.cumulative_gain_db = to_db(s.cumulative.frequency.dc_gain);
+    r.cumulative_bandwidth_hz = s.cumulative.frequency.bandwidth_hz;
+    r.on_main_path = std::find(main_path.begin(), main_path.end(), s.stage) != main_path.end();
+    if (r.on_main_path && main_delay > 0.0) {
+      r.delay_share_pct = 100.0 * r.group_delay_s / main_delay;
+      path_share += r.delay_share_pct;
+    }
+    if (!r.on_main_path) b.has_off_path = true;
+    if (b.has_current) r.current_a = c.gm / *gm_over_id;
+    b.totals.total_gm += c.gm;
+    b.rows.push_back(std::move(r));
+  }
+
+  auto& t = b.totals;
+  const auto& f = main.response.frequency;
+  t.node = chain.stages[static_cast<size_t>(main.stage)].id;
+  t.gain_db = to_db(f.dc_gain);
+  t.bandwidth_hz = f.bandwidth_hz;
+  t.peaking_db = f.peaking_db;
+  t.group_delay_s = f.group_delay_s;
+  t.group_delay_ripple_s = f.group_delay_ripple_s;
+  t.ripple_band_hz = f.ripple_band_hz;
+  t.overshoot_pct = main.response.step.overshoot_pct;
+  if (b.has_current) t.total_current_a = t.total_gm / *gm_over_id;
+  t.input_network_share_pct = main_delay > 0.0 ? 100.0 - path_share : 0.0;
+  b.checks = check_targets(spec, f, main.response.step, t.total_gm);
+  return b;
+}
+
+std::vector<TableView> budget_views(const Budget& b) {
+  std::vector<TableView> views;
+
+  TableView stages;
+  stages.id = "budget";
+  stages.title = "Stage budget";
+  stages.headings = {"stage", "kind", "gm (mS)", "Rd (Ω)", "peaking elements", "C node (fF)", "gain (dB)",
+                     "BW alone (GHz)", "peaking (dB)", "cum. gain (dB)", "cum. BW (GHz)", "delay share (%)"};
+  stages.align = {Align::left,  Align::left,  Align::right, Align::right, Align::left, Align::right,
+                  Align::right, Align::right, Align::right, Align::right, Align::right, Align::right};
+  if (b.has_current) {
+    stages.headings.push_back("Id (mA)");
+    stages.align.push_back(Align::right);
+  }
+  for (const auto& r : b.rows) {
+    std::vector<std::string> row{r.id,
+                                 std::string(to_string(r.kind)),
+                                 scaled(r.gm, kMs, 1),
+                                 show_number(r.rd, 1),
+                                 elements_text(r),
+                                 scaled(r.c_node, kFf, 1),
+                                 show_number(r.gain_db, 2),
+                                 scaled(r.bandwidth_hz, kGhz, 2),
+                                 show_number(r.peaking_db, 2),
+                                 show_number(r.cumulative_gain_db, 2),
+                                 scaled(r.cumulative_bandwidth_hz, kGhz, 2),
+                                 r.on_main_path ? show_number(r.delay_share_pct, 1) : "off main path"};
+    if (b.has_current) row.push_back(scaled(r.current_a, kMa, 2));
+    stages.rows.push_back(std::move(row));
+    stages.row_state.push_back(r.on_main_path ? "" : "off-path");
+  }
+  stages.notes.push_back(
+      "Gain, BW alone and peaking: each stage alone, driving its actual load. Cum. gain and cum. BW: the "
+      "chain from its input to the stage's output node. Delay share: the stage's DC group delay as a part of "
+      "the main output's (" + show_ps(b.totals.group_delay_s) + ").");
+  if (b.has_current) stages.notes.push_back("Id = gm / (gm/Id) from [technology] gm_over_id.");
+  views.push_back(std::move(stages));
+
+  const auto& t = b.totals;
+  TableView totals;
+  totals.id = "totals";
+  totals.title = "Chain totals at the main output (" + t.node + ")";
+  totals.headings = {"quantity", "value"};
+  totals.align = {Align::left, Align::right};
+  totals.rows = {{"gain", show_db(t.gain_db)},
+                 {"bandwidth (-3 dB)", show_ghz(t.bandwidth_hz)},
+                 {"peaking", show_db(t.peaking_db)},
+                 {"group delay at DC", show_ps(t.group_delay_s)},
+                 {"group-delay ripple, DC to " + show_ghz(t.ripple_band_hz), show_ps(t.group_delay_ripple_s)},
+                 {"step overshoot", show_pct(t.overshoot_pct)},
+                 {"total gm", scaled(t.total_gm, kMs, 1) + " mS"}};
+  if (b.has_current) totals.rows.push_back({"total supply current", scaled(t.total_current_a, kMa, 2) + " mA"});
+  totals.rows.push_back({"delay share of the input network", show_pct(t.input_network_share_pct)});
+  totals.row_state.assign(totals.rows.size(), "");
+  views.push_back(std::move(totals));
+
+  if (!b.checks.empty()) {
+    TableView spec;
+    spec.id = "spec";
+    spec.title = "Targets and limits";
+    spec.headings = {"check", "required", "achieved", "margin", "result"};
+    spec.align = {Align::left, Align::right, Align::right, Align::right, Align::left};
+    for (const auto& c : b.checks) {
+      spec.rows.push_back({check_label(c.name), (c.is_minimum ? "≥ " : "≤ ") + show_check(c, c.limit),
+                           show_check(c, c.value), show_check(c, c.margin), c.met ? "pass" : "FAIL"});
+      spec.row_state.push_back(c.met ? "pass" : "fail");
+    }
+    views.push_back(std::move(spec));
+  }
+  return views;
+}
+
+std::string tables_markdown(const std::vector<TableView>& views) {
+  std::string out;
+  for (const auto& v : views) {
+    out += "## " + md_cell(v.title) + "\n\n|";
+    for (const auto& h : v.headings) out += " " + md_cell(h) + " |";
+    out += "\n|";
+    for (auto a : v.align) out += a == Align::right ? " ---: |" : " :--- |";
+    out += "\n";
+    for (const auto& row : v.rows) {
+      out += "|";
+      for (const auto& cell : row) out += " " + md_cell(cell) + " |";
+      out += "\n";
+    }
+    for (const auto& n : v.notes) out += "\n" + md_cell(n) + "\n";
+    out += "\n";
+  }
+  return out;
+}
+
+std::string budget_markdown(const Budget& b) {
+  return "# Budget: " + md_cell(b.chain) + "\n\n" + tables_markdown(budget_views(b));
+}
+
+std::string budget_csv(const Budget& b) {
+  static const std::vector<std::string> columns{
+      "row",           "id",           "kind",        "gm_mS",          "rd_ohm",
+      "l_pH",          "l1_pH",        "l2_pH",       "k",              "cb_fF",
+      "c_node_fF",     "gain_dB",      "bandwidth_GHz", "peaking_dB",   "group_delay_ps",
+      "cumulative_gain_dB", "cumulative_bandwidth_GHz", "delay_share_pct", "current_mA",
+      "group_delay_ripple_ps", "overshoot_pct", "check_unit", "check_value", "check_limit",
+      "check_margin", "check_met"};
+  auto line = [](const std::vector<std::string>& fields) {
+    std::string out;
+    for (size_t i = 0; i < fields.size(); ++i) out += (i ? "," : "") + fields[i];
+    return out + "\r\n";
+  };
+  std::string out = line(columns);
+  for (const auto& r : b.rows) {
+    std::vector<std::string> f{"stage",
+                               csv_field(r.id),
+                               std::string(to_string(r.kind)),
+                               csv_number(r.gm, kMs),
+                               csv_number(r.rd),
+                               csv_number(r.l, kPh),
+                               csv_number(r.l1, kPh),
+                               csv_number(r.l2, kPh),
+                               csv_number(r.k),
+                               csv_number(r.cb, kFf),
+                               csv_number(r.c_node, kFf),
+                               csv_number(r.gain_db),
+                               csv_number(r.bandwidth_hz, kGhz),
+                               csv_number(r.peaking_db),
+                               csv_number(r.group_delay_s, kPs),
+                               csv_number(r.cumulative_gain_db),
+                               csv_number(r.cumulative_bandwidth_hz, kGhz),
+                               r.on_main_path ? csv_number(r.delay_share_pct) : "off_main_path",
+                               csv_number(r.current_a, kMa)};
+    f.resize(columns.size());
+    out += line(f);
+  }
+  const auto& t = b.totals;
+  std::vector<std::string> total{"total", csv_field(t.node), "", csv_number(t.total_gm, kMs)};
+  total.resize(columns.size());
+  total[11] = csv_number(t.gain_db);
+  total[12] = csv_number(t.bandwidth_hz, kGhz);
+  total[13] = csv_number(t.peaking_db);
+  total[14] = csv_number(t.group_delay_s, kPs);
+  total[18] = csv_number(t.total_current_a, kMa);
+  total[19] = csv_number(t.group_delay_ripple_s, kPs);
+  total[20] = csv_number(t.overshoot_pct);
+  out += line(total);
+  for (const auto& c : b.checks) {
+    const auto u = check_unit(c);
+    std::vector<std::string> f(columns.size());
+    f[0] = "check";
+    f[1] = c.name;
+    f[2] = c.is_minimum ? "minimum" : "maximum";
+    f[21] = u.unit;
+    f[22] = csv_number(c.value, u.scale);
+    f[23] = csv_number(c.limit, u.scale);
+    f[24] = csv_number(c.margin, u.scale);
+    f[25] = c.met ? "pass" : "fail";
+    out += line(f);
+  }
+  return out;
+}
+
+TableView plan_values_view(const ChainSpec& spec, const Plan& plan) {
+  TableView v;
+  v.id = "plan-values";
+  v.title = "Plan: values as written and as planned";
+  v.headings = {"stage", "value", "as written", "planned"};
+  v.align = {Align::left, Align::left, Align::right, Align::right};
+  auto add = [&](const std::string& id, std::string key, std::string written, std::string planned) {
+    const bool changed = written != planned;
+    v.rows.push_back({id, std::move(key), std::move(written), std::move(planned)});
+    v.row_state.push_back(changed ? "planned" : "");
+  };
+  for (const auto& p : plan.stages) {
+    const auto& s = spec.stages[p.spec];
+    size_t first = 0;
+    while (first < plan.graph.size() && plan.graph[first].spec != p.spec) ++first;
+    if (first == plan.graph.size()) continue;  // a stage with no copy cannot be planned; nothing to show
+    const auto& planned = plan.chain.stages[first];
+    add(s.id, "kind", kinds_written(s.kinds), std::string(to_string(p.kind)));
+    add(s.id, "count", written_adjustable(s.count, "count", ""), std::to_string(p.count));
+
+    std::vector<std::string> keys{"gm", "rd", "c_in", "c_out"};
+    switch (p.kind) {
+      case LoadKind::plain: break;
+      case LoadKind::shunt:
+      case LoadKind::series: keys.insert(keys.end(), {"l", "r_l"}); break;
+      case LoadKind::tcoil: keys.insert(keys.end(), {"l1", "l2", "k", "cb", "r_l1", "r_l2"}); break;
+    }
+    keys.insert(keys.end(), {"c_load", "r_load"});
+    std::string design;
+    if (s.m) design = fmt::format("from m = {}", *s.m);
+    if (s.zeta) design = fmt::format("from zeta = {}", *s.zeta);
+    if (!s.response.empty()) design = "from response = " + s.response;
+    const auto* gm = s.find("gm");
+    for (const auto& key : keys) {
+      const double value = planned_value(planned, key);
+      const auto unit = key_unit(key);
+      const auto* a = s.find(key);
+      // Loss resistances and optional loads that are zero or open and not in the file add nothing.
+      const bool optional = key.starts_with("r_l") || key == "c_load" || key == "r_load";
+      if (!a && optional && (value == 0.0 || std::isinf(value))) continue;
+      const std::string shown = key == "k" ? fmt::format("{:.3f}", value) : show_si(value, unit);
+      std::string written;
+      if (a) written = written_adjustable(*a, key, unit);
+      else if (key.starts_with("r_l") && spec.technology.inductor_q) written = "from inductor_q";
+      else if ((key == "c_in" || key == "c_out") && gm && !gm->is_fixed()) written = "from gm and fT";
+      else if (!design.empty() && (key == "l" || key == "l1" || key == "l2" || key == "k" || key == "cb"))
+        written = design;
+      else written = "not in the file";
+      add(s.id, key, std::move(written), shown);
+    }
+  }
+  v.notes.push_back("Values of the first copy of a counted stage; every copy is identical.");
+  return v;
+}
+
+TableView plan_metrics_view(const Budget& after, const std::optional<Budget>& before) {
+  TableView v;
+  v.id = "plan-metrics";
+  v.title = "Plan: the main output before and after";
+  v.headings = before ? std::vector<std::string>{"metric", "as written", "planned"}
+                      : std::vector<std::string>{"metric", "planned"};
+  v.align = before ? std::vector<Align>{Align::left, Align::right, Align::right}
+                   : std::vector<Align>{Align::left, Align::right};
+  auto add = [&](std::string name, auto show) {
+    std::vector<std::string> row{std::move(name)};
+    if (before) row.push_back(show(before->totals));
+    row.push_back(show(after.totals));
+    v.rows.push_back(std::move(row));
+    v.row_state.push_back("");
+  };
+  add("gain", [](const BudgetTotals& t) { return show_db(t.gain_db); });
+  add("bandwidth (-3 dB)", [](const BudgetTotals& t) { return show_ghz(t.bandwidth_hz); });
+  add("peaking", [](const BudgetTotals& t) { return show_db(t.peaking_db); });
+  add("group delay at DC", [](const BudgetTotals& t) { return show_ps(t.group_delay_s); });
+  add("group-delay ripple", [](const BudgetTotals& t) { return show_ps(t.group_delay_ripple_s); });
+  add("step overshoot", [](const BudgetTotals& t) { return show_pct(t.overshoot_pct); });
+  add("total gm", [](const BudgetTotals& t) { return scaled(t.total_gm, kMs, 1) + " mS"; });
+  if (after.has_current)
+    add("total supply current", [](const BudgetTotals& t) { return scaled(t.total_current_a, kMa, 2) + " mA"; });
+  if (!before)
+    v.notes.push_back("The file as written leaves values to the planner, so it has no response of its own to "
+                      "compare with.");
+  return v;
+}
+
+}  // namespace peakplan

@@ -1,0 +1,23 @@
+// The SVG plots of an analysed chain: magnitude, group delay, step, eye and pole-zero map.
+// They read the analysis only; nothing here recomputes a response.
+#pragma once
+
+#include <string>
+#include <vector>
+
+#include "models/analysis.hpp"
+#include "models/chain.hpp"
+
+namespace peakplan {
+
+struct PlotFile {
+  std::string name;   // "magnitude.svg", "group_delay.svg", "step.svg", "eye.svg", "pole_zero.svg"
+  std::string title;  // a human caption, e.g. "Magnitude of every stage alone and of the cascade"
+  std::string svg;    // a complete standalone SVG document
+};
+
+// Every plot of an analysed chain, in the order above; eye.svg only when the main output
+// (analysis.outputs.back()) has an eye. Deterministic: the same input gives the same bytes.
+std::vector<PlotFile> chain_plots(const Chain& chain, const ChainAnalysis& analysis);
+
+}  // namespace peakplan

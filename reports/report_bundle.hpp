@@ -1,0 +1,44 @@
+// Every file of a report, built in memory before anything is written, so that a report is
+// written completely or not at all:
+//   budget.md, budget.csv   the per-stage budget, totals and spec block (reports/budget.hpp)
+//   result.json             analysis_json, or plan_json for a planned chain
+//   *.svg                   the plots of reports/plots.hpp
+//   index.html              the self-contained page (reports/html_report.hpp)
+//   chain.cir               the SPICE netlist of the chain reported
+#pragma once
+
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "models/analysis.hpp"
+#include "models/chain.hpp"
+#include "planner/chain_file.hpp"
+#include "planner/planner.hpp"
+
+namespace peakplan {
+
+struct ReportFile {
+  std::string name;      // a plain file name, no directory
+  std::string contents;
+};
+
+struct ReportSource {
+  const ChainSpec* spec = nullptr;
+  std::string file_name;  // the chain file as the user named it
+  std::string file_text;  // its contents, echoed in the page
+};
+
+// With a plan: the plan, and the file as written resolved and analysed when it can be (every
+// value fixed), for the before/after comparison.
+struct ReportPlan {
+  const Plan* plan = nullptr;
+  const Chain* before_chain = nullptr;
+  const ChainAnalysis* before_analysis = nullptr;
+};
+
+// `chain` and `analysis` are what the report shows: the planned chain when `plan` is given.
+std::vector<ReportFile> build_report(const ReportSource& source, const Chain& chain, const ChainAnalysis& analysis,
+                                     const std::optional<ReportPlan>& plan = std::nullopt);
+
+}  // namespace peakplan

@@ -1,0 +1,475 @@
+// `peakplan report`: the real executable writing real directories. What is checked:
+//   - the budget (budget.csv, and budget.md to its printed decimals) says what the analysis
+//     document (result.json) says, stage by stage and for the main output;
+//   - user strings reach the page only escaped;
+//   - a report replaces whole files and leaves other files alone; a failed one changes nothing;
+//   - every shipped chain reports, and --plan adds the before/after comparison.
+// Tolerances come from how the numbers are printed: the CSV has 9 significant digits, so a
+// value read back is within 5e-9 relative of the one printed; kCsvRelative = 1e-8 covers that
+// (the absolute floor kCsvAbsolute covers values printed near zero, such as 1e-15 dB peaking).
+// budget.md shows dB with 2 decimals: within 0.005 dB, plus 1e-9 for the binary rounding.
+#include <doctest/doctest.h>
+
+#include <sys/wait.h>
+
+#include <algorithm>
+#include <cmath>
+#include <cstdlib>
+#include <filesystem>
+#include <fstream>
+#include <map>
+#include <nlohmann/json.hpp>
+#include <set>
+#include <sstream>
+#include <string>
+#include <vector>
+
+namespace {
+
+namespace fs = std::filesystem;
+
+constexpr double kCsvRelative = 1e-8;
+constexpr double kCsvAbsolute = 1e-12;
+constexpr double kMarkdownDb = 0.005 + 1e-9;
+
+const fs::path kSource = PEAKPLAN_SOURCE_DIR;
+const fs::path kDemo = kSource / "chains" / "demo_postamp.toml";
+
+std::string read_bytes(const fs::path& path) {
+  std::ifstream in(path, std::ios::binary);
+  REQUIRE_MESSAGE(in, "cannot read " << path.string());
+  std::ostringstream text;
+  text << in.rdbuf();
+  return text.str();
+}
+
+void write_bytes(const fs::path& path, const std::string& text) {
+  std::ofstream out(path, std::ios::binary | std::ios::trunc);
+  out << text;
+  REQUIRE_MESSAGE(out, "cannot write " << path.string());
+}
+
+std::string shell_quoted(const std::string& s) {
+  std::string out = "'";
+  for (char c : s) out += c == '\'' ? std::string("'\\''") : std::string(1, c);
+  return out + "'";
+}
+
+// A fresh directory under the system's temporary directory, removed with everything in it.
+struct TempDir {
+  fs::path path;
+  TempDir() {
+    std::string name = (fs::temp_directory_path() / "peakplan_report_XXXXXX").string();
+    REQUIRE(mkdtemp(name.data()) != nullptr);
+    path = name;
+  }
+  ~TempDir() {
+    std::error_code ec;
+    fs::remove_all(path, ec);
+  }
+  TempDir(const TempDir&) = delete;
+  TempDir& operator=(const TempDir&) = delete;
+};
+
+struct CliRun {
+  int status = -1;
+  std::string out, err;
+};
+
+// `peakplan report CHAIN --out DIR [extra]`, stdout and stderr captured in files of our own.
+CliRun run_report(const fs::path& chain, const fs::path& out_dir, const std::string& extra = "") {
+  TempDir capture;
+  const fs::path out = capture.path / "stdout", err = capture.path / "stderr";
+  const std::string command = shell_quoted(PEAKPLAN_BINARY) + " report " + shell_quoted(chain.string()) +
+                              " --out " + shell_quoted(out_dir.string()) + " " + extra + " >" +
+                              shell_quoted(out.string()) + " 2>" + shell_quoted(err.string());
+  const int raw = std::system(command.c_str());
+  CliRun run;
+  run.status = raw != -1 && WIFEXITED(raw) ? WEXITSTATUS(raw) : -1;
+  REQUIRE_MESSAGE(fs::exists(out), "the shell did not create the stdout file: " << command);
+  run.out = read_bytes(out);
+  run.err = read_bytes(err);
+  return run;
+}
+
+// Every regular file below `dir` by relative path, with its contents.
+std::map<std::string, std::string> snapshot(const fs::path& dir) {
+  std::map<std::string, std::string> files;
+  for (const auto& e : fs::recursive_directory_iterator(dir))
+    if (e.is_regular_file()) files[fs::relative(e.path(), dir).string()] = read_bytes(e.path());
+  return files;
+}
+
+// RFC 4180: fields separated by commas, records by CRLF, quoted fields may hold both and "".
+std::vector<std::vector<std::string>> parse_csv(const std::string& text) {
+  std::vector<std::vector<std::string>> records(1);
+  std::string field;
+  bool quoted = false, was_quoted = false;
+  for (size_t i = 0; i < text.size(); ++i) {
+    const char c = text[i];
+    if (quoted) {
+      if (c == '"' && i + 1 < text.size() && text[i + 1] == '"') {
+        field += '"';
+        ++i;
+      } else if (c == '"') {
+        quoted = false;
+      } else {
+        field += c;
+      }
+    } else if (c == '"' && field.empty() && !was_quoted) {
+      quoted = was_quoted = true;
+    } else if (c == ',') {
+      records.back().push_back(field);
+      field.clear();
+      was_quoted = false;
+    } else if (c == '\r' && i + 1 < text.size() && text[i + 1] == '\n') {
+      records.back().push_back(field);
+      field.clear();
+      was_quoted = false;
+      records.emplace_back();
+      ++i;
+    } else {
+      field += c;
+    }
+  }
+  if (records.back().empty()) records.pop_back();
+  return records;
+}
+
+struct CsvTable {
+  std::vector<std::string> header;
+  std::vector<std::vector<std::string>> rows;
+  size_t column(const std::string& name) const {
+    const auto it = std::find(header.begin(), header.end(), name);
+    REQUIRE_MESSAGE(it != header.end(), "budget.csv has no column " << name);
+    return static_cast<size_t>(it - header.begin());
+  }
+  std::vector<const std::vector<std::string>*> of_kind(const std::string& row) const {
+    std::vector<const std::vector<std::string>*> out;
+    for (const auto& r : rows)
+      if (!r.empty() && r[0] == row) out.push_back(&r);
+    return out;
+  }
+};
+
+CsvTable read_csv(const fs::path& path) {
+  auto records = parse_csv(read_bytes(path));
+  REQUIRE(records.size() >= 2);
+  CsvTable t{records.front(), {records.begin() + 1, records.end()}};
+  for (const auto& r : t.rows) REQUIRE_MESSAGE(r.size() == t.header.size(), "a budget.csv row has a wrong field count");
+  return t;
+}
+
+double number(const std::string& field) {
+  REQUIRE_MESSAGE(!field.empty(), "an empty CSV field where a number was expected");
+  return std::stod(field);
+}
+
+// A CSV value in its display unit against the JSON value in SI.
+void check_csv(const std::string& field, double scale, const nlohmann::json& json_value, const std::string& what) {
+  if (json_value.is_null()) {
+    CHECK_MESSAGE(field.empty(), what << ": JSON null, CSV '" << field << "'");
+    return;
+  }
+  const double expected = json_value.get<double>();
+  const double got = number(field) * scale;
+  CHECK_MESSAGE(std::fabs(got - expected) <= kCsvRelative * std::fabs(expected) + kCsvAbsolute * scale,
+                what << ": CSV " << got << " vs JSON " << expected);
+}
+
+// Body rows of the first Markdown pipe table after `heading`, split into trimmed cells.
+std::vector<std::vector<std::string>> markdown_table(const std::string& md, const std::string& heading) {
+  const auto at = md.find(heading);
+  REQUIRE_MESSAGE(at != std::string::npos, "no heading " << heading);
+  std::istringstream in(md.substr(at));
+  std::vector<std::vector<std::string>> rows;
+  int line_no = 0;
+  for (std::string line; std::getline(in, line);) {
+    const bool table_line = !line.empty() && line[0] == '|';
+    if (!table_line && line_no > 0) break;  // the table has ended
+    if (!table_line) continue;              // the heading and the blank line after it
+    ++line_no;
+    if (line_no <= 2) continue;  // headings and the alignment row
+    std::vector<std::string> cells;
+    std::string cell;
+    for (size_t i = 1; i < line.size(); ++i) {
+      if (line[i] == '\\' && i + 1 < line.size() && line[i + 1] == '|') {
+        cell += '|';
+        ++i;
+      } else if (line[i] == '|') {
+        const auto a = cell.find_first_not_of(' '), b = cell.find_last_not_of(' ');
+        cells.push_back(a == std::string::npos ? "" : cell.substr(a, b - a + 1));
+        cell.clear();
+      } else {
+        cell += line[i];
+      }
+    }
+    rows.push_back(cells);
+  }
+  return rows;
+}
+
+const std::vector<std::string> kAlwaysWritten{"budget.md", "budget.csv", "result.json", "magnitude.svg",
+                                              "group_delay.svg", "step.svg", "pole_zero.svg", "index.html",
+                                              "chain.cir"};
+
+void check_budget_against_json(const fs::path& dir) {
+  const auto csv = read_csv(dir / "budget.csv");
+  const auto doc = nlohmann::json::parse(read_bytes(dir / "result.json"));
+  const auto stages = csv.of_kind("stage");
+  REQUIRE(stages.size() == doc["stages"].size());
+  const size_t id = csv.column("id"), gain = csv.column("gain_dB"), bw = csv.column("bandwidth_GHz"),
+               peak = csv.column("peaking_dB"), delay = csv.column("group_delay_ps"), gm = csv.column("gm_mS"),
+               rd = csv.column("rd_ohm"), c_node = csv.column("c_node_fF"), share = csv.column("delay_share_pct");
+  const auto& main = doc["outputs"].back();
+  for (size_t i = 0; i < stages.size(); ++i) {
+    const auto& row = *stages[i];
+    const auto& js = doc["stages"][i];
+    INFO("stage " << js["id"].get<std::string>());
+    CHECK(row[id] == js["id"].get<std::string>());
+    check_csv(row[gain], 1.0, js["dc_gain_db"], "gain");
+    check_csv(row[bw], 1e9, js["bandwidth_hz"], "bandwidth");
+    check_csv(row[peak], 1.0, js["peaking_db"], "peaking");
+    check_csv(row[delay], 1e-12, js["group_delay_s"], "group delay");
+    check_csv(row[gm], 1e-3, js["values"]["gm"], "gm");
+    check_csv(row[rd], 1.0, js["values"]["rd"], "rd");
+    check_csv(row[c_node], 1e-15, js["values"]["c_node"], "c_node");
+    // Derived: the share is the stage's DC group delay over the main output's, in percent.
+    if (row[share] != "off_main_path")
+      check_csv(row[share], 1.0, nlohmann::json(100.0 * js["group_delay_s"].get<double>() /
+                                                main["group_delay_s"].get<double>()),
+                "delay share");
+  }
+  const auto totals = csv.of_kind("total");
+  REQUIRE(totals.size() == 1);
+  const auto& t = *totals.front();
+  CHECK(t[id] == main["node"].get<std::string>());
+  check_csv(t[gain], 1.0, main["dc_gain_db"], "total gain");
+  check_csv(t[bw], 1e9, main["bandwidth_hz"], "total bandwidth");
+  check_csv(t[peak], 1.0, main["peaking_db"], "total peaking");
+  check_csv(t[delay], 1e-12, main["group_delay_s"], "total group delay");
+  check_csv(t[csv.column("group_delay_ripple_ps")], 1e-12, main["group_delay_ripple_s"], "total ripple");
+  check_csv(t[csv.column("overshoot_pct")], 1.0, main["overshoot_pct"], "total overshoot");
+  double total_gm = 0.0;
+  for (const auto& s : doc["stages"]) total_gm += s["values"]["gm"].get<double>();
+  check_csv(t[gm], 1e-3, nlohmann::json(total_gm), "total gm");
+
+  // budget.md shows the same stage numbers, rounded to 2 decimals.
+  const auto md_rows = markdown_table(read_bytes(dir / "budget.md"), "## Stage budget");
+  REQUIRE(md_rows.size() == stages.size());
+  for (size_t i = 0; i < md_rows.size(); ++i) {
+    const auto& js = doc["stages"][i];
+    INFO("budget.md stage " << js["id"].get<std::string>());
+    REQUIRE(md_rows[i].size() >= 9);
+    CHECK(md_rows[i][0] == js["id"].get<std::string>());
+    CHECK(std::fabs(std::stod(md_rows[i][6]) - js["dc_gain_db"].get<double>()) <= kMarkdownDb);
+    CHECK(std::fabs(std::stod(md_rows[i][8]) - js["peaking_db"].get<double>()) <= kMarkdownDb);
+  }
+}
+
+}  // namespace
+
+TEST_CASE("report: the budget's numbers are the analysis document's (demo chain)") {
+  TempDir dir;
+  const auto run = run_report(kDemo, dir.path / "out");
+  REQUIRE_MESSAGE(run.status == 0, run.err);
+  check_budget_against_json(dir.path / "out");
+}
+
+TEST_CASE("report: the budget's numbers are the analysis document's, and a branch off the main path is marked") {
+  TempDir dir;
+  const auto run = run_report(kSource / "chains" / "fanout_tap.toml", dir.path / "out");
+  REQUIRE_MESSAGE(run.status == 0, run.err);
+  check_budget_against_json(dir.path / "out");
+  const auto csv = read_csv(dir.path / "out" / "budget.csv");
+  for (const auto* row : csv.of_kind("stage"))
+    CHECK(((*row)[csv.column("delay_share_pct")] == "off_main_path") == ((*row)[csv.column("id")] == "detect"));
+  CHECK(read_bytes(dir.path / "out" / "budget.md").find("off main path") != std::string::npos);
+}
+
+TEST_CASE("report: user strings reach the page escaped, and ids round-trip through the CSV quoting") {
+  TempDir dir;
+  std::string text = read_bytes(kDemo);
+  const std::string evil_id = "<script>alert(\"a2,x\")</script>";
+  const auto at = text.find("id = \"a2\"");
+  REQUIRE(at != std::string::npos);
+  text.replace(at, 9, "id = '" + evil_id + "'");
+  const auto name_at = text.find("name = \"demo post-amplifier\"");
+  REQUIRE(name_at != std::string::npos);
+  text.replace(name_at, 29, "name = \"demo <b>& co\"");
+  const fs::path chain = dir.path / "evil.toml";
+  write_bytes(chain, text);
+  const auto run = run_report(chain, dir.path / "out");
+  REQUIRE_MESSAGE(run.status == 0, run.err);
+
+  const auto html = read_bytes(dir.path / "out" / "index.html");
+  CHECK(html.find("<script") == std::string::npos);
+  CHECK(html.find("<b>&") == std::string::npos);
+  CHECK(html.find("&lt;script&gt;alert(&quot;a2,x&quot;)&lt;/script&gt;") != std::string::npos);
+  CHECK(html.find("demo &lt;b&gt;&amp; co") != std::string::npos);
+
+  const auto csv = read_csv(dir.path / "out" / "budget.csv");
+  std::set<std::string> ids;
+  for (const auto* row : csv.of_kind("stage")) ids.insert((*row)[csv.column("id")]);
+  CHECK(ids.count(evil_id) == 1);
+}
+
+TEST_CASE("report: an existing directory gets whole files; other files stay as they were") {
+  TempDir dir;
+  const fs::path out = dir.path / "out";
+  fs::create_directories(out);
+  write_bytes(out / "budget.md", std::string(200000, 'x') + "\nold junk that must not survive\n");
+  write_bytes(out / "notes.txt", "the designer's own notes\n");
+  const auto run = run_report(kDemo, out);
+  REQUIRE_MESSAGE(run.status == 0, run.err);
+
+  const auto fresh = run_report(kDemo, dir.path / "fresh");
+  REQUIRE(fresh.status == 0);
+  CHECK(read_bytes(out / "budget.md") == read_bytes(dir.path / "fresh" / "budget.md"));
+  CHECK(read_bytes(out / "notes.txt") == "the designer's own notes\n");
+  auto expected = snapshot(dir.path / "fresh");
+  expected["notes.txt"] = "the designer's own notes\n";
+  const auto actual = snapshot(out);
+  std::vector<std::string> names, expected_names;
+  for (const auto& [name, _] : actual) names.push_back(name);
+  for (const auto& [name, _] : expected) expected_names.push_back(name);
+  CHECK(names == expected_names);  // no temporary file is left behind
+  for (const auto& name : names) CHECK_MESSAGE(name.find("tmp") == std::string::npos, name);
+  CHECK(actual == expected);
+}
+
+TEST_CASE("report: bad input exits 2 and leaves the directory exactly as it was") {
+  TempDir dir;
+  const fs::path out = dir.path / "out";
+  fs::create_directories(out);
+  write_bytes(out / "budget.md", "an earlier budget\n");
+  write_bytes(out / "index.html", "<p>an earlier page</p>\n");
+  write_bytes(out / "notes.txt", "notes\n");
+  const auto before = snapshot(out);
+  const fs::path bad = kSource / "tests" / "bad_chains" / "missing_gm.toml";
+  const auto run = run_report(bad, out);
+  CHECK(run.status == 2);
+  CHECK(run.out.empty());
+  CHECK(run.err.find("error: ") != std::string::npos);
+  CHECK(snapshot(out) == before);
+
+  SUBCASE("a missing directory is not created") {
+    const fs::path missing = dir.path / "not" / "there";
+    CHECK(run_report(bad, missing).status == 2);
+    CHECK_FALSE(fs::exists(dir.path / "not"));
+  }
+  SUBCASE("a chain that leaves values to the planner, reported without --plan, writes nothing") {
+    const auto planned = run_report(kSource / "tests" / "bad_chains" / "auto_value_in_analyze.toml", out);
+    CHECK(planned.status == 2);
+    CHECK(snapshot(out) == before);
+  }
+}
+
+TEST_CASE("report: a report file that is the chain file itself is refused") {
+  TempDir dir;
+  const fs::path chain = dir.path / "chain.cir";  // the chain file under a report file's name
+  fs::copy_file(kDemo, chain);
+  const auto run = run_report(chain, dir.path);
+  CHECK(run.status == 2);
+  CHECK(run.err.find("overwrite the chain file") != std::string::npos);
+  CHECK(read_bytes(chain) == read_bytes(kDemo));
+  CHECK_FALSE(fs::exists(dir.path / "budget.md"));
+}
+
+TEST_CASE("report: every shipped chain produces every file") {
+  for (const auto& entry : fs::directory_iterator(kSource / "chains")) {
+    if (entry.path().extension() != ".toml") continue;
+    const std::string text = read_bytes(entry.path());
+    // A chain that leaves values to the planner can only be reported planned.
+    const bool needs_plan = text.find("\"auto\"") != std::string::npos;
+    INFO(entry.path().filename().string() << (needs_plan ? " --plan" : ""));
+    TempDir dir;
+    const auto run = run_report(entry.path(), dir.path / "out", needs_plan ? "--plan" : "");
+    CHECK_MESSAGE(run.status == 0, run.err);
+    auto expected = kAlwaysWritten;
+    if (text.find("[signal]") != std::string::npos) expected.push_back("eye.svg");
+    for (const auto& name : expected) {
+      const fs::path p = dir.path / "out" / name;
+      CHECK_MESSAGE(fs::exists(p), name);
+      if (fs::exists(p)) CHECK_MESSAGE(fs::file_size(p) > 100, name);
+      CHECK_MESSAGE(run.out.find(name) != std::string::npos, "the summary names " << name);
+    }
+  }
+}
+
+TEST_CASE("report: --plan shows the values as written beside the planned ones, and the plan status") {
+  TempDir dir;
+  const auto run = run_report(kSource / "chains" / "plan_limiting_amp.toml", dir.path / "out", "--plan");
+  const auto doc = nlohmann::json::parse(read_bytes(dir.path / "out" / "result.json"));
+  REQUIRE(doc.contains("status"));
+  CHECK((doc["status"] == "met" || doc["status"] == "not_met"));
+  CHECK(run.status == (doc["status"] == "met" ? 0 : 1));
+
+  const auto md = read_bytes(dir.path / "out" / "budget.md");
+  const auto values = markdown_table(md, "## Plan: values as written and as planned");
+  bool rd_auto = false, count_fixed = false;
+  for (const auto& row : values) {
+    REQUIRE(row.size() == 4);
+    if (row[1] == "rd" && row[2] == "auto" && row[3].find("Ω") != std::string::npos) rd_auto = true;
+    if (row[1] == "count" && row[2] == "5" && row[3] == "5") count_fixed = true;
+  }
+  CHECK(rd_auto);
+  CHECK(count_fixed);
+  CHECK(md.find("no response of its own") != std::string::npos);  // every gm is "auto": no before
+  const auto html = read_bytes(dir.path / "out" / "index.html");
+  CHECK(html.find("id=\"plan-values\"") != std::string::npos);
+  CHECK(html.find("id=\"plan-metrics\"") != std::string::npos);
+  // 5 copies, each a row of the budget.
+  CHECK(read_csv(dir.path / "out" / "budget.csv").of_kind("stage").size() == 5);
+}
+
+TEST_CASE("report: --plan on a chain with every value fixed compares before and after") {
+  TempDir dir;
+  const auto run = run_report(kDemo, dir.path / "out", "--plan");
+  CHECK(run.status <= 1);
+  const auto md = read_bytes(dir.path / "out" / "budget.md");
+  const auto metrics = markdown_table(md, "## Plan: the main output before and after");
+  REQUIRE_FALSE(metrics.empty());
+  // Nothing to choose: the planned chain is the chain as written, so both columns agree.
+  for (const auto& row : metrics) {
+    REQUIRE(row.size() == 3);
+    CHECK_MESSAGE(row[1] == row[2], row[0]);
+  }
+}
+
+TEST_CASE("report: with [technology] gm_over_id every stage shows Id = gm / (gm/Id), and the current budget is checked") {
+  TempDir dir;
+  std::string text = read_bytes(kDemo);
+  const auto at = text.find("inductor_q = 12");
+  REQUIRE(at != std::string::npos);
+  constexpr double gm_over_id = 12.5;  // 1/V, an arbitrary test value
+  text.insert(at, "gm_over_id = 12.5\ncurrent_budget = \"20 mA\"\n");
+  const fs::path chain = dir.path / "current.toml";
+  write_bytes(chain, text);
+  const auto run = run_report(chain, dir.path / "out");
+  REQUIRE_MESSAGE(run.status == 0, run.err);
+
+  const auto csv = read_csv(dir.path / "out" / "budget.csv");
+  const auto doc = nlohmann::json::parse(read_bytes(dir.path / "out" / "result.json"));
+  const size_t current = csv.column("current_mA");
+  const auto stages = csv.of_kind("stage");
+  REQUIRE(stages.size() == doc["stages"].size());
+  double total_gm = 0.0;
+  for (size_t i = 0; i < stages.size(); ++i) {
+    // Derived: Id = gm / (gm/Id), in mA.
+    const double gm = doc["stages"][i]["values"]["gm"].get<double>();
+    total_gm += gm;
+    check_csv((*stages[i])[current], 1e-3, nlohmann::json(gm / gm_over_id), "stage current");
+  }
+  check_csv((*csv.of_kind("total").front())[current], 1e-3, nlohmann::json(total_gm / gm_over_id), "total current");
+  bool checked = false;
+  for (const auto* row : csv.of_kind("check")) {
+    if ((*row)[csv.column("id")] != "current") continue;
+    checked = true;
+    CHECK((*row)[csv.column("check_unit")] == "mA");
+    check_csv((*row)[csv.column("check_value")], 1.0, nlohmann::json(1e3 * total_gm / gm_over_id), "current check");
+    CHECK((*row)[csv.column("check_met")] == (total_gm / gm_over_id <= 20e-3 ? "pass" : "fail"));
+  }
+  CHECK(checked);
+  CHECK(read_bytes(dir.path / "out" / "budget.md").find("| Id (mA) |") != std::string::npos);
+}

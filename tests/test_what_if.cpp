@@ -1,0 +1,430 @@
+// What-if tools through the real executable: --set against a hand-edited copy, override
+// errors named by their option, --lock against the plan it locks to, compare against two
+// analyses, sweep against analyze --set at every point and against the first-order pole.
+// Plan values are never hard-coded: every plan check compares with a plan made in the test.
+#include <doctest/doctest.h>
+
+#include <sys/wait.h>
+
+#include <algorithm>
+#include <cmath>
+#include <cstdlib>
+#include <filesystem>
+#include <fstream>
+#include <nlohmann/json.hpp>
+#include <numbers>
+#include <sstream>
+#include <string>
+#include <vector>
+
+namespace fs = std::filesystem;
+using nlohmann::json;
+
+namespace {
+
+std::string read_text(const fs::path& path) {
+  std::ifstream in(path, std::ios::binary);
+  std::ostringstream text;
+  text << in.rdbuf();
+  return text.str();
+}
+
+std::string shell_quoted(const std::string& s) {
+  std::string out = "'";
+  for (char c : s) out += c == '\'' ? std::string("'\\''") : std::string(1, c);
+  return out + "'";
+}
+
+// A fresh directory per test case for its chain files and captured output.
+struct Scratch {
+  fs::path dir;
+  Scratch() {
+    std::string name = (fs::temp_directory_path() / "peakplan_what_if_XXXXXX").string();
+    REQUIRE(mkdtemp(name.data()) != nullptr);
+    dir = name;
+  }
+  ~Scratch() {
+    std::error_code ec;
+    fs::remove_all(dir, ec);
+  }
+  std::string write(const std::string& name, const std::string& text) const {
+    const auto path = dir / name;
+    std::ofstream(path, std::ios::binary) << text;
+    return path.string();
+  }
+};
+
+struct CliRun {
+  int status = -1;
+  std::string out, err;
+};
+
+CliRun run(const Scratch& scratch, const std::vector<std::string>& args) {
+  std::string command = shell_quoted(PEAKPLAN_BINARY);
+  for (const auto& a : args) command += " " + shell_quoted(a);
+  const auto out = scratch.dir / "stdout", err = scratch.dir / "stderr";
+  command += " >" + shell_quoted(out.string()) + " 2>" + shell_quoted(err.string());
+  const int raw = std::system(command.c_str());
+  CliRun r;
+  r.status = raw != -1 && WIFEXITED(raw) ? WEXITSTATUS(raw) : -1;
+  r.out = read_text(out);
+  r.err = read_text(err);
+  return r;
+}
+
+json run_json(const Scratch& scratch, const std::vector<std::string>& args, int expected_status = 0) {
+  const auto r = run(scratch, args);
+  INFO("stderr: " << r.err);
+  REQUIRE(r.status == expected_status);
+  return json::parse(r.out);
+}
+
+// Relative closeness with an absolute floor for values that are zero (peaking, overshoot).
+bool close(double a, double b, double relative) {
+  return std::fabs(a - b) <= relative * std::max({std::fabs(a), std::fabs(b), 1e-30});
+}
+
+// Every number of `a` equals the one at the same place in `b` to `relative`; every other
+// value is equal. Reports the first difference by its JSON path.
+void check_same_json(const json& a, const json& b, double relative, const std::string& path = "") {
+  if (a.is_number() && b.is_number()) {
+    CHECK_MESSAGE(close(a.get<double>(), b.get<double>(), relative), path << ": " << a << " vs " << b);
+    return;
+  }
+  REQUIRE_MESSAGE(a.type() == b.type(), path << ": " << a << " vs " << b);
+  if (a.is_object()) {
+    REQUIRE_MESSAGE(a.size() == b.size(), path);
+    for (auto it = a.begin(); it != a.end(); ++it) {
+      REQUIRE_MESSAGE(b.contains(it.key()), path << "/" << it.key());
+      check_same_json(it.value(), b.at(it.key()), relative, path + "/" + it.key());
+    }
+  } else if (a.is_array()) {
+    REQUIRE_MESSAGE(a.size() == b.size(), path);
+    for (size_t i = 0; i < a.size(); ++i) check_same_json(a[i], b[i], relative, path + "/" + std::to_string(i));
+  } else {
+    CHECK_MESSAGE(a == b, path << ": " << a << " vs " << b);
+  }
+}
+
+// A small fixed chain, written for these tests (not a design): a shunt-peaked stage driving a
+// plain one, with a signal so that eyes are computed. `rd1` is s1's Rd as written.
+std::string two_stage_chain(const std::string& rd1, const std::string& extra = "") {
+  return R"([chain]
+name = "what-if test chain"
+[input]
+r_source = "50 ohm"
+[signal]
+bit_rate = "25 Gb/s"
+pattern = "prbs7"
+[[stage]]
+id = "s1"
+kind = "shunt"
+gm = "30 mS"
+rd = ")" + rd1 + R"("
+c_in = "20 fF"
+c_out = "10 fF"
+l = "0.2 nH"
+[[stage]]
+id = "buffer"
+kind = "plain"
+gm = "20 mS"
+rd = "60 ohm"
+c_in = "15 fF"
+c_out = "8 fF"
+c_load = "30 fF"
+)" + extra;
+}
+
+// Two plain stages whose Rd the planner chooses for the widest bandwidth at a gain target.
+std::string two_open_stages(const std::string& gain) {
+  return R"([chain]
+name = "two open stages"
+[target]
+gain = ")" + gain + R"("
+objective = "widest"
+[[stage]]
+id = "a"
+kind = "plain"
+gm = "20 mS"
+rd = "auto"
+c_in = "30 fF"
+c_out = "20 fF"
+[[stage]]
+id = "b"
+kind = "plain"
+gm = "20 mS"
+rd = "auto"
+c_in = "30 fF"
+c_out = "20 fF"
+c_load = "50 fF"
+)";
+}
+
+double chosen(const json& plan, const std::string& id, const std::string& key) {
+  for (const auto& c : plan.at("chosen"))
+    if (c.at("id") == id) return c.at("values").at(key).get<double>();
+  FAIL("no chosen values for stage " << id);
+  return 0.0;
+}
+
+const json& main_output(const json& analysis) { return analysis.at("outputs").back(); }
+
+}  // namespace
+
+TEST_CASE("what-if: --set changes exactly that value, as a hand edit of the file would") {
+  Scratch scratch;
+  const auto original = scratch.write("original.toml", two_stage_chain("100 ohm"));
+  const auto edited = scratch.write("edited.toml", two_stage_chain("80 ohm"));
+  const auto by_hand = run_json(scratch, {"analyze", edited, "--json"});
+  // Unquoted, TOML-quoted and plain-number spellings of the same value (plain numbers are SI).
+  for (const std::string set : {"s1.rd=80ohm", "s1.rd=\"80 ohm\"", "s1.rd=80"}) {
+    CAPTURE(set);
+    const auto overridden = run_json(scratch, {"analyze", original, "--json", "--set", set});
+    // Both are the same computation on the same numbers: equal to rounding (1e-12).
+    check_same_json(overridden, by_hand, 1e-12);
+  }
+  // The override did change something: s1's bandwidth differs from the file as written.
+  const auto as_written = run_json(scratch, {"analyze", original, "--json"});
+  CHECK_FALSE(close(as_written["stages"][0]["bandwidth_hz"].get<double>(),
+                    by_hand["stages"][0]["bandwidth_hz"].get<double>(), 1e-3));
+  // A table key: [input] r_source set to 0 equals a file without the source resistance.
+  std::string no_source = two_stage_chain("100 ohm");
+  no_source.replace(no_source.find("r_source = \"50 ohm\""), 19, "r_source = 0");
+  const auto ideal_drive = run_json(scratch, {"analyze", scratch.write("ideal.toml", no_source), "--json"});
+  check_same_json(run_json(scratch, {"analyze", original, "--json", "--set", "input.r_source=0ohm"}), ideal_drive, 1e-12);
+}
+
+TEST_CASE("what-if: a bad override names the override, exits 2 and prints nothing on stdout") {
+  Scratch scratch;
+  const auto chain = scratch.write("chain.toml", two_stage_chain("100 ohm"));
+  const auto bad_value = run(scratch, {"analyze", chain, "--set", "s1.rd=80x"});
+  CHECK(bad_value.status == 2);
+  CHECK(bad_value.out.empty());
+  CHECK(bad_value.err.rfind("--set s1.rd=80x: error: stage 's1': rd: ", 0) == 0);
+
+  const auto unknown_id = run(scratch, {"analyze", chain, "--set", "bufer.rd=50"});
+  CHECK(unknown_id.status == 2);
+  CHECK(unknown_id.out.empty());
+  CHECK(unknown_id.err.find("--set bufer.rd=50: error:") == 0);
+  CHECK(unknown_id.err.find("did you mean 'buffer'?") != std::string::npos);
+
+  const auto unknown_table = run(scratch, {"analyze", chain, "--set", "signl.bit_rate=10Gb/s"});
+  CHECK(unknown_table.status == 2);
+  CHECK(unknown_table.err.find("did you mean 'signal'?") != std::string::npos);
+
+  const auto unknown_key = run(scratch, {"analyze", chain, "--set", "buffer.rdd=50"});
+  CHECK(unknown_key.status == 2);
+  CHECK(unknown_key.err.find("--set buffer.rdd=50: error: stage 'buffer': unknown key 'rdd'; did you mean 'rd'?") == 0);
+
+  const auto malformed = run(scratch, {"analyze", chain, "--set", "s1rd=80"});
+  CHECK(malformed.status == 2);
+  CHECK(malformed.err.find("--set s1rd=80: error: expected ID.KEY=VALUE") == 0);
+
+  const auto unknown_lock = run(scratch, {"plan", chain, "--lock", "bufer"});
+  CHECK(unknown_lock.status == 2);
+  CHECK(unknown_lock.out.empty());
+  CHECK(unknown_lock.err.find("--lock bufer: error:") == 0);
+  CHECK(unknown_lock.err.find("did you mean 'buffer'?") != std::string::npos);
+}
+
+TEST_CASE("what-if: --lock holds the locked stage at the baseline plan while a --set moves the rest") {
+  Scratch scratch;
+  const auto chain = scratch.write("open.toml", two_open_stages("20 dB"));
+  const auto baseline = run_json(scratch, {"plan", chain, "--json"});
+  REQUIRE(baseline["status"] == "met");
+
+  // 6 dB more gain with stage a locked: a keeps the baseline's Rd to rounding (the lock
+  // writes the plan's values at full precision), b takes all of it.
+  const auto locked = run_json(scratch, {"plan", chain, "--json", "--lock", "a", "--set", "target.gain=26dB"});
+  REQUIRE(locked["status"] == "met");
+  CHECK(close(chosen(locked, "a", "rd"), chosen(baseline, "a", "rd"), 1e-12));
+  // Derived: a plain stage's DC gain is gm*Rd, and a's gain is fixed, so b's Rd must rise by
+  // the whole 6 dB, 10^(6/20) = 1.995; the widest plan sits on the gain minimum (more Rd only
+  // costs bandwidth), so the ratio is met closely (1 %).
+  CHECK(chosen(locked, "b", "rd") / chosen(baseline, "b", "rd") == doctest::Approx(std::pow(10.0, 6.0 / 20.0)).epsilon(0.01));
+  CHECK(main_output(locked)["dc_gain_db"].get<double>() >= 26.0 - 1e-6);
+
+  // Without the lock the same --set moves a too (so the lock is what held it).
+  const auto free = run_json(scratch, {"plan", chain, "--json", "--set", "target.gain=26dB"});
+  CHECK_FALSE(close(chosen(free, "a", "rd"), chosen(baseline, "a", "rd"), 0.01));
+
+  // A --set on a locked stage wins over the lock for that key.
+  const auto overridden = run_json(scratch, {"plan", chain, "--json", "--lock", "a", "--set", "a.rd=150ohm"});
+  CHECK(chosen(overridden, "a", "rd") == doctest::Approx(150.0).epsilon(1e-12));
+}
+
+TEST_CASE("what-if: compare's deltas are the differences of the two analyses; a stage only in B is shown") {
+  Scratch scratch;
+  const auto a = scratch.write("a.toml", two_stage_chain("100 ohm"));
+  const auto b = scratch.write("b.toml", two_stage_chain("80 ohm", R"([[stage]]
+id = "extra"
+kind = "plain"
+gm = "20 mS"
+rd = "50 ohm"
+c_in = "10 fF"
+c_out = "5 fF"
+)"));
+  const auto analysis_a = run_json(scratch, {"analyze", a, "--json"});
+  const auto analysis_b = run_json(scratch, {"analyze", b, "--json"});
+  const auto doc = run_json(scratch, {"compare", a, b, "--json"});
+
+  CHECK(doc["a"]["planned"] == false);
+  CHECK(doc["b"]["main_output"] == "extra");
+  const auto& oa = main_output(analysis_a);
+  const auto& ob = main_output(analysis_b);
+  for (const std::string key : {"dc_gain_db", "bandwidth_hz", "peaking_db", "group_delay_s", "group_delay_ripple_s",
+                                "overshoot_pct", "rise_time_s"}) {
+    CAPTURE(key);
+    const auto& m = doc["metrics"][key];
+    CHECK(close(m["a"].get<double>(), oa[key].get<double>(), 1e-9));
+    CHECK(close(m["b"].get<double>(), ob[key].get<double>(), 1e-9));
+    const double expected = ob[key].get<double>() - oa[key].get<double>();
+    CHECK(std::fabs(m["delta"].get<double>() - expected) <= 1e-9 * std::max(std::fabs(expected), 1e-30));
+  }
+  for (const std::string key : {"pda_height", "prbs_height", "prbs_width_ui"}) {
+    CAPTURE(key);
+    const double expected = ob["eye"][key].get<double>() - oa["eye"][key].get<double>();
+    CHECK(std::fabs(doc["metrics"][key]["delta"].get<double>() - expected) <= 1e-9 * std::max(std::fabs(expected), 1e-30));
+  }
+  // Relative change of the bandwidth: 100 (B - A) / A.
+  const double bw_a = oa["bandwidth_hz"].get<double>(), bw_b = ob["bandwidth_hz"].get<double>();
+  CHECK(close(doc["metrics"]["bandwidth_hz"]["relative_pct"].get<double>(), 100.0 * (bw_b - bw_a) / bw_a, 1e-9));
+
+  REQUIRE(doc["stages"].size() == 3);
+  CHECK(doc["stages"][0]["id"] == "s1");
+  CHECK(doc["stages"][0]["in"] == "both");
+  CHECK(close(doc["stages"][0]["delta"]["rd"]["delta"].get<double>(), -20.0, 1e-12));
+  const double stage_bw_delta = analysis_b["stages"][0]["bandwidth_hz"].get<double>() -
+                                analysis_a["stages"][0]["bandwidth_hz"].get<double>();
+  CHECK(close(doc["stages"][0]["delta"]["bandwidth_hz"]["delta"].get<double>(), stage_bw_delta, 1e-9));
+  CHECK(doc["stages"][2]["id"] == "extra");
+  CHECK(doc["stages"][2]["in"] == "b_only");
+  CHECK(doc["stages"][2]["a"].is_null());
+  CHECK(doc["stages"][2]["b"]["kind"] == "plain");
+
+  const auto text = run(scratch, {"compare", a, b});
+  CHECK(text.status == 0);
+  CHECK(text.out.find("extra    only in B: plain") != std::string::npos);
+}
+
+TEST_CASE("what-if: compare plans a file with open values first and says so") {
+  Scratch scratch;
+  const auto fixed = scratch.write("fixed.toml", two_stage_chain("100 ohm"));
+  const auto open = scratch.write("open.toml", two_open_stages("20 dB"));
+  const auto plan = run_json(scratch, {"plan", open, "--json"});
+  const auto doc = run_json(scratch, {"compare", fixed, open, "--json"});
+  CHECK(doc["b"]["planned"] == true);
+  CHECK(doc["b"]["status"] == plan["status"]);
+  CHECK(close(doc["metrics"]["bandwidth_hz"]["b"].get<double>(), main_output(plan)["bandwidth_hz"].get<double>(), 1e-12));
+  const auto text = run(scratch, {"compare", fixed, open});
+  CHECK(text.out.find("planned first") != std::string::npos);
+}
+
+TEST_CASE("what-if: every sweep row equals analyze --set at that point") {
+  Scratch scratch;
+  const auto chain = scratch.write("chain.toml", two_stage_chain("100 ohm"));
+  const auto sweep = run_json(scratch, {"sweep", chain, "--vary", "s1.rd=60ohm:140ohm:3", "--format", "json"});
+  REQUIRE(sweep["rows"].size() == 3);
+  const double expected_values[] = {60.0, 100.0, 140.0};  // linear from START to STOP
+  for (size_t i = 0; i < 3; ++i) {
+    const auto& row = sweep["rows"][i];
+    CHECK(row["value"].get<double>() == doctest::Approx(expected_values[i]).epsilon(1e-12));
+    char value[64];
+    std::snprintf(value, sizeof value, "%.17g", row["value"].get<double>());
+    const auto analysis = run_json(scratch, {"analyze", chain, "--json", "--set", std::string("s1.rd=") + value});
+    const auto& out = main_output(analysis);
+    for (const std::string key : {"dc_gain_db", "bandwidth_hz", "peaking_db", "overshoot_pct", "group_delay_ripple_s"}) {
+      CAPTURE(key);
+      CHECK(close(row[key].get<double>(), out[key].get<double>(), 1e-12));
+    }
+    CHECK(close(row["prbs_height"].get<double>(), out["eye"]["prbs_height"].get<double>(), 1e-12));
+  }
+
+  const auto csv = run(scratch, {"sweep", chain, "--vary", "s1.rd=60ohm:140ohm:5", "--format", "csv"});
+  REQUIRE(csv.status == 0);
+  std::istringstream lines(csv.out);
+  std::string header, line;
+  std::getline(lines, header);
+  CHECK(header == "s1.rd,dc_gain_db,bandwidth_hz,peaking_db,overshoot_pct,group_delay_ripple_s,prbs_height");
+  int rows = 0;
+  while (std::getline(lines, line)) {
+    ++rows;
+    CHECK(std::count(line.begin(), line.end(), ',') == std::count(header.begin(), header.end(), ','));
+  }
+  CHECK(rows == 5);
+}
+
+TEST_CASE("what-if: a swept single plain stage's bandwidth follows 1/(2 pi Rd C)") {
+  Scratch scratch;
+  const auto chain = scratch.write("one.toml", R"([chain]
+name = "one plain stage"
+[[stage]]
+id = "s1"
+kind = "plain"
+gm = "20 mS"
+rd = "100 ohm"
+c_load = "100 fF"
+)");
+  const auto sweep = run_json(scratch, {"sweep", chain, "--vary", "s1.rd=50:200:4", "--format", "json"});
+  REQUIRE(sweep["rows"].size() == 4);
+  for (const auto& row : sweep["rows"]) {
+    const double rd = row["value"].get<double>();
+    // Derived: gm into Rd || C is the single pole 1/(Rd C); |H| = gm Rd / sqrt(1 + (w Rd C)^2)
+    // falls 3 dB at f = 1/(2 pi Rd C), and the DC gain is gm Rd. The bandwidth is solved on the
+    // exact rational (measured error below 1e-14), so 1e-9 is generous.
+    CHECK(close(row["bandwidth_hz"].get<double>(), 1.0 / (2.0 * std::numbers::pi * rd * 100e-15), 1e-9));
+    CHECK(row["dc_gain_db"].get<double>() == doctest::Approx(20.0 * std::log10(0.02 * rd)).epsilon(1e-12));
+  }
+}
+
+TEST_CASE("what-if: sweep --replan re-plans every point and reports status and the open values") {
+  Scratch scratch;
+  const auto chain = scratch.write("open.toml", two_open_stages("20 dB"));
+  const auto sweep =
+      run_json(scratch, {"sweep", chain, "--vary", "target.gain=14dB:26dB:3", "--replan", "--format", "json"});
+  REQUIRE(sweep["rows"].size() == 3);
+  REQUIRE(sweep["open"].size() == 2);
+  CHECK(sweep["open"][0]["id"] == "a");
+  CHECK(sweep["open"][0]["key"] == "rd");
+  for (const auto& row : sweep["rows"]) {
+    const double gain = row["value"].get<double>();
+    // Each point equals a plan of the file with the gain set there.
+    char value[64];
+    std::snprintf(value, sizeof value, "target.gain=%.17g", gain);
+    const auto plan = run_json(scratch, {"plan", chain, "--json", "--set", value});
+    CHECK(row["status"] == plan["status"]);
+    CHECK(close(row["chosen"]["a.rd"].get<double>(), chosen(plan, "a", "rd"), 1e-12));
+    CHECK(close(row["chosen"]["b.rd"].get<double>(), chosen(plan, "b", "rd"), 1e-12));
+    CHECK(close(row["bandwidth_hz"].get<double>(), main_output(plan)["bandwidth_hz"].get<double>(), 1e-12));
+    // Derived: two plain stages give gm^2 Rd_a Rd_b, and the widest plan sits on the gain minimum.
+    CHECK(20.0 * std::log10(0.02 * 0.02 * row["chosen"]["a.rd"].get<double>() * row["chosen"]["b.rd"].get<double>()) ==
+          doctest::Approx(gain).epsilon(1e-3));
+  }
+  // Without --replan the open values are planned once and held while the key varies.
+  const auto held = run_json(scratch, {"sweep", chain, "--vary", "b.rd=100ohm:200ohm:2", "--format", "json"});
+  CHECK(held["held_plan"] == "met");
+  CHECK(held["rows"][1]["dc_gain_db"].get<double>() - held["rows"][0]["dc_gain_db"].get<double>() ==
+        doctest::Approx(20.0 * std::log10(2.0)).epsilon(1e-9));  // derived: gain is linear in b's Rd
+}
+
+TEST_CASE("what-if: a malformed --vary is an input error naming it") {
+  Scratch scratch;
+  const auto chain = scratch.write("chain.toml", two_stage_chain("100 ohm"));
+  const std::pair<const char*, const char*> cases[] = {
+      {"s1.rd=60ohm:140ohm", "is not START:STOP:N"},
+      {"s1.rd=60ohm:140ohm:x", "N must be a whole number of points"},
+      {"s1.rd=60ohm:140ohm:1", "N must be at least 2"},
+      {"s1.kind=1:2:3", "is not a number that can be swept"},
+      {"s1.rd=60x:140ohm:3", "stage 's1': rd: unknown unit \"x\""},
+      {"s1.rd=auto:140ohm:3", "START 'auto' is not a fixed number"},
+      {"s9.rd=60:140:3", "did you mean 's1'?"},
+  };
+  for (const auto& [vary, message] : cases) {
+    CAPTURE(vary);
+    const auto r = run(scratch, {"sweep", chain, "--vary", vary});
+    CHECK(r.status == 2);
+    CHECK(r.out.empty());
+    CHECK(r.err.find(std::string("--vary ") + vary + ": error: ") == 0);
+    CHECK(r.err.find(message) != std::string::npos);
+  }
+}
