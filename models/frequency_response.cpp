@@ -92,21 +92,33 @@ SampledResponse sample_rational(const Cascade& cascade, const FrequencyGrid& gri
   return r;
 }
 
-std::pair<double, double> natural_span(const Cascade& cascade, double margin_decades) {
-  double lo = std::numeric_limits<double>::infinity(), hi = 0.0;
+namespace {
+
+// |s| / 2 pi of every finite, non-zero pole and zero, sorted.
+std::vector<double> root_frequencies(const Cascade& cascade) {
+  std::vector<double> f;
   auto include = [&](const std::vector<std::complex<double>>& roots) {
     for (const auto& r : roots) {
-      const double f = std::abs(r) / kTwoPi;
-      if (f <= 0.0 || !std::isfinite(f)) continue;
-      lo = std::min(lo, f);
-      hi = std::max(hi, f);
+      const double x = std::abs(r) / kTwoPi;
+      if (x > 0.0 && std::isfinite(x)) f.push_back(x);
     }
   };
   include(cascade.poles());
   include(cascade.zeros());
-  if (hi == 0.0) return {1e6, 1e12};  // no dynamics at all: a pure gain
+  std::sort(f.begin(), f.end());
+  return f;
+}
+
+std::pair<double, double> span_of(const std::vector<double>& roots_hz, double margin_decades) {
+  if (roots_hz.empty()) return {1e6, 1e12};  // no dynamics at all: a pure gain
   const double margin = std::pow(10.0, margin_decades);
-  return {lo / margin, hi * margin};
+  return {roots_hz.front() / margin, roots_hz.back() * margin};
+}
+
+}  // namespace
+
+std::pair<double, double> natural_span(const Cascade& cascade, double margin_decades) {
+  return span_of(root_frequencies(cascade), margin_decades);
 }
 
 double group_delay(const Cascade& cascade, double f_hz) {
@@ -120,20 +132,17 @@ namespace {
 // pole pair a peak, narrower than any grid step could promise to catch; sampling at each root's
 // |s| puts a scan point where the notch or peak is, so the first -3 dB crossing and the peak are
 // never missed between grid points.
-std::vector<double> scan_points(const Cascade& cascade, double f_lo, double u_end, int points) {
+std::vector<double> scan_points(const std::vector<double>& roots_hz, double f_lo, double u_end, int points) {
   std::vector<double> us(static_cast<size_t>(points));
   for (int i = 0; i < points; ++i) us[static_cast<size_t>(i)] = u_end * i / (points - 1);
-  auto include = [&](const std::vector<std::complex<double>>& roots) {
-    for (const auto& r : roots) {
-      const double f = std::abs(r) / kTwoPi;
-      if (!(f > f_lo)) continue;
-      const double u = std::log(f / f_lo);
-      if (u < u_end) us.push_back(u);
-    }
-  };
-  include(cascade.poles());
-  include(cascade.zeros());
-  std::sort(us.begin(), us.end());
+  const auto grid_end = static_cast<std::ptrdiff_t>(us.size());
+  for (double f : roots_hz) {
+    if (!(f > f_lo)) continue;
+    const double u = std::log(f / f_lo);
+    if (u < u_end) us.push_back(u);
+  }
+  // Both parts are sorted already: merge rather than sort.
+  std::inplace_merge(us.begin(), us.begin() + grid_end, us.end());
   us.erase(std::unique(us.begin(), us.end()), us.end());
   return us;
 }
@@ -147,11 +156,12 @@ FrequencyMetrics frequency_metrics(const Cascade& cascade, double ripple_band_hz
   const double h0 = std::fabs(m.dc_gain);
   if (h0 == 0.0 || !std::isfinite(h0)) return m;
 
-  const auto [f_lo, f_hi] = natural_span(cascade, scan.margin_decades);
+  const auto roots_hz = root_frequencies(cascade);
+  const auto [f_lo, f_hi] = span_of(roots_hz, scan.margin_decades);
   const int points = std::max(2, static_cast<int>(std::log10(f_hi / f_lo) * scan.per_decade));
   auto freq = [&](double u) { return f_lo * std::exp(u); };
   auto mag = [&](double u) { return cascade.gain_at(kTwoPi * freq(u)); };
-  const auto us = scan_points(cascade, f_lo, std::log(f_hi / f_lo), points);
+  const auto us = scan_points(roots_hz, f_lo, std::log(f_hi / f_lo), points);
   const size_t n_scan = us.size();
 
   // Bandwidth: the first fall below h0/sqrt(2), bracketed by the scan, then bisection.
@@ -223,7 +233,7 @@ FrequencyMetrics frequency_metrics(const Cascade& cascade, double ripple_band_hz
     auto tau = [&](double u) { return group_delay(cascade, freq(u)); };
     const double u_end = std::log(band / f_lo);
     const double step = std::log(f_hi / f_lo) / (points - 1);
-    const auto ts = scan_points(cascade, f_lo, u_end, std::max(3, static_cast<int>(u_end / step) + 2));
+    const auto ts = scan_points(roots_hz, f_lo, u_end, std::max(3, static_cast<int>(u_end / step) + 2));
     const size_t n = ts.size();
     std::vector<double> taus(n);
     for (size_t i = 0; i < n; ++i) taus[i] = tau(ts[i]);

@@ -137,7 +137,8 @@ std::optional<std::vector<GraphStage>> build_stage_graph(const ChainSpec& spec, 
   return stages;
 }
 
-void apply_designs(Chain& chain, const ChainSpec& spec, const std::vector<GraphStage>& graph) {
+void apply_designs(Chain& chain, const ChainSpec& spec, const std::vector<GraphStage>& graph,
+                   const ScanResolution& scan) {
   // Copies of a counted stage are identical: each is resolved as the first copy is, against
   // the first copy's load (the copies before the last all drive another copy).
   std::vector<int> first_copy(spec.stages.size(), -1);
@@ -177,7 +178,7 @@ void apply_designs(Chain& chain, const ChainSpec& spec, const std::vector<GraphS
                                       : c.kind == LoadKind::tcoil && !has_l &&
                                             (!s.find("r_l1") || !s.find("r_l2")));
     if (needs_loss) {
-      const auto bw = frequency_metrics(Cascade({build_stage_system(c).rational()})).bandwidth_hz;
+      const auto bw = frequency_metrics(Cascade({build_stage_system(c).rational()}), not_found, scan).bandwidth_hz;
       if (std::isfinite(bw)) {
         if (c.kind == LoadKind::tcoil) {
           if (!s.find("r_l1")) c.r_l1 = loss_resistance(c.l1, *q, bw);

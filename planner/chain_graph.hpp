@@ -41,7 +41,10 @@ Chain assemble_chain(const ChainSpec& spec, const std::vector<GraphStage>& graph
 
 // Resolves the normalised designs and Q-derived losses of a chain whose element values and
 // node capacitances are otherwise set (shared by resolve_chain and the planner).
-void apply_designs(Chain& chain, const ChainSpec& spec, const std::vector<GraphStage>& graph);
+// `scan` is how finely a stage's own bandwidth (for Q-derived losses) is found; a planner's
+// search may pass a coarser one.
+void apply_designs(Chain& chain, const ChainSpec& spec, const std::vector<GraphStage>& graph,
+                   const ScanResolution& scan = {});
 
 }  // namespace peakplan
 

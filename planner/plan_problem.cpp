@@ -36,6 +36,11 @@ const std::vector<std::string_view>& plannable_keys(LoadKind kind) {
   return kind == LoadKind::tcoil ? tcoil : kind == LoadKind::plain ? plain : peaked;
 }
 
+// Two decades beyond the outermost roots at 30 points per decade: the scan includes every root's
+// frequency, so a notch or a sharp peak is caught at any density; the low side must still reach
+// far, because a barely peaking response has its faint maximum far below its roots.
+ScanResolution search_scan() { return {2.0, 30}; }
+
 bool needs_step(const ChainSpec& spec) {
   return spec.limits.overshoot.has_value() || spec.target.objective == "flattest";
 }
@@ -150,7 +155,7 @@ double Problem::value(const std::vector<double>& u, size_t stage, std::string_vi
   return a && a->is_fixed() ? a->value : fallback;
 }
 
-Chain Problem::build(const std::vector<double>& u) const {
+Chain Problem::build(const std::vector<double>& u, Fidelity fidelity) const {
   std::vector<StageCircuit> circuits(spec_.stages.size());
   std::vector<double> c_in(spec_.stages.size()), c_load(spec_.stages.size());
   for (size_t i = 0; i < spec_.stages.size(); ++i) {
@@ -181,20 +186,16 @@ Chain Problem::build(const std::vector<double>& u) const {
     c.r_l2 = value(u, i, "r_l2", r_l);
   }
   Chain chain = assemble_chain(spec_, graph_, circuits, c_in, c_load);
-  apply_designs(chain, spec_, graph_);
+  apply_designs(chain, spec_, graph_, fidelity == Fidelity::final ? ScanResolution{} : search_scan());
   return chain;
 }
 
 Evaluation Problem::evaluate(const std::vector<double>& u, Fidelity fidelity) const {
-  const Chain chain = build(u);
+  const Chain chain = build(u, fidelity);
   Evaluation e;
   const auto cascade = output_cascade(chain, chain.outputs().back());
   const double band = spec_.limits.ripple_band.value_or(not_found);
-  // Two decades beyond the outermost roots at 30 points per decade: the scan includes every
-  // root's frequency, so a notch or a sharp peak is caught at any density; the low side must
-  // still reach far, because a barely peaking response has its faint maximum far below its roots.
-  e.f = fidelity == Fidelity::final ? frequency_metrics(cascade, band)
-                                    : frequency_metrics(cascade, band, ScanResolution{2.0, 30});
+  e.f = frequency_metrics(cascade, band, fidelity == Fidelity::final ? ScanResolution{} : search_scan());
   if (fidelity == Fidelity::final || needs_step(spec_)) {
     const auto axis = fidelity == Fidelity::final ? choose_time_axis(cascade, e.f.bandwidth_hz)
                                                   : search_time_axis(cascade, e.f.bandwidth_hz);

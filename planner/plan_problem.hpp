@@ -57,7 +57,7 @@ class Problem {
   const Combination& combination() const { return combo_; }
   const std::vector<GraphStage>& graph() const { return graph_; }
 
-  Chain build(const std::vector<double>& u) const;
+  Chain build(const std::vector<double>& u, Fidelity fidelity = Fidelity::final) const;
   Evaluation evaluate(const std::vector<double>& u, Fidelity fidelity) const;
   // Every value from the published designs at an equal gain per stage (the design space's seed).
   std::vector<double> seed() const { return expand(design_seed()); }

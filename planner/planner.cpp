@@ -159,7 +159,7 @@ class Search {
   void set_stage(std::string stage) { stage_ = std::move(stage); }
   void report() const {
     if (options_.progress)
-      options_.progress({evaluations_, seconds(), stage_, best_.score.violation <= 1e-12, best_.score.objective});
+      options_.progress({evaluations_, seconds(), stage_, best_.score.violation <= 1e-6, best_.score.objective});
   }
 
  private:
@@ -182,30 +182,25 @@ std::vector<double> upper_units(const Problem& p) {
   return hi;
 }
 
-// The global stage for one combination: multi-start in the design space.
-Candidate explore_design_space(Search& search, const Problem& p, size_t index, const PlanOptions& options,
+// The global stage for one combination: a multi-start in the design space, from the closed-form
+// seed (start 0) and fixed-seed random points (starts first .. last-1).
+Candidate explore_design_space(Search& search, const Problem& p, Candidate best, int first, int last,
                                std::mt19937& random) {
   const auto& lo = p.design_lower();
   const auto& hi = p.design_upper();
   const auto expand = [&p](const std::vector<double>& z) { return p.expand(z); };
   const int budget = 25 * static_cast<int>(p.design_dimensions() + 2);
-  Candidate best{index, {}, {}};
-  std::vector<double> best_z;
-  const int starts = p.design_dimensions() == 0 ? 1 : options.starts;
-  for (int start = 0; start < starts; ++start) {
+  if (p.design_dimensions() == 0) last = std::min(last, 1);
+  for (int start = first; start < last; ++start) {
     auto z = p.design_seed();
     if (start > 0)
       for (size_t d = 0; d < z.size(); ++d) {
         std::uniform_real_distribution<double> pick(lo[d], hi[d]);
         z[d] = start % 2 ? pick(random) : 0.5 * (z[d] + pick(random));
       }
-    const Score s = search.minimise(p, index, z, lo, hi, 0.2, budget, Fidelity::search, expand);
-    if (s.better_than(best.score)) {
-      best.score = s;
-      best_z = z;
-    }
+    const Score s = search.minimise(p, best.problem, z, lo, hi, 0.2, budget, Fidelity::search, expand);
+    if (s.better_than(best.score)) best = {best.problem, p.expand(z), s};
   }
-  best.u = p.expand(best_z);
   return best;
 }
 
@@ -301,11 +296,17 @@ std::optional<Plan> plan_chain(const ChainSpec& spec, Diagnostics& diagnostics, 
   Search search(spec, options);
   std::mt19937 random(options.seed);
 
-  // 1. Global: every combination in its design space.
+  // 1. Global, by successive halving: every combination from its closed-form seed, then the
+  //    random starts for the most promising few only.
+  auto by_score = [](const Candidate& a, const Candidate& b) { return a.score.better_than(b.score); };
   std::vector<Candidate> explored;
-  for (size_t i = 0; i < problems.size(); ++i) explored.push_back(explore_design_space(search, problems[i], i, options, random));
-  std::stable_sort(explored.begin(), explored.end(),
-                   [](const Candidate& a, const Candidate& b) { return a.score.better_than(b.score); });
+  for (size_t i = 0; i < problems.size(); ++i)
+    explored.push_back(explore_design_space(search, problems[i], Candidate{i, {}, {}}, 0, 1, random));
+  std::stable_sort(explored.begin(), explored.end(), by_score);
+  const size_t kept = std::min(explored.size(), size_t{3});
+  for (size_t r = 0; r < kept; ++r)
+    explored[r] = explore_design_space(search, problems[explored[r].problem], explored[r], 1, options.starts, random);
+  std::stable_sort(explored.begin(), explored.begin() + static_cast<std::ptrdiff_t>(kept), by_score);
 
   // 2. Local: the most promising combinations in the full space.
   search.set_stage("full space");

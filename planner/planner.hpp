@@ -37,7 +37,7 @@ struct PlanProgress {
 };
 
 struct PlanOptions {
-  int starts = 6;             // per combination in the design space: the seed plus random points
+  int starts = 4;             // per combination in the design space: the seed plus random points
   int refined = 2;            // combinations refined in the full space
   unsigned seed = 20261202;
   // Called every `progress_every` evaluations and once at the end; may be empty.

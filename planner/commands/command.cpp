@@ -2,7 +2,9 @@
 
 #include <cstdio>
 #include <filesystem>
+#include <fmt/format.h>
 #include <fstream>
+#include <unistd.h>
 
 namespace peakplan::cli {
 
@@ -33,6 +35,27 @@ bool write_whole_file(const std::string& path, const std::string& text, std::str
     return false;
   }
   return true;
+}
+
+PlanProgressLine::PlanProgressLine()
+    : terminal_(isatty(fileno(stderr)) == 1), shown_(std::make_shared<bool>(false)) {}
+
+PlanProgressLine::~PlanProgressLine() {
+  if (*shown_) std::fputs("\r\033[K", stderr);
+}
+
+PlanOptions PlanProgressLine::options() const {
+  PlanOptions options;
+  if (!terminal_) return options;
+  options.progress = [shown = shown_](const PlanProgress& p) {
+    if (p.seconds < 1.0) return;
+    const auto line = fmt::format("\rplanning: {} evaluations, {:.1f} s, {} search, best so far {}\033[K",
+                                  p.evaluations, p.seconds, p.stage, p.feasible ? "meets every limit" : "misses a limit");
+    std::fputs(line.c_str(), stderr);
+    std::fflush(stderr);
+    *shown = true;
+  };
+  return options;
 }
 
 bool same_file(const std::string& output, const std::string& input) {

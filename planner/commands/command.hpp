@@ -4,7 +4,10 @@
 
 #include <CLI/CLI.hpp>
 #include <functional>
+#include <memory>
 #include <string>
+
+#include "planner/planner.hpp"
 
 namespace peakplan::cli {
 
@@ -22,6 +25,21 @@ void print(const std::string& text);
 
 // Writes `text` to `path` whole or not at all: a temporary file beside it, then a rename.
 bool write_whole_file(const std::string& path, const std::string& text, std::string& error);
+
+// A one-line progress display of a running plan on stderr, shown only when stderr is a terminal
+// and only once the plan has run for a second; the line is cleared when the display goes.
+class PlanProgressLine {
+ public:
+  PlanProgressLine();
+  ~PlanProgressLine();
+  PlanProgressLine(const PlanProgressLine&) = delete;
+  PlanProgressLine& operator=(const PlanProgressLine&) = delete;
+  PlanOptions options() const;  // default plan options reporting to this line
+
+ private:
+  bool terminal_ = false;
+  std::shared_ptr<bool> shown_;
+};
 
 // True when `output` names the same file as `input` (so writing it would overwrite the input).
 bool same_file(const std::string& output, const std::string& input);

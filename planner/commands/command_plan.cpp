@@ -26,7 +26,11 @@ int run_plan(const PlanArgs& args) {
   }
   const auto what_if = load_what_if(args.chain, args.what_if, diagnostics);
   const auto* spec = what_if ? &what_if->spec : nullptr;
-  const auto plan = spec ? plan_chain(*spec, diagnostics) : std::nullopt;
+  std::optional<Plan> plan;
+  if (spec) {
+    const PlanProgressLine progress;
+    plan = plan_chain(*spec, diagnostics, progress.options());
+  }
   if (!plan) {
     std::cerr << diagnostics.format();
     return bad_input;

@@ -52,7 +52,8 @@ int run_report(const ReportArgs& args) {
   std::optional<Chain> before_chain;
   std::optional<ChainAnalysis> before_analysis;
   if (args.plan) {
-    plan = plan_chain(*spec, diagnostics);
+    const PlanProgressLine progress;
+    plan = plan_chain(*spec, diagnostics, progress.options());
     if (!plan) {
       std::cerr << diagnostics.format();
       return bad_input;
