@@ -134,6 +134,11 @@ nlohmann::json analysis_json(const Chain& chain, const ChainAnalysis& analysis, 
                                    : nlohmann::json(chain.stages[static_cast<size_t>(stage.driver)].id);
     put_metrics(j, s.alone);
     j["values"] = stage_values_json(stage);
+    const auto& node = s.cumulative.frequency;
+    j["cumulative"] = {{"dc_gain_db", number(to_db(node.dc_gain))},
+                       {"bandwidth_hz", number(node.bandwidth_hz)},
+                       {"peaking_db", number(node.peaking_db)},
+                       {"group_delay_s", number(node.group_delay_s)}};
     if (s.design_check) {
       const auto& d = *s.design_check;
       j["design_check"] = {{"design", d.label},
