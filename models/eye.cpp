@@ -5,6 +5,7 @@
 #include <numbers>
 #include <stdexcept>
 
+#include "models/eye_overlay.hpp"
 #include "models/step_response.hpp"
 
 namespace peakplan {
@@ -28,13 +29,7 @@ int centre_of_best(F&& f, int first, int last) {
 // its ends found by linear interpolation between the last open and first closed sample.
 template <class F>
 double open_span(F&& f, int centre, int first, int last) {
-  if (!(f(centre) > 0.0)) return 0.0;
-  int l = centre;
-  while (l - 1 >= first && f(l - 1) > 0.0) --l;
-  int r = centre;
-  while (r + 1 <= last && f(r + 1) > 0.0) ++r;
-  const double left = l - 1 >= first ? (l - 1) + (-f(l - 1)) / (f(l) - f(l - 1)) : first;
-  const double right = r + 1 <= last ? r + f(r) / (f(r) - f(r + 1)) : last;
+  const auto [left, right] = open_ends(f, centre, first, last);
   return right - left;
 }
 
@@ -137,75 +132,19 @@ PeakDistortion peak_distortion(const PulseResponse& pulse, Modulation modulation
 PrbsEye prbs_eye(const PulseResponse& pulse, const Signal& signal) {
   const auto pda = peak_distortion(pulse, signal.modulation);
   const int n = pulse.steps_per_ui;
-  const long span = pulse.ui_count;
-  const long m = pda.main_index;
-  const long ref = pda.phase_index;
   const bool pam4 = signal.modulation == Modulation::pam4;
-  const int levels = pam4 ? 4 : 2;
-  const int eyes = levels - 1;
+  const PatternOverlay overlay(pulse, signal, pda);
+  const OverlayEnvelope envelope(overlay);
+  const int eyes = overlay.eye_count();
 
-  const std::uint64_t period = prbs_period(signal.pattern);
   PrbsEye r;
   r.modulation = signal.modulation;
-  r.pattern_truncated = period > max_overlay_symbols;
-  const long count = static_cast<long>(r.pattern_truncated ? max_overlay_symbols : period);
-  // Truncated patterns start from the register's seed; their first `span` symbols of history
-  // are simulated and discarded. Periodic ones wrap: the exact periodic steady state.
-  const long n0 = r.pattern_truncated ? span + 2 : 0;
-  const long generated = r.pattern_truncated ? n0 + count + m + 3 : count;
-  const auto bits = prbs_bits(signal.pattern, static_cast<size_t>(pam4 ? 2 * generated : generated));
-  const auto symbol = pam4 ? pam4_levels(bits) : nrz_levels(bits);
-  std::vector<std::uint8_t> level(symbol.size());
-  for (size_t i = 0; i < symbol.size(); ++i)
-    level[i] = static_cast<std::uint8_t>(std::lround(symbol[i] * eyes));
-  auto index = [&](long i) {
-    return static_cast<size_t>(r.pattern_truncated ? i : ((i % count) + count) % count);
-  };
-  r.symbols_overlaid = static_cast<std::uint64_t>(count);
-  r.settling_symbols = r.pattern_truncated
-                           ? static_cast<std::uint64_t>(n0)
-                           : static_cast<std::uint64_t>(std::max<long>(1, (span + count - 1) / count) * count);
+  r.pattern_truncated = overlay.truncated();
+  r.symbols_overlaid = static_cast<std::uint64_t>(overlay.count());
+  r.settling_symbols = overlay.settling_symbols();
 
-  // Blocks of one UI; block b holds t in [b*UI, (b+1)*UI). Symbol k's pulse starts in block k,
-  // its sampling instant is in block k + m, and its trace spans the block either side.
-  const long b0 = n0 + m - 1;
-  const long b1 = n0 + count + m + 2;
-  std::vector<double> w(static_cast<size_t>((b1 - b0) * n), 0.0);
-  for (long b = b0; b < b1; ++b) {
-    double* out = w.data() + (b - b0) * n;
-    for (long j = 0; j < span; ++j) {
-      const double a = symbol[index(b - j)];
-      if (a == 0.0) continue;
-      const double* pj = pulse.p.data() + j * n;
-      for (int k = 0; k < n; ++k) out[k] += a * pj[k];
-    }
-  }
-
-  // Per level, the lowest and highest trace at every offset in [-UI, UI].
-  const int offsets = 2 * n + 1;
-  std::vector<double> lo(static_cast<size_t>(levels * offsets), std::numeric_limits<double>::infinity());
-  std::vector<double> hi(static_cast<size_t>(levels * offsets), -std::numeric_limits<double>::infinity());
-  for (long k = n0; k < n0 + count; ++k) {
-    const int l = level[index(k)];
-    const double* centre = w.data() + ((k + m - b0) * n + ref);
-    double* lo_l = lo.data() + l * offsets;
-    double* hi_l = hi.data() + l * offsets;
-    for (int o = -n; o <= n; ++o) {
-      const double v = centre[o];
-      lo_l[o + n] = std::min(lo_l[o + n], v);
-      hi_l[o + n] = std::max(hi_l[o + n], v);
-    }
-  }
-  const double scale = eyes;  // an eye's opening as a fraction of its ideal 1/eyes
-  auto eye_height = [&](int e, int o) {
-    return scale * (lo[static_cast<size_t>((e + 1) * offsets + o + n)] -
-                    hi[static_cast<size_t>(e * offsets + o + n)]);
-  };
-  auto eye_margin = [&](int e, int o) {
-    const double threshold = (2.0 * e + 1.0) / (2.0 * eyes);
-    return scale * std::min(lo[static_cast<size_t>((e + 1) * offsets + o + n)] - threshold,
-                            threshold - hi[static_cast<size_t>(e * offsets + o + n)]);
-  };
+  auto eye_height = [&](int e, int o) { return envelope.height(e, o); };
+  auto eye_margin = [&](int e, int o) { return envelope.margin(e, o); };
   auto opening = [&](auto&& height, auto&& margin) {
     EyeOpening e;
     const int best = centre_of_best(height, -n / 2, n / 2);
@@ -231,16 +170,17 @@ PrbsEye prbs_eye(const PulseResponse& pulse, const Signal& signal) {
   r.sample_time_s = pda.sample_time_s + r.eye.best_offset_s;
 
   if (!pam4) {
-    // Symbols n0 .. n0+K-1 own the boundaries (k-1, k) for k in (n0, n0+K]; their edges lie
+    // Overlaid symbols 0 .. K-1 own the boundaries (i-1, i) for i in (0, K]; their edges lie
     // between consecutive sampling instants, where the crossings are looked for.
+    const long count = overlay.count();
     const long boundaries = r.pattern_truncated ? count - 1 : count;
-    for (long k = n0 + 1; k <= n0 + boundaries; ++k)
-      if (level[index(k)] != level[index(k - 1)]) ++r.transitions;
-    const long g_start = (n0 + m) * n + ref, g_end = (n0 + boundaries + m) * n + ref;
-    const double edge = ref + n / 2.0;  // nominal edge phase: half a UI from the sampling phase
+    for (long i = 1; i <= boundaries; ++i)
+      if (overlay.level(i) != overlay.level(i - 1)) ++r.transitions;
+    const long g_start = overlay.sampling_index(0), g_end = overlay.sampling_index(boundaries);
+    const double edge = pda.phase_index + n / 2.0;  // nominal edge phase: half a UI from the sampling phase
     double earliest = std::numeric_limits<double>::infinity(), latest = -earliest;
     for (long g = g_start; g < g_end; ++g) {
-      const double y0 = w[static_cast<size_t>(g - b0 * n)], y1 = w[static_cast<size_t>(g + 1 - b0 * n)];
+      const double y0 = overlay.sample(g), y1 = overlay.sample(g + 1);
       if ((y0 >= 0.5) == (y1 >= 0.5)) continue;
       ++r.crossings;
       const double t = g + (0.5 - y0) / (y1 - y0);

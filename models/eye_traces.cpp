@@ -2,114 +2,12 @@
 
 #include <algorithm>
 #include <cmath>
-#include <limits>
 #include <set>
 #include <stdexcept>
 
+#include "models/eye_overlay.hpp"
+
 namespace peakplan {
-namespace {
-
-// The overlay prbs_eye builds, with the same symbols at the same positions and the same sums in
-// the same order (blocks of one UI, cursors j ascending, zero symbols skipped), so every sample
-// here equals the one prbs_eye measured.
-class Overlay {
- public:
-  Overlay(const PulseResponse& pulse, const Signal& signal, const PeakDistortion& pda)
-      : n_(pulse.steps_per_ui), m_(pda.main_index), ref_(pda.phase_index) {
-    const bool pam4 = signal.modulation == Modulation::pam4;
-    eyes_ = pam4 ? 3 : 1;
-    const long span = pulse.ui_count;
-    const std::uint64_t period = prbs_period(signal.pattern);
-    truncated_ = period > max_overlay_symbols;
-    count_ = static_cast<long>(truncated_ ? max_overlay_symbols : period);
-    // Truncated patterns start from the register's seed after `span` symbols of history;
-    // periodic ones wrap, which is their exact periodic steady state.
-    first_ = truncated_ ? span + 2 : 0;
-    const long generated = truncated_ ? first_ + count_ + m_ + 3 : count_;
-    const auto bits = prbs_bits(signal.pattern, static_cast<size_t>(pam4 ? 2 * generated : generated));
-    symbol_ = pam4 ? pam4_levels(bits) : nrz_levels(bits);
-
-    // Block b holds t in [b*UI, (b+1)*UI); symbol k's sampling instant is in block k + m and its
-    // trace spans the block either side.
-    b0_ = first_ + m_ - 1;
-    const long b1 = first_ + count_ + m_ + 2;
-    w_.assign(static_cast<size_t>((b1 - b0_) * n_), 0.0);
-    for (long b = b0_; b < b1; ++b) {
-      double* out = w_.data() + (b - b0_) * n_;
-      for (long j = 0; j < span; ++j) {
-        const double a = symbol_[index(b - j)];
-        if (a == 0.0) continue;
-        const double* pj = pulse.p.data() + j * n_;
-        for (long k = 0; k < n_; ++k) out[k] += a * pj[k];
-      }
-    }
-  }
-
-  long count() const { return count_; }
-  // The i-th overlaid symbol (0 .. count-1): its level and its trace at offset o in [-n, n].
-  int level(long i) const { return static_cast<int>(std::lround(symbol_[index(first_ + i)] * eyes_)); }
-  double at(long i, long o) const { return w_[static_cast<size_t>((first_ + i + m_ - b0_) * n_ + ref_ + o)]; }
-
- private:
-  size_t index(long i) const {
-    return static_cast<size_t>(truncated_ ? i : ((i % count_) + count_) % count_);
-  }
-  long n_, m_, ref_;
-  int eyes_ = 1;
-  bool truncated_ = false;
-  long count_ = 0, first_ = 0, b0_ = 0;
-  std::vector<double> symbol_;
-  std::vector<double> w_;
-};
-
-// Per level, the lowest and highest trace at every offset in [-n, n], and which symbol set them
-// (the earliest on ties).
-struct Envelope {
-  long n = 0;
-  int levels = 0;
-  std::vector<double> lo, hi;
-  std::vector<long> lo_at, hi_at;
-
-  Envelope(const Overlay& overlay, long steps, int level_count) : n(steps), levels(level_count) {
-    const auto size = static_cast<size_t>(levels * (2 * n + 1));
-    lo.assign(size, std::numeric_limits<double>::infinity());
-    hi.assign(size, -std::numeric_limits<double>::infinity());
-    lo_at.assign(size, -1);
-    hi_at.assign(size, -1);
-    for (long i = 0; i < overlay.count(); ++i) {
-      const int l = overlay.level(i);
-      for (long o = -n; o <= n; ++o) {
-        const size_t c = slot(l, o);
-        const double v = overlay.at(i, o);
-        if (v < lo[c]) lo[c] = v, lo_at[c] = i;
-        if (v > hi[c]) hi[c] = v, hi_at[c] = i;
-      }
-    }
-  }
-  size_t slot(int level, long o) const { return static_cast<size_t>(level * (2 * n + 1) + o + n); }
-  // Eye e's margin to its threshold in prbs_eye's units (a fraction of the ideal eye).
-  double margin(int e, long o) const {
-    const int eyes = levels - 1;
-    const double threshold = (2.0 * e + 1.0) / (2.0 * eyes);
-    return eyes * std::min(lo[slot(e + 1, o)] - threshold, threshold - hi[slot(e, o)]);
-  }
-};
-
-// The ends (in samples) of the contiguous region around `centre` where f > 0 within [-n, n],
-// interpolated as prbs_eye's open_span does; both at centre when f(centre) <= 0.
-template <class F>
-std::pair<double, double> open_ends(F&& f, long centre, long n) {
-  if (!(f(centre) > 0.0)) return {static_cast<double>(centre), static_cast<double>(centre)};
-  long l = centre;
-  while (l - 1 >= -n && f(l - 1) > 0.0) --l;
-  long r = centre;
-  while (r + 1 <= n && f(r + 1) > 0.0) ++r;
-  const double left = l - 1 >= -n ? (l - 1) + (-f(l - 1)) / (f(l) - f(l - 1)) : static_cast<double>(-n);
-  const double right = r + 1 <= n ? r + f(r) / (f(r) - f(r + 1)) : static_cast<double>(n);
-  return {left, right};
-}
-
-}  // namespace
 
 EyeTraces eye_traces(const PulseResponse& pulse, const PrbsEye& prbs, const Signal& signal,
                      const EyeTraceLimits& limits) {
@@ -126,8 +24,8 @@ EyeTraces eye_traces(const PulseResponse& pulse, const PrbsEye& prbs, const Sign
     throw std::invalid_argument("eye_traces: the eye has the wrong number of openings");
 
   const long n = pulse.steps_per_ui;
-  const Overlay overlay(pulse, signal, pda);
-  const Envelope envelope(overlay, n, eyes + 1);
+  const PatternOverlay overlay(pulse, signal, pda);
+  const OverlayEnvelope envelope(overlay);
   auto samples = [&](double offset_s) { return std::lround(offset_s / dt); };
 
   EyeTraces r;
@@ -150,7 +48,7 @@ EyeTraces eye_traces(const PulseResponse& pulse, const PrbsEye& prbs, const Sign
     const long own = samples(prbs.eyes[static_cast<size_t>(e)].best_offset_s);
     EyeMarkers marker;
     marker.edges = edges_at(e, own);
-    const auto [left, right] = open_ends([&](long o) { return envelope.margin(e, o); }, own, n);
+    const auto [left, right] = open_ends([&](long o) { return envelope.margin(e, o); }, own, -n, n);
     marker.width_left_s = left * dt;
     marker.width_right_s = right * dt;
     r.eyes.push_back(marker);

@@ -1,12 +1,10 @@
 // The overlaid symbol traces of a PRBS eye, for drawing it.
 //
-// The waveform is the one prbs_eye overlays (models/eye.cpp): the superposition of the sampled
-// pulse response over the pattern's symbols, as the exact periodic steady state for patterns
-// whose period fits max_overlay_symbols and from the register's seed otherwise. Values are the
-// same sums in the same order, so a trace sample equals the overlay's sample bit for bit.
+// The waveform is the one prbs_eye measures, built by the same PatternOverlay
+// (models/eye_overlay.hpp), so a trace sample equals the overlay's sample bit for bit.
 //
-// The full overlay is recomputed here (the same cost as prbs_eye) because the markers need the
-// envelope of every trace at every offset, not only at the best one.
+// The full overlay is rebuilt here (the same cost as prbs_eye) because the markers need the
+// envelope of every trace at every offset, not only at the best one, and which symbol set it.
 //
 // Symbol k's trace is the output at offsets within +-1 UI of its sampling instant
 // (pda.sample_time_s + k*UI after the start of symbol 0's pulse), the convention of prbs_eye.

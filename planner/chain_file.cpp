@@ -532,14 +532,7 @@ std::optional<ChainSpec> parse_chain_spec(std::string_view text, const std::vect
 }
 
 std::optional<ChainSpec> load_chain_spec(const std::string& path, Diagnostics& diagnostics) {
-  std::ifstream in(path, std::ios::binary);
-  if (!in) {
-    diagnostics.error({}, "cannot open the chain file");
-    return std::nullopt;
-  }
-  std::ostringstream text;
-  text << in.rdbuf();
-  return parse_chain_spec(text.str(), diagnostics);
+  return load_chain_spec(path, {}, diagnostics);  // planner/overrides.cpp, with no overrides
 }
 
 }  // namespace peakplan

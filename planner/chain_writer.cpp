@@ -4,24 +4,10 @@
 
 #include "models/units.hpp"
 #include "planner/planner.hpp"
+#include "planner/toml_text.hpp"
 
 namespace peakplan {
 namespace {
-
-std::string quoted(std::string_view text) {
-  std::string out = "\"";
-  for (const unsigned char ch : text) {
-    if (ch == '"' || ch == '\\') {
-      out += '\\';
-      out += static_cast<char>(ch);
-    } else if (ch < 0x20 || ch == 0x7f) {
-      out += fmt::format("\\u{:04x}", ch);
-    } else {
-      out += static_cast<char>(ch);
-    }
-  }
-  return out + "\"";
-}
 
 // Full precision so that analyzing the written file reproduces the plan exactly, with the
 // engineering form alongside for the reader.
@@ -35,12 +21,12 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
   std::string out = fmt::format(
       "# Planned by peakplan from {}: {}.\n# Every value is written out; analyzing this file reproduces the plan.\n\n",
       spec.file, plan.termination == Plan::Termination::met ? "every target and limit met" : "NOT MET (" + plan.message + ")");
-  out += "[chain]\nname = " + quoted(spec.name) + "\n\n[input]\n" + number_line("r_source", spec.r_source, "ohm");
+  out += "[chain]\nname = " + toml_basic_string(spec.name) + "\n\n[input]\n" + number_line("r_source", spec.r_source, "ohm");
   if (spec.input_noise_density) out += number_line("noise_density", *spec.input_noise_density, "V/rtHz");
   if (spec.signal) {
     const auto& s = *spec.signal;
     out += "\n[signal]\n" + number_line("bit_rate", s.bit_rate, "b/s");
-    out += "modulation = " + quoted(s.modulation) + "\npattern = " + quoted(s.pattern) + "\n";
+    out += "modulation = " + toml_basic_string(s.modulation) + "\npattern = " + toml_basic_string(s.pattern) + "\n";
     if (s.input_rise) out += number_line("input_rise", *s.input_rise, "s");
     if (s.swing) out += number_line("swing", *s.swing, "V");
     out += fmt::format("target_ber = {:.17g}\n", s.target_ber);
@@ -51,7 +37,7 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
     if (t.gain_db) out += fmt::format("gain = \"{:.17g} dB\"\n", *t.gain_db);
     if (t.bandwidth) out += number_line("bandwidth", *t.bandwidth, "Hz");
     if (t.gain_bandwidth) out += number_line("gain_bandwidth", *t.gain_bandwidth, "Hz");
-    out += "objective = " + quoted(t.objective) + "\n";
+    out += "objective = " + toml_basic_string(t.objective) + "\n";
   }
   const auto& l = spec.limits;
   if (l.overshoot || l.peaking_db || l.group_delay_ripple || l.ripple_band) {
@@ -83,7 +69,7 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
     while (plan.graph[first].spec != planned.spec) ++first;
     const auto& stage = plan.chain.stages[first];
     const auto& c = stage.circuit;
-    out += "\n[[stage]]\nid = " + quoted(s.id) + "\nkind = " + quoted(to_string(planned.kind)) + "\n";
+    out += "\n[[stage]]\nid = " + toml_basic_string(s.id) + "\nkind = " + toml_basic_string(to_string(planned.kind)) + "\n";
     if (planned.count != 1) out += fmt::format("count = {}\n", planned.count);
     out += number_line("gm", c.gm, "S") + number_line("rd", c.rd, "ohm");
     out += number_line("c_in", stage.c_in, "F") + number_line("c_out", c.c_out, "F");
@@ -102,7 +88,7 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
     }
     if (s.feeds) {
       out += "feeds = [";
-      for (size_t i = 0; i < s.feeds->size(); ++i) out += (i ? ", " : "") + quoted((*s.feeds)[i]);
+      for (size_t i = 0; i < s.feeds->size(); ++i) out += (i ? ", " : "") + toml_basic_string((*s.feeds)[i]);
       out += "]\n";
     }
     if (s.tap) out += "tap = true\n";

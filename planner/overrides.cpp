@@ -6,6 +6,8 @@
 #include <memory>
 #include <sstream>
 
+#include "planner/toml_text.hpp"
+
 namespace peakplan {
 namespace {
 
@@ -18,21 +20,6 @@ toml::source_region command_line_region(const std::string& origin) {
   region.end = {1, 1};
   region.path = std::make_shared<const std::string>(command_line_path(origin));
   return region;
-}
-
-std::string toml_basic_string(std::string_view text) {
-  std::string out = "\"";
-  for (const unsigned char ch : text) {
-    if (ch == '"' || ch == '\\') {
-      out += '\\';
-      out += static_cast<char>(ch);
-    } else if (ch < 0x20 || ch == 0x7f) {
-      out += fmt::format("\\u{:04x}", ch);
-    } else {
-      out += static_cast<char>(ch);
-    }
-  }
-  return out + "\"";
 }
 
 // The value as a one-key document parsed under the option's source path; nullopt when it is

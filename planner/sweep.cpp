@@ -9,6 +9,7 @@
 
 #include "planner/chain_graph.hpp"
 #include "planner/overrides.hpp"
+#include "planner/stage_value.hpp"
 #include "planner/what_if.hpp"
 
 namespace peakplan {
@@ -161,31 +162,6 @@ std::vector<OpenValue> open_values(const ChainSpec& spec) {
   return open;
 }
 
-double circuit_value(const ChainStage& stage, std::string_view key) {
-  const auto& c = stage.circuit;
-  const auto& info = load_kind_info(c.kind);
-  const bool common = key == "gm" || key == "rd" || key == "c_in" || key == "c_out" || key == "c_load" || key == "r_load";
-  bool in_kind = false;
-  for (const auto& p : info.parameters) in_kind = in_kind || p.key == key;
-  if (!common && !in_kind) return kNaN;
-  if (key == "gm") return c.gm;
-  if (key == "rd") return c.rd;
-  if (key == "c_in") return stage.c_in;
-  if (key == "c_out") return c.c_out;
-  if (key == "c_load") return stage.c_load;
-  if (key == "r_load") return c.r_load;
-  if (key == "l") return c.l;
-  if (key == "r_l") return c.kind == LoadKind::tcoil ? c.r_l1 : c.r_l;
-  if (key == "l1") return c.l1;
-  if (key == "l2") return c.l2;
-  if (key == "k") return c.k;
-  if (key == "cb") return c.cb;
-  if (key == "c_w") return c.c_w;
-  if (key == "r_l1") return c.r_l1;
-  if (key == "r_l2") return c.r_l2;
-  return kNaN;
-}
-
 ChosenValue chosen_value(const ChainSpec& spec, const Plan& plan, const OpenValue& open) {
   size_t index = 0;
   while (index < spec.stages.size() && spec.stages[index].id != open.stage) ++index;
@@ -194,7 +170,7 @@ ChosenValue chosen_value(const ChainSpec& spec, const Plan& plan, const OpenValu
     if (open.key == "kind") return {kNaN, std::string(to_string(planned.kind))};
     if (open.key == "count") return {static_cast<double>(planned.count), {}};
     for (size_t g = 0; g < plan.graph.size(); ++g)
-      if (plan.graph[g].spec == index) return {circuit_value(plan.chain.stages[g], open.key), {}};
+      if (plan.graph[g].spec == index) return {stage_value(plan.chain.stages[g], open.key), {}};
   }
   return {kNaN, {}};
 }

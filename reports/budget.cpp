@@ -5,6 +5,7 @@
 #include <fmt/format.h>
 
 #include "models/units.hpp"
+#include "planner/stage_value.hpp"
 
 namespace peakplan {
 namespace {
@@ -98,26 +99,6 @@ std::string_view key_unit(std::string_view key) {
   if (key.starts_with("c_") || key == "cb") return "F";
   if (key.starts_with("l")) return "H";
   return "Ω";  // rd, r_load, r_l, r_l1, r_l2
-}
-
-double planned_value(const ChainStage& s, std::string_view key) {
-  const auto& c = s.circuit;
-  if (key == "gm") return c.gm;
-  if (key == "rd") return c.rd;
-  if (key == "c_in") return s.c_in;
-  if (key == "c_out") return c.c_out;
-  if (key == "c_load") return s.c_load;
-  if (key == "r_load") return c.r_load;
-  if (key == "l") return c.l;
-  if (key == "r_l") return c.r_l;
-  if (key == "l1") return c.l1;
-  if (key == "l2") return c.l2;
-  if (key == "k") return c.k;
-  if (key == "cb") return c.cb;
-  if (key == "c_w") return c.c_w;
-  if (key == "r_l1") return c.r_l1;
-  if (key == "r_l2") return c.r_l2;
-  return not_found;
 }
 
 std::string kinds_written(const std::vector<LoadKind>& kinds) {
@@ -395,7 +376,7 @@ TableView plan_values_view(const ChainSpec& spec, const Plan& plan) {
     if (!s.response.empty()) design = "from response = " + s.response;
     const auto* gm = s.find("gm");
     for (const auto& key : keys) {
-      const double value = planned_value(planned, key);
+      const double value = stage_value(planned, key);
       const auto unit = key_unit(key);
       const auto* a = s.find(key);
       // Loss resistances and optional loads that are zero or open and not in the file add nothing.

@@ -4,6 +4,7 @@
 #include <fmt/format.h>
 
 #include "models/units.hpp"
+#include "reports/markup.hpp"
 
 namespace peakplan {
 namespace {
@@ -186,21 +187,7 @@ std::string key_figures(const Budget& b, const ChainAnalysis& analysis) {
 
 }  // namespace
 
-std::string html_escape(std::string_view text) {
-  std::string out;
-  out.reserve(text.size());
-  for (char c : text) {
-    switch (c) {
-      case '&': out += "&amp;"; break;
-      case '<': out += "&lt;"; break;
-      case '>': out += "&gt;"; break;
-      case '"': out += "&quot;"; break;
-      case '\'': out += "&#39;"; break;
-      default: out += c;
-    }
-  }
-  return out;
-}
+std::string html_escape(std::string_view text) { return escape_markup(text, "&#39;"); }
 
 std::string inline_svg(std::string_view svg) {
   const auto start = svg.find("<svg");

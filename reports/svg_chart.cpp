@@ -9,6 +9,8 @@
 #include <limits>
 #include <stdexcept>
 
+#include "reports/markup.hpp"
+
 namespace peakplan::svg {
 namespace {
 
@@ -124,21 +126,7 @@ std::string path_data(const std::vector<double>& xs, const std::vector<double>& 
 
 }  // namespace
 
-std::string xml_escape(std::string_view text) {
-  std::string out;
-  out.reserve(text.size());
-  for (char c : text) {
-    switch (c) {
-      case '&': out += "&amp;"; break;
-      case '<': out += "&lt;"; break;
-      case '>': out += "&gt;"; break;
-      case '"': out += "&quot;"; break;
-      case '\'': out += "&apos;"; break;
-      default: out += c;
-    }
-  }
-  return out;
-}
+std::string xml_escape(std::string_view text) { return escape_markup(text, "&apos;"); }
 
 std::string format_number(double x, int decimals) {
   if (std::isnan(x)) return "n/a";

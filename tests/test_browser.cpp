@@ -6,18 +6,18 @@
 #include <doctest/doctest.h>
 
 #include <png.h>
-#include <sys/wait.h>
-#include <unistd.h>
 
 #include <algorithm>
 #include <cmath>
 #include <cstdlib>
 #include <filesystem>
-#include <fstream>
 #include <map>
-#include <sstream>
 #include <string>
 #include <vector>
+
+#include "cli_support.hpp"
+
+using namespace peakplan::test;
 
 namespace {
 
@@ -25,50 +25,6 @@ namespace fs = std::filesystem;
 
 // The window the screenshot is taken in: a laptop screen's width, tall enough for the tables.
 constexpr int kWidth = 1280, kHeight = 1800;
-
-std::string read_bytes(const fs::path& path) {
-  std::ifstream in(path, std::ios::binary);
-  REQUIRE_MESSAGE(in, "cannot read " << path.string());
-  std::ostringstream text;
-  text << in.rdbuf();
-  return text.str();
-}
-
-std::string shell_quoted(const std::string& s) {
-  std::string out = "'";
-  for (char c : s) out += c == '\'' ? std::string("'\\''") : std::string(1, c);
-  return out + "'";
-}
-
-std::string find_on_path(const std::string& program) {
-  const char* path = std::getenv("PATH");
-  std::stringstream dirs(path ? path : "");
-  for (std::string dir; std::getline(dirs, dir, ':');) {
-    const fs::path candidate = fs::path(dir.empty() ? "." : dir) / program;
-    if (fs::is_regular_file(candidate) && ::access(candidate.c_str(), X_OK) == 0) return candidate.string();
-  }
-  return {};
-}
-
-int run_shell(const std::string& command) {
-  const int raw = std::system(command.c_str());
-  return raw != -1 && WIFEXITED(raw) ? WEXITSTATUS(raw) : -1;
-}
-
-struct TempDir {
-  fs::path path;
-  TempDir() {
-    std::string name = (fs::temp_directory_path() / "peakplan_browser_XXXXXX").string();
-    REQUIRE(mkdtemp(name.data()) != nullptr);
-    path = name;
-  }
-  ~TempDir() {
-    std::error_code ec;
-    fs::remove_all(path, ec);
-  }
-  TempDir(const TempDir&) = delete;
-  TempDir& operator=(const TempDir&) = delete;
-};
 
 // The flags the brief for this check fixes: headless, and nothing that would reach a network.
 std::string chromium_command(const std::string& chromium, const fs::path& profile) {
@@ -106,7 +62,7 @@ TEST_CASE("browser: chromium renders the demo report with the budget table, ever
     MESSAGE("chromium is not installed: the browser check did not run (it fails instead where CI is set)");
     return;
   }
-  TempDir dir;
+  TempDir dir("peakplan_browser");
   const fs::path report = dir.path / "report";
   const fs::path demo = fs::path(PEAKPLAN_SOURCE_DIR) / "chains" / "demo_postamp.toml";
   REQUIRE(run_shell(shell_quoted(PEAKPLAN_BINARY) + " report " + shell_quoted(demo.string()) + " --out " +
@@ -117,8 +73,8 @@ TEST_CASE("browser: chromium renders the demo report with the budget table, ever
   const int dumped = run_shell("timeout 120 " + chromium_command(chromium, dir.path / "profile-dom") + " --dump-dom " +
                                shell_quoted(url) + " >" + shell_quoted(dom.string()) + " 2>" +
                                shell_quoted(log.string()));
-  REQUIRE_MESSAGE(dumped == 0, "chromium --dump-dom failed:\n" << read_bytes(log));
-  const std::string page = read_bytes(dom);
+  REQUIRE_MESSAGE(dumped == 0, "chromium --dump-dom failed:\n" << read_file(log));
+  const std::string page = read_file(dom);
   CHECK(page.find("<table id=\"budget\"") != std::string::npos);
   CHECK(page.find("</html>") != std::string::npos);
   int plots = 0;
@@ -135,7 +91,7 @@ TEST_CASE("browser: chromium renders the demo report with the budget table, ever
       "timeout 120 " + chromium_command(chromium, dir.path / "profile-shot") + " --hide-scrollbars --window-size=" +
       std::to_string(kWidth) + "," + std::to_string(kHeight) + " --screenshot=" + shell_quoted(shot.string()) + " " +
       shell_quoted(url) + " >" + shell_quoted(log.string()) + " 2>&1");
-  REQUIRE_MESSAGE(shot_status == 0, "chromium --screenshot failed:\n" << read_bytes(log));
+  REQUIRE_MESSAGE(shot_status == 0, "chromium --screenshot failed:\n" << read_file(log));
   REQUIRE(fs::exists(shot));
   const auto pixels = decode_png(shot);
   CHECK(pixels.width == kWidth);

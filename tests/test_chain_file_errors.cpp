@@ -4,11 +4,7 @@
 // --json`, for exit status 2, nothing on stdout and GNU-shaped messages on stderr.
 #include <doctest/doctest.h>
 
-#include <sys/wait.h>
-
-#include <cstdlib>
 #include <filesystem>
-#include <fstream>
 #include <regex>
 #include <set>
 #include <sstream>
@@ -18,50 +14,17 @@
 #include "planner/chain_file.hpp"
 #include "planner/chain_graph.hpp"
 #include "planner/diagnostics.hpp"
+#include "cli_support.hpp"
 
 namespace fs = std::filesystem;
+using namespace peakplan::test;
 
 namespace {
 
 const fs::path kFixtures = fs::path(PEAKPLAN_SOURCE_DIR) / "tests" / "bad_chains";
 
-std::string read_bytes(const fs::path& path) {
-  std::ifstream in(path, std::ios::binary);
-  REQUIRE_MESSAGE(in, "cannot read " << path.string());
-  std::ostringstream text;
-  text << in.rdbuf();
-  return text.str();
-}
-
-std::string shell_quoted(const std::string& s) {
-  std::string out = "'";
-  for (char c : s) out += c == '\'' ? std::string("'\\''") : std::string(1, c);
-  return out + "'";
-}
-
-struct CliRun {
-  int status = -1;  // exit status; -1 when the process did not exit normally
-  std::string out, err;
-};
-
-// Runs the real executable with stdout and stderr sent to files in a fresh directory, so that
-// "nothing on stdout" is a file of zero bytes that we created, not a capture that silently failed.
-CliRun run_analyze_json(const fs::path& chain) {
-  std::string dir_template = (fs::temp_directory_path() / "peakplan_errors_XXXXXX").string();
-  REQUIRE(mkdtemp(dir_template.data()) != nullptr);
-  const fs::path dir = dir_template;
-  const fs::path out = dir / "stdout", err = dir / "stderr";
-  const std::string command = shell_quoted(PEAKPLAN_BINARY) + " analyze " + shell_quoted(chain.string()) +
-                              " --json >" + shell_quoted(out.string()) + " 2>" + shell_quoted(err.string());
-  const int raw = std::system(command.c_str());
-  CliRun run;
-  run.status = raw != -1 && WIFEXITED(raw) ? WEXITSTATUS(raw) : -1;
-  REQUIRE_MESSAGE(fs::exists(out), "the shell did not create the stdout file: " << command);
-  run.out = read_bytes(out);
-  run.err = read_bytes(err);
-  fs::remove_all(dir);
-  return run;
-}
+// `peakplan analyze CHAIN --json` with stdout and stderr captured.
+CliRun run_analyze_json(const fs::path& chain) { return run_cli({"analyze", chain.string(), "--json"}); }
 
 std::vector<std::string> lines_of(const std::string& text) {
   std::vector<std::string> lines;
@@ -187,7 +150,7 @@ TEST_CASE("chain-file errors: each bad fixture fails at its fault's line and col
     SUBCASE(fault.fact) {
       const fs::path path = kFixtures / fault.file;
       INFO("fixture: " << path.string());
-      const std::string before = read_bytes(path);
+      const std::string before = read_file(path);
 
       peakplan::Diagnostics diagnostics(path.string());
       CHECK_FALSE(peakplan::load_chain_file(path.string(), diagnostics));
@@ -213,7 +176,7 @@ TEST_CASE("chain-file errors: each bad fixture fails at its fault's line and col
       // The CLI prints exactly what the loader collected, nothing more and nothing lost.
       CHECK(run.err == diagnostics.format());
 
-      CHECK(read_bytes(path) == before);
+      CHECK(read_file(path) == before);
     }
   }
 }
@@ -225,7 +188,7 @@ TEST_CASE("chain-file errors: every fixture in tests/bad_chains is in the table 
   for (const auto& entry : fs::directory_iterator(kFixtures)) {
     if (entry.path().extension() != ".toml") continue;
     on_disk.insert(entry.path().filename().string());
-    const std::string text = read_bytes(entry.path());
+    const std::string text = read_file(entry.path());
     INFO("fixture: " << entry.path().filename().string());
     // The first line says what is wrong, so a reader of the fixture needs no test to explain it.
     CHECK(text.rfind("# Bad", 0) == 0);
@@ -289,7 +252,7 @@ TEST_CASE("chain-file errors: \"auto\" and kind candidates are valid chain-file 
   // The planner reads the same files, so these must pass the parser and fail only at resolve.
   const fs::path path = kFixtures / "auto_value_in_analyze.toml";
   peakplan::Diagnostics parse_diagnostics(path.string());
-  const auto spec = peakplan::parse_chain_spec(read_bytes(path), parse_diagnostics);
+  const auto spec = peakplan::parse_chain_spec(read_file(path), parse_diagnostics);
   REQUIRE(spec);
   CHECK(parse_diagnostics.empty());
   REQUIRE(spec->stages.size() == 1);
@@ -309,7 +272,7 @@ TEST_CASE("chain-file errors: the good demo chain passes the same harness with e
   // A control for the harness above: if redirection or the binary path were broken, an
   // empty stdout would prove nothing about bad input.
   const fs::path path = fs::path(PEAKPLAN_SOURCE_DIR) / "chains" / "demo_postamp.toml";
-  const std::string before = read_bytes(path);
+  const std::string before = read_file(path);
   const CliRun run = run_analyze_json(path);
   INFO("stderr: " << run.err);
   CHECK(run.status == 0);
@@ -317,5 +280,5 @@ TEST_CASE("chain-file errors: the good demo chain passes the same harness with e
   REQUIRE_FALSE(run.out.empty());
   CHECK(run.out.front() == '{');
   CHECK(contains(run.out, "\"outputs\""));
-  CHECK(read_bytes(path) == before);
+  CHECK(read_file(path) == before);
 }

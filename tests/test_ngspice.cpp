@@ -27,7 +27,6 @@
 #include <numbers>
 #include <sstream>
 #include <string>
-#include <unistd.h>
 #include <vector>
 
 #include "models/analysis.hpp"
@@ -37,6 +36,7 @@
 #include "planner/chain_graph.hpp"
 #include "planner/planner.hpp"
 #include "reports/netlist.hpp"
+#include "cli_support.hpp"
 #include "test_support.hpp"
 
 namespace peakplan {
@@ -67,24 +67,6 @@ struct OutputFigures {
 struct NgspiceComparison {
   std::vector<OutputFigures> outputs;  // in the order of chain.outputs(), main output last
 };
-
-std::string find_ngspice() {
-  const char* path = std::getenv("PATH");
-  std::stringstream dirs(path ? path : "");
-  for (std::string dir; std::getline(dirs, dir, ':');) {
-    const fs::path candidate = fs::path(dir.empty() ? "." : dir) / "ngspice";
-    if (fs::is_regular_file(candidate) && ::access(candidate.c_str(), X_OK) == 0)
-      return candidate.string();
-  }
-  return {};
-}
-
-std::string read_text(const fs::path& p) {
-  std::ifstream in(p);
-  std::stringstream ss;
-  ss << in.rdbuf();
-  return ss.str();
-}
 
 // wrdata with wr_singlescale and wr_vecnames: one header line, then rows of numbers.
 std::vector<std::vector<double>> read_wrdata(const fs::path& p) {
@@ -127,7 +109,7 @@ double interpolate(const std::vector<double>& t, const std::vector<double>& y, d
 // Writes the chain's netlist, runs ngspice on it and measures every output node against
 // analyze_chain. Throws with the log when ngspice fails; the work directory is then kept.
 NgspiceComparison compare_with_ngspice(const Chain& chain) {
-  const std::string ngspice = find_ngspice();
+  const std::string ngspice = test::find_on_path("ngspice");
   if (ngspice.empty())
     throw std::runtime_error(
         "ngspice not found on PATH: install it (Debian package 'ngspice'); the ngspice "
@@ -159,7 +141,7 @@ NgspiceComparison compare_with_ngspice(const Chain& chain) {
   const int rc = std::system(command.c_str());
   if (rc != 0 || !fs::exists(options.data_prefix + ".tran.txt"))
     throw std::runtime_error("ngspice failed (status " + std::to_string(rc) + ") on " +
-                             netlist.string() + ":\n" + read_text(log));
+                             netlist.string() + ":\n" + test::read_file(log));
 
   const auto dc_rows = read_wrdata(options.data_prefix + ".dc.txt");
   const auto ac_rows = read_wrdata(options.data_prefix + ".ac.txt");

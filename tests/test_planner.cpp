@@ -1,6 +1,7 @@
 // The planner against classic optima, a brute-force search, and its own written output.
 #include <doctest/doctest.h>
 
+#include <algorithm>
 #include <cstdio>
 #include <filesystem>
 #include <fstream>
@@ -9,6 +10,8 @@
 
 #include "planner/chain_graph.hpp"
 #include "planner/planner.hpp"
+#include "cli_support.hpp"
+#include "six_open_stages.hpp"
 #include "test_support.hpp"
 
 using namespace peakplan;
@@ -37,14 +40,13 @@ FrequencyMetrics main_metrics(const Chain& chain) {
   return frequency_metrics(output_cascade(chain, chain.outputs().back()));
 }
 
-// Runs the CLI, returning its exit status and stdout.
+// Runs the CLI with `args` split at spaces, returning its exit status and stdout.
 std::pair<int, std::string> run(const std::string& args) {
-  const auto out = std::filesystem::temp_directory_path() / "peakplan_planner_test_stdout.txt";
-  const int status = std::system((std::string(PEAKPLAN_BINARY) + " " + args + " > " + out.string() + " 2>/dev/null").c_str());
-  std::ifstream in(out);
-  std::stringstream text;
-  text << in.rdbuf();
-  return {WEXITSTATUS(status), text.str()};
+  std::vector<std::string> words;
+  std::istringstream in(args);
+  for (std::string word; in >> word;) words.push_back(word);
+  const CliRun r = run_cli(words);
+  return {r.status, r.out};
 }
 
 }  // namespace
@@ -214,4 +216,79 @@ c_load = "100 fF"
   CHECK(doc["status"] == "not_met");
   const std::string binding = doc["binding"];
   CHECK((binding == "gain" || binding == "bandwidth"));
+}
+
+
+TEST_CASE("planner: six open stages of mixed kinds meet every limit, also when the written plan is re-analysed") {
+  const auto spec = spec_from(kSixOpenStages);
+  Diagnostics d("six.toml");
+  const auto plan = plan_chain(spec, d);
+  REQUIRE(plan);
+  CHECK(plan->termination == Plan::Termination::met);
+  Diagnostics rd("written.toml");
+  const auto written = parse_chain_spec(planned_chain_toml(spec, *plan), rd);
+  REQUIRE(written);
+  const auto chain = resolve_chain(*written, rd);
+  REQUIRE(chain);
+  const auto analysis = analyze_chain(*chain, analysis_options(*written));
+  const auto& main = analysis.outputs.back().response;
+  for (const auto& c : check_targets(spec, main.frequency, main.step, total_gm(*chain))) {
+    CAPTURE(c.name);
+    CHECK(c.met);
+  }
+}
+
+TEST_CASE("planner: a supply-current budget bounds the total gm at gm/Id") {
+  // Five shunt stages that would all size up to max_gm = 80 mS (400 mS, 40 mA at gm/Id = 10/V);
+  // a 25 mA budget allows 250 mS in all. Id = gm / (gm/Id) (definition).
+  const auto spec = spec_from(R"(
+[target]
+gain = "30 dB"
+bandwidth = "30 GHz"
+[limits]
+overshoot = "5 %"
+[technology]
+ft = "250 GHz"
+c_out_ratio = 0.6
+max_gm = "80 mS"
+gm_over_id = 10
+current_budget = "25 mA"
+[[stage]]
+id = "g"
+kind = "shunt"
+count = 5
+gm = "auto"
+rd = "auto"
+l = "auto"
+c_load = "20 fF"
+)");
+  Diagnostics d("budget.toml");
+  const auto plan = plan_chain(spec, d);
+  REQUIRE(plan);
+  CHECK(plan->termination == Plan::Termination::met);
+  const auto current = std::find_if(plan->checks.begin(), plan->checks.end(), [](const PlanCheck& c) { return c.name == "current"; });
+  REQUIRE(current != plan->checks.end());
+  CHECK(current->limit == doctest::Approx(25e-3));
+  CHECK(current->value == doctest::Approx(total_gm(plan->chain) / 10.0).epsilon(1e-12));
+  CHECK(total_gm(plan->chain) <= 0.25 * (1.0 + 1e-9));
+  CHECK(current->met);
+}
+
+TEST_CASE("planner: progress is reported as the search runs, in order, up to the final count") {
+  const auto spec = spec_from(kSixOpenStages);
+  std::vector<PlanProgress> seen;
+  PlanOptions options;
+  options.progress_every = 100;
+  options.progress = [&](const PlanProgress& p) { seen.push_back(p); };
+  Diagnostics d("six.toml");
+  const auto plan = plan_chain(spec, d, options);
+  REQUIRE(plan);
+  REQUIRE(seen.size() >= 3);
+  for (size_t i = 1; i < seen.size(); ++i) {
+    CHECK(seen[i].evaluations >= seen[i - 1].evaluations);
+    CHECK(seen[i].seconds >= seen[i - 1].seconds);
+  }
+  CHECK(seen.front().stage == "design space");
+  CHECK(seen.back().stage != "design space");
+  CHECK(seen.back().evaluations + 1 == plan->evaluations);
 }

@@ -10,19 +10,18 @@
 // budget.md shows dB with 2 decimals: within 0.005 dB, plus 1e-9 for the binary rounding.
 #include <doctest/doctest.h>
 
-#include <sys/wait.h>
-
 #include <algorithm>
 #include <cmath>
-#include <cstdlib>
 #include <filesystem>
-#include <fstream>
-#include <map>
 #include <nlohmann/json.hpp>
 #include <set>
 #include <sstream>
 #include <string>
 #include <vector>
+
+#include "cli_support.hpp"
+
+using namespace peakplan::test;
 
 namespace {
 
@@ -35,69 +34,11 @@ constexpr double kMarkdownDb = 0.005 + 1e-9;
 const fs::path kSource = PEAKPLAN_SOURCE_DIR;
 const fs::path kDemo = kSource / "chains" / "demo_postamp.toml";
 
-std::string read_bytes(const fs::path& path) {
-  std::ifstream in(path, std::ios::binary);
-  REQUIRE_MESSAGE(in, "cannot read " << path.string());
-  std::ostringstream text;
-  text << in.rdbuf();
-  return text.str();
-}
-
-void write_bytes(const fs::path& path, const std::string& text) {
-  std::ofstream out(path, std::ios::binary | std::ios::trunc);
-  out << text;
-  REQUIRE_MESSAGE(out, "cannot write " << path.string());
-}
-
-std::string shell_quoted(const std::string& s) {
-  std::string out = "'";
-  for (char c : s) out += c == '\'' ? std::string("'\\''") : std::string(1, c);
-  return out + "'";
-}
-
-// A fresh directory under the system's temporary directory, removed with everything in it.
-struct TempDir {
-  fs::path path;
-  TempDir() {
-    std::string name = (fs::temp_directory_path() / "peakplan_report_XXXXXX").string();
-    REQUIRE(mkdtemp(name.data()) != nullptr);
-    path = name;
-  }
-  ~TempDir() {
-    std::error_code ec;
-    fs::remove_all(path, ec);
-  }
-  TempDir(const TempDir&) = delete;
-  TempDir& operator=(const TempDir&) = delete;
-};
-
-struct CliRun {
-  int status = -1;
-  std::string out, err;
-};
-
-// `peakplan report CHAIN --out DIR [extra]`, stdout and stderr captured in files of our own.
+// `peakplan report CHAIN --out DIR [extra]`, stdout and stderr captured.
 CliRun run_report(const fs::path& chain, const fs::path& out_dir, const std::string& extra = "") {
-  TempDir capture;
-  const fs::path out = capture.path / "stdout", err = capture.path / "stderr";
-  const std::string command = shell_quoted(PEAKPLAN_BINARY) + " report " + shell_quoted(chain.string()) +
-                              " --out " + shell_quoted(out_dir.string()) + " " + extra + " >" +
-                              shell_quoted(out.string()) + " 2>" + shell_quoted(err.string());
-  const int raw = std::system(command.c_str());
-  CliRun run;
-  run.status = raw != -1 && WIFEXITED(raw) ? WEXITSTATUS(raw) : -1;
-  REQUIRE_MESSAGE(fs::exists(out), "the shell did not create the stdout file: " << command);
-  run.out = read_bytes(out);
-  run.err = read_bytes(err);
-  return run;
-}
-
-// Every regular file below `dir` by relative path, with its contents.
-std::map<std::string, std::string> snapshot(const fs::path& dir) {
-  std::map<std::string, std::string> files;
-  for (const auto& e : fs::recursive_directory_iterator(dir))
-    if (e.is_regular_file()) files[fs::relative(e.path(), dir).string()] = read_bytes(e.path());
-  return files;
+  std::vector<std::string> args{"report", chain.string(), "--out", out_dir.string()};
+  if (!extra.empty()) args.push_back(extra);
+  return run_cli(args);
 }
 
 // RFC 4180: fields separated by commas, records by CRLF, quoted fields may hold both and "".
@@ -153,7 +94,7 @@ struct CsvTable {
 };
 
 CsvTable read_csv(const fs::path& path) {
-  auto records = parse_csv(read_bytes(path));
+  auto records = parse_csv(read_file(path));
   REQUIRE(records.size() >= 2);
   CsvTable t{records.front(), {records.begin() + 1, records.end()}};
   for (const auto& r : t.rows) REQUIRE_MESSAGE(r.size() == t.header.size(), "a budget.csv row has a wrong field count");
@@ -215,7 +156,7 @@ const std::vector<std::string> kAlwaysWritten{"budget.md", "budget.csv", "result
 
 void check_budget_against_json(const fs::path& dir) {
   const auto csv = read_csv(dir / "budget.csv");
-  const auto doc = nlohmann::json::parse(read_bytes(dir / "result.json"));
+  const auto doc = nlohmann::json::parse(read_file(dir / "result.json"));
   const auto stages = csv.of_kind("stage");
   REQUIRE(stages.size() == doc["stages"].size());
   const size_t id = csv.column("id"), gain = csv.column("gain_dB"), bw = csv.column("bandwidth_GHz"),
@@ -234,6 +175,8 @@ void check_budget_against_json(const fs::path& dir) {
     check_csv(row[gm], 1e-3, js["values"]["gm"], "gm");
     check_csv(row[rd], 1.0, js["values"]["rd"], "rd");
     check_csv(row[c_node], 1e-15, js["values"]["c_node"], "c_node");
+    check_csv(row[csv.column("cumulative_gain_dB")], 1.0, js["cumulative"]["dc_gain_db"], "cumulative gain");
+    check_csv(row[csv.column("cumulative_bandwidth_GHz")], 1e9, js["cumulative"]["bandwidth_hz"], "cumulative bandwidth");
     // Derived: the share is the stage's DC group delay over the main output's, in percent.
     if (row[share] != "off_main_path")
       check_csv(row[share], 1.0, nlohmann::json(100.0 * js["group_delay_s"].get<double>() /
@@ -255,7 +198,7 @@ void check_budget_against_json(const fs::path& dir) {
   check_csv(t[gm], 1e-3, nlohmann::json(total_gm), "total gm");
 
   // budget.md shows the same stage numbers, rounded to 2 decimals.
-  const auto md_rows = markdown_table(read_bytes(dir / "budget.md"), "## Stage budget");
+  const auto md_rows = markdown_table(read_file(dir / "budget.md"), "## Stage budget");
   REQUIRE(md_rows.size() == stages.size());
   for (size_t i = 0; i < md_rows.size(); ++i) {
     const auto& js = doc["stages"][i];
@@ -270,26 +213,26 @@ void check_budget_against_json(const fs::path& dir) {
 }  // namespace
 
 TEST_CASE("report: the budget's numbers are the analysis document's (demo chain)") {
-  TempDir dir;
+  TempDir dir("peakplan_report");
   const auto run = run_report(kDemo, dir.path / "out");
   REQUIRE_MESSAGE(run.status == 0, run.err);
   check_budget_against_json(dir.path / "out");
 }
 
 TEST_CASE("report: the budget's numbers are the analysis document's, and a branch off the main path is marked") {
-  TempDir dir;
+  TempDir dir("peakplan_report");
   const auto run = run_report(kSource / "chains" / "fanout_tap.toml", dir.path / "out");
   REQUIRE_MESSAGE(run.status == 0, run.err);
   check_budget_against_json(dir.path / "out");
   const auto csv = read_csv(dir.path / "out" / "budget.csv");
   for (const auto* row : csv.of_kind("stage"))
     CHECK(((*row)[csv.column("delay_share_pct")] == "off_main_path") == ((*row)[csv.column("id")] == "detect"));
-  CHECK(read_bytes(dir.path / "out" / "budget.md").find("off main path") != std::string::npos);
+  CHECK(read_file(dir.path / "out" / "budget.md").find("off main path") != std::string::npos);
 }
 
 TEST_CASE("report: user strings reach the page escaped, and ids round-trip through the CSV quoting") {
-  TempDir dir;
-  std::string text = read_bytes(kDemo);
+  TempDir dir("peakplan_report");
+  std::string text = read_file(kDemo);
   const std::string evil_id = "<script>alert(\"a2,x\")</script>";
   const auto at = text.find("id = \"a2\"");
   REQUIRE(at != std::string::npos);
@@ -298,11 +241,11 @@ TEST_CASE("report: user strings reach the page escaped, and ids round-trip throu
   REQUIRE(name_at != std::string::npos);
   text.replace(name_at, 29, "name = \"demo <b>& co\"");
   const fs::path chain = dir.path / "evil.toml";
-  write_bytes(chain, text);
+  write_file(chain, text);
   const auto run = run_report(chain, dir.path / "out");
   REQUIRE_MESSAGE(run.status == 0, run.err);
 
-  const auto html = read_bytes(dir.path / "out" / "index.html");
+  const auto html = read_file(dir.path / "out" / "index.html");
   CHECK(html.find("<script") == std::string::npos);
   CHECK(html.find("<b>&") == std::string::npos);
   CHECK(html.find("&lt;script&gt;alert(&quot;a2,x&quot;)&lt;/script&gt;") != std::string::npos);
@@ -315,21 +258,21 @@ TEST_CASE("report: user strings reach the page escaped, and ids round-trip throu
 }
 
 TEST_CASE("report: an existing directory gets whole files; other files stay as they were") {
-  TempDir dir;
+  TempDir dir("peakplan_report");
   const fs::path out = dir.path / "out";
   fs::create_directories(out);
-  write_bytes(out / "budget.md", std::string(200000, 'x') + "\nold junk that must not survive\n");
-  write_bytes(out / "notes.txt", "the designer's own notes\n");
+  write_file(out / "budget.md", std::string(200000, 'x') + "\nold junk that must not survive\n");
+  write_file(out / "notes.txt", "the designer's own notes\n");
   const auto run = run_report(kDemo, out);
   REQUIRE_MESSAGE(run.status == 0, run.err);
 
   const auto fresh = run_report(kDemo, dir.path / "fresh");
   REQUIRE(fresh.status == 0);
-  CHECK(read_bytes(out / "budget.md") == read_bytes(dir.path / "fresh" / "budget.md"));
-  CHECK(read_bytes(out / "notes.txt") == "the designer's own notes\n");
-  auto expected = snapshot(dir.path / "fresh");
+  CHECK(read_file(out / "budget.md") == read_file(dir.path / "fresh" / "budget.md"));
+  CHECK(read_file(out / "notes.txt") == "the designer's own notes\n");
+  auto expected = files_below(dir.path / "fresh");
   expected["notes.txt"] = "the designer's own notes\n";
-  const auto actual = snapshot(out);
+  const auto actual = files_below(out);
   std::vector<std::string> names, expected_names;
   for (const auto& [name, _] : actual) names.push_back(name);
   for (const auto& [name, _] : expected) expected_names.push_back(name);
@@ -339,19 +282,19 @@ TEST_CASE("report: an existing directory gets whole files; other files stay as t
 }
 
 TEST_CASE("report: bad input exits 2 and leaves the directory exactly as it was") {
-  TempDir dir;
+  TempDir dir("peakplan_report");
   const fs::path out = dir.path / "out";
   fs::create_directories(out);
-  write_bytes(out / "budget.md", "an earlier budget\n");
-  write_bytes(out / "index.html", "<p>an earlier page</p>\n");
-  write_bytes(out / "notes.txt", "notes\n");
-  const auto before = snapshot(out);
+  write_file(out / "budget.md", "an earlier budget\n");
+  write_file(out / "index.html", "<p>an earlier page</p>\n");
+  write_file(out / "notes.txt", "notes\n");
+  const auto before = files_below(out);
   const fs::path bad = kSource / "tests" / "bad_chains" / "missing_gm.toml";
   const auto run = run_report(bad, out);
   CHECK(run.status == 2);
   CHECK(run.out.empty());
   CHECK(run.err.find("error: ") != std::string::npos);
-  CHECK(snapshot(out) == before);
+  CHECK(files_below(out) == before);
 
   SUBCASE("a missing directory is not created") {
     const fs::path missing = dir.path / "not" / "there";
@@ -361,29 +304,29 @@ TEST_CASE("report: bad input exits 2 and leaves the directory exactly as it was"
   SUBCASE("a chain that leaves values to the planner, reported without --plan, writes nothing") {
     const auto planned = run_report(kSource / "tests" / "bad_chains" / "auto_value_in_analyze.toml", out);
     CHECK(planned.status == 2);
-    CHECK(snapshot(out) == before);
+    CHECK(files_below(out) == before);
   }
 }
 
 TEST_CASE("report: a report file that is the chain file itself is refused") {
-  TempDir dir;
+  TempDir dir("peakplan_report");
   const fs::path chain = dir.path / "chain.cir";  // the chain file under a report file's name
   fs::copy_file(kDemo, chain);
   const auto run = run_report(chain, dir.path);
   CHECK(run.status == 2);
   CHECK(run.err.find("overwrite the chain file") != std::string::npos);
-  CHECK(read_bytes(chain) == read_bytes(kDemo));
+  CHECK(read_file(chain) == read_file(kDemo));
   CHECK_FALSE(fs::exists(dir.path / "budget.md"));
 }
 
 TEST_CASE("report: every shipped chain produces every file") {
   for (const auto& entry : fs::directory_iterator(kSource / "chains")) {
     if (entry.path().extension() != ".toml") continue;
-    const std::string text = read_bytes(entry.path());
+    const std::string text = read_file(entry.path());
     // A chain that leaves values to the planner can only be reported planned.
     const bool needs_plan = text.find("\"auto\"") != std::string::npos;
     INFO(entry.path().filename().string() << (needs_plan ? " --plan" : ""));
-    TempDir dir;
+    TempDir dir("peakplan_report");
     const auto run = run_report(entry.path(), dir.path / "out", needs_plan ? "--plan" : "");
     CHECK_MESSAGE(run.status == 0, run.err);
     auto expected = kAlwaysWritten;
@@ -398,14 +341,14 @@ TEST_CASE("report: every shipped chain produces every file") {
 }
 
 TEST_CASE("report: --plan shows the values as written beside the planned ones, and the plan status") {
-  TempDir dir;
+  TempDir dir("peakplan_report");
   const auto run = run_report(kSource / "chains" / "plan_limiting_amp.toml", dir.path / "out", "--plan");
-  const auto doc = nlohmann::json::parse(read_bytes(dir.path / "out" / "result.json"));
+  const auto doc = nlohmann::json::parse(read_file(dir.path / "out" / "result.json"));
   REQUIRE(doc.contains("status"));
   CHECK((doc["status"] == "met" || doc["status"] == "not_met"));
   CHECK(run.status == (doc["status"] == "met" ? 0 : 1));
 
-  const auto md = read_bytes(dir.path / "out" / "budget.md");
+  const auto md = read_file(dir.path / "out" / "budget.md");
   const auto values = markdown_table(md, "## Plan: values as written and as planned");
   bool rd_auto = false, count_fixed = false;
   for (const auto& row : values) {
@@ -416,7 +359,7 @@ TEST_CASE("report: --plan shows the values as written beside the planned ones, a
   CHECK(rd_auto);
   CHECK(count_fixed);
   CHECK(md.find("no response of its own") != std::string::npos);  // every gm is "auto": no before
-  const auto html = read_bytes(dir.path / "out" / "index.html");
+  const auto html = read_file(dir.path / "out" / "index.html");
   CHECK(html.find("id=\"plan-values\"") != std::string::npos);
   CHECK(html.find("id=\"plan-metrics\"") != std::string::npos);
   // 5 copies, each a row of the budget.
@@ -424,10 +367,10 @@ TEST_CASE("report: --plan shows the values as written beside the planned ones, a
 }
 
 TEST_CASE("report: --plan on a chain with every value fixed compares before and after") {
-  TempDir dir;
+  TempDir dir("peakplan_report");
   const auto run = run_report(kDemo, dir.path / "out", "--plan");
   CHECK(run.status <= 1);
-  const auto md = read_bytes(dir.path / "out" / "budget.md");
+  const auto md = read_file(dir.path / "out" / "budget.md");
   const auto metrics = markdown_table(md, "## Plan: the main output before and after");
   REQUIRE_FALSE(metrics.empty());
   // Nothing to choose: the planned chain is the chain as written, so both columns agree.
@@ -438,19 +381,19 @@ TEST_CASE("report: --plan on a chain with every value fixed compares before and 
 }
 
 TEST_CASE("report: with [technology] gm_over_id every stage shows Id = gm / (gm/Id), and the current budget is checked") {
-  TempDir dir;
-  std::string text = read_bytes(kDemo);
+  TempDir dir("peakplan_report");
+  std::string text = read_file(kDemo);
   const auto at = text.find("inductor_q = 12");
   REQUIRE(at != std::string::npos);
   constexpr double gm_over_id = 12.5;  // 1/V, an arbitrary test value
   text.insert(at, "gm_over_id = 12.5\ncurrent_budget = \"20 mA\"\n");
   const fs::path chain = dir.path / "current.toml";
-  write_bytes(chain, text);
+  write_file(chain, text);
   const auto run = run_report(chain, dir.path / "out");
   REQUIRE_MESSAGE(run.status == 0, run.err);
 
   const auto csv = read_csv(dir.path / "out" / "budget.csv");
-  const auto doc = nlohmann::json::parse(read_bytes(dir.path / "out" / "result.json"));
+  const auto doc = nlohmann::json::parse(read_file(dir.path / "out" / "result.json"));
   const size_t current = csv.column("current_mA");
   const auto stages = csv.of_kind("stage");
   REQUIRE(stages.size() == doc["stages"].size());
@@ -471,5 +414,5 @@ TEST_CASE("report: with [technology] gm_over_id every stage shows Id = gm / (gm/
     CHECK((*row)[csv.column("check_met")] == (total_gm / gm_over_id <= 20e-3 ? "pass" : "fail"));
   }
   CHECK(checked);
-  CHECK(read_bytes(dir.path / "out" / "budget.md").find("| Id (mA) |") != std::string::npos);
+  CHECK(read_file(dir.path / "out" / "budget.md").find("| Id (mA) |") != std::string::npos);
 }

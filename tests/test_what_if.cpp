@@ -4,76 +4,23 @@
 // Plan values are never hard-coded: every plan check compares with a plan made in the test.
 #include <doctest/doctest.h>
 
-#include <sys/wait.h>
-
 #include <algorithm>
 #include <cmath>
-#include <cstdlib>
-#include <filesystem>
-#include <fstream>
 #include <nlohmann/json.hpp>
 #include <numbers>
 #include <sstream>
 #include <string>
 #include <vector>
 
-namespace fs = std::filesystem;
+#include "cli_support.hpp"
+
 using nlohmann::json;
+using namespace peakplan::test;
 
 namespace {
 
-std::string read_text(const fs::path& path) {
-  std::ifstream in(path, std::ios::binary);
-  std::ostringstream text;
-  text << in.rdbuf();
-  return text.str();
-}
-
-std::string shell_quoted(const std::string& s) {
-  std::string out = "'";
-  for (char c : s) out += c == '\'' ? std::string("'\\''") : std::string(1, c);
-  return out + "'";
-}
-
-// A fresh directory per test case for its chain files and captured output.
-struct Scratch {
-  fs::path dir;
-  Scratch() {
-    std::string name = (fs::temp_directory_path() / "peakplan_what_if_XXXXXX").string();
-    REQUIRE(mkdtemp(name.data()) != nullptr);
-    dir = name;
-  }
-  ~Scratch() {
-    std::error_code ec;
-    fs::remove_all(dir, ec);
-  }
-  std::string write(const std::string& name, const std::string& text) const {
-    const auto path = dir / name;
-    std::ofstream(path, std::ios::binary) << text;
-    return path.string();
-  }
-};
-
-struct CliRun {
-  int status = -1;
-  std::string out, err;
-};
-
-CliRun run(const Scratch& scratch, const std::vector<std::string>& args) {
-  std::string command = shell_quoted(PEAKPLAN_BINARY);
-  for (const auto& a : args) command += " " + shell_quoted(a);
-  const auto out = scratch.dir / "stdout", err = scratch.dir / "stderr";
-  command += " >" + shell_quoted(out.string()) + " 2>" + shell_quoted(err.string());
-  const int raw = std::system(command.c_str());
-  CliRun r;
-  r.status = raw != -1 && WIFEXITED(raw) ? WEXITSTATUS(raw) : -1;
-  r.out = read_text(out);
-  r.err = read_text(err);
-  return r;
-}
-
-json run_json(const Scratch& scratch, const std::vector<std::string>& args, int expected_status = 0) {
-  const auto r = run(scratch, args);
+json run_json(const std::vector<std::string>& args, int expected_status = 0) {
+  const auto r = run_cli(args);
   INFO("stderr: " << r.err);
   REQUIRE(r.status == expected_status);
   return json::parse(r.out);
@@ -172,55 +119,55 @@ const json& main_output(const json& analysis) { return analysis.at("outputs").ba
 }  // namespace
 
 TEST_CASE("what-if: --set changes exactly that value, as a hand edit of the file would") {
-  Scratch scratch;
+  TempDir scratch("peakplan_what_if");
   const auto original = scratch.write("original.toml", two_stage_chain("100 ohm"));
   const auto edited = scratch.write("edited.toml", two_stage_chain("80 ohm"));
-  const auto by_hand = run_json(scratch, {"analyze", edited, "--json"});
+  const auto by_hand = run_json({"analyze", edited, "--json"});
   // Unquoted, TOML-quoted and plain-number spellings of the same value (plain numbers are SI).
   for (const std::string set : {"s1.rd=80ohm", "s1.rd=\"80 ohm\"", "s1.rd=80"}) {
     CAPTURE(set);
-    const auto overridden = run_json(scratch, {"analyze", original, "--json", "--set", set});
+    const auto overridden = run_json({"analyze", original, "--json", "--set", set});
     // Both are the same computation on the same numbers: equal to rounding (1e-12).
     check_same_json(overridden, by_hand, 1e-12);
   }
   // The override did change something: s1's bandwidth differs from the file as written.
-  const auto as_written = run_json(scratch, {"analyze", original, "--json"});
+  const auto as_written = run_json({"analyze", original, "--json"});
   CHECK_FALSE(close(as_written["stages"][0]["bandwidth_hz"].get<double>(),
                     by_hand["stages"][0]["bandwidth_hz"].get<double>(), 1e-3));
   // A table key: [input] r_source set to 0 equals a file without the source resistance.
   std::string no_source = two_stage_chain("100 ohm");
   no_source.replace(no_source.find("r_source = \"50 ohm\""), 19, "r_source = 0");
-  const auto ideal_drive = run_json(scratch, {"analyze", scratch.write("ideal.toml", no_source), "--json"});
-  check_same_json(run_json(scratch, {"analyze", original, "--json", "--set", "input.r_source=0ohm"}), ideal_drive, 1e-12);
+  const auto ideal_drive = run_json({"analyze", scratch.write("ideal.toml", no_source), "--json"});
+  check_same_json(run_json({"analyze", original, "--json", "--set", "input.r_source=0ohm"}), ideal_drive, 1e-12);
 }
 
 TEST_CASE("what-if: a bad override names the override, exits 2 and prints nothing on stdout") {
-  Scratch scratch;
+  TempDir scratch("peakplan_what_if");
   const auto chain = scratch.write("chain.toml", two_stage_chain("100 ohm"));
-  const auto bad_value = run(scratch, {"analyze", chain, "--set", "s1.rd=80x"});
+  const auto bad_value = run_cli({"analyze", chain, "--set", "s1.rd=80x"});
   CHECK(bad_value.status == 2);
   CHECK(bad_value.out.empty());
   CHECK(bad_value.err.rfind("--set s1.rd=80x: error: stage 's1': rd: ", 0) == 0);
 
-  const auto unknown_id = run(scratch, {"analyze", chain, "--set", "bufer.rd=50"});
+  const auto unknown_id = run_cli({"analyze", chain, "--set", "bufer.rd=50"});
   CHECK(unknown_id.status == 2);
   CHECK(unknown_id.out.empty());
   CHECK(unknown_id.err.find("--set bufer.rd=50: error:") == 0);
   CHECK(unknown_id.err.find("did you mean 'buffer'?") != std::string::npos);
 
-  const auto unknown_table = run(scratch, {"analyze", chain, "--set", "signl.bit_rate=10Gb/s"});
+  const auto unknown_table = run_cli({"analyze", chain, "--set", "signl.bit_rate=10Gb/s"});
   CHECK(unknown_table.status == 2);
   CHECK(unknown_table.err.find("did you mean 'signal'?") != std::string::npos);
 
-  const auto unknown_key = run(scratch, {"analyze", chain, "--set", "buffer.rdd=50"});
+  const auto unknown_key = run_cli({"analyze", chain, "--set", "buffer.rdd=50"});
   CHECK(unknown_key.status == 2);
   CHECK(unknown_key.err.find("--set buffer.rdd=50: error: stage 'buffer': unknown key 'rdd'; did you mean 'rd'?") == 0);
 
-  const auto malformed = run(scratch, {"analyze", chain, "--set", "s1rd=80"});
+  const auto malformed = run_cli({"analyze", chain, "--set", "s1rd=80"});
   CHECK(malformed.status == 2);
   CHECK(malformed.err.find("--set s1rd=80: error: expected ID.KEY=VALUE") == 0);
 
-  const auto unknown_lock = run(scratch, {"plan", chain, "--lock", "bufer"});
+  const auto unknown_lock = run_cli({"plan", chain, "--lock", "bufer"});
   CHECK(unknown_lock.status == 2);
   CHECK(unknown_lock.out.empty());
   CHECK(unknown_lock.err.find("--lock bufer: error:") == 0);
@@ -228,14 +175,14 @@ TEST_CASE("what-if: a bad override names the override, exits 2 and prints nothin
 }
 
 TEST_CASE("what-if: --lock holds the locked stage at the baseline plan while a --set moves the rest") {
-  Scratch scratch;
+  TempDir scratch("peakplan_what_if");
   const auto chain = scratch.write("open.toml", two_open_stages("20 dB"));
-  const auto baseline = run_json(scratch, {"plan", chain, "--json"});
+  const auto baseline = run_json({"plan", chain, "--json"});
   REQUIRE(baseline["status"] == "met");
 
   // 6 dB more gain with stage a locked: a keeps the baseline's Rd to rounding (the lock
   // writes the plan's values at full precision), b takes all of it.
-  const auto locked = run_json(scratch, {"plan", chain, "--json", "--lock", "a", "--set", "target.gain=26dB"});
+  const auto locked = run_json({"plan", chain, "--json", "--lock", "a", "--set", "target.gain=26dB"});
   REQUIRE(locked["status"] == "met");
   CHECK(close(chosen(locked, "a", "rd"), chosen(baseline, "a", "rd"), 1e-12));
   // Derived: a plain stage's DC gain is gm*Rd, and a's gain is fixed, so b's Rd must rise by
@@ -245,16 +192,16 @@ TEST_CASE("what-if: --lock holds the locked stage at the baseline plan while a -
   CHECK(main_output(locked)["dc_gain_db"].get<double>() >= 26.0 - 1e-6);
 
   // Without the lock the same --set moves a too (so the lock is what held it).
-  const auto free = run_json(scratch, {"plan", chain, "--json", "--set", "target.gain=26dB"});
+  const auto free = run_json({"plan", chain, "--json", "--set", "target.gain=26dB"});
   CHECK_FALSE(close(chosen(free, "a", "rd"), chosen(baseline, "a", "rd"), 0.01));
 
   // A --set on a locked stage wins over the lock for that key.
-  const auto overridden = run_json(scratch, {"plan", chain, "--json", "--lock", "a", "--set", "a.rd=150ohm"});
+  const auto overridden = run_json({"plan", chain, "--json", "--lock", "a", "--set", "a.rd=150ohm"});
   CHECK(chosen(overridden, "a", "rd") == doctest::Approx(150.0).epsilon(1e-12));
 }
 
 TEST_CASE("what-if: compare's deltas are the differences of the two analyses; a stage only in B is shown") {
-  Scratch scratch;
+  TempDir scratch("peakplan_what_if");
   const auto a = scratch.write("a.toml", two_stage_chain("100 ohm"));
   const auto b = scratch.write("b.toml", two_stage_chain("80 ohm", R"([[stage]]
 id = "extra"
@@ -264,9 +211,9 @@ rd = "50 ohm"
 c_in = "10 fF"
 c_out = "5 fF"
 )"));
-  const auto analysis_a = run_json(scratch, {"analyze", a, "--json"});
-  const auto analysis_b = run_json(scratch, {"analyze", b, "--json"});
-  const auto doc = run_json(scratch, {"compare", a, b, "--json"});
+  const auto analysis_a = run_json({"analyze", a, "--json"});
+  const auto analysis_b = run_json({"analyze", b, "--json"});
+  const auto doc = run_json({"compare", a, b, "--json"});
 
   CHECK(doc["a"]["planned"] == false);
   CHECK(doc["b"]["main_output"] == "extra");
@@ -302,28 +249,28 @@ c_out = "5 fF"
   CHECK(doc["stages"][2]["a"].is_null());
   CHECK(doc["stages"][2]["b"]["kind"] == "plain");
 
-  const auto text = run(scratch, {"compare", a, b});
+  const auto text = run_cli({"compare", a, b});
   CHECK(text.status == 0);
   CHECK(text.out.find("extra    only in B: plain") != std::string::npos);
 }
 
 TEST_CASE("what-if: compare plans a file with open values first and says so") {
-  Scratch scratch;
+  TempDir scratch("peakplan_what_if");
   const auto fixed = scratch.write("fixed.toml", two_stage_chain("100 ohm"));
   const auto open = scratch.write("open.toml", two_open_stages("20 dB"));
-  const auto plan = run_json(scratch, {"plan", open, "--json"});
-  const auto doc = run_json(scratch, {"compare", fixed, open, "--json"});
+  const auto plan = run_json({"plan", open, "--json"});
+  const auto doc = run_json({"compare", fixed, open, "--json"});
   CHECK(doc["b"]["planned"] == true);
   CHECK(doc["b"]["status"] == plan["status"]);
   CHECK(close(doc["metrics"]["bandwidth_hz"]["b"].get<double>(), main_output(plan)["bandwidth_hz"].get<double>(), 1e-12));
-  const auto text = run(scratch, {"compare", fixed, open});
+  const auto text = run_cli({"compare", fixed, open});
   CHECK(text.out.find("planned first") != std::string::npos);
 }
 
 TEST_CASE("what-if: every sweep row equals analyze --set at that point") {
-  Scratch scratch;
+  TempDir scratch("peakplan_what_if");
   const auto chain = scratch.write("chain.toml", two_stage_chain("100 ohm"));
-  const auto sweep = run_json(scratch, {"sweep", chain, "--vary", "s1.rd=60ohm:140ohm:3", "--format", "json"});
+  const auto sweep = run_json({"sweep", chain, "--vary", "s1.rd=60ohm:140ohm:3", "--format", "json"});
   REQUIRE(sweep["rows"].size() == 3);
   const double expected_values[] = {60.0, 100.0, 140.0};  // linear from START to STOP
   for (size_t i = 0; i < 3; ++i) {
@@ -331,7 +278,7 @@ TEST_CASE("what-if: every sweep row equals analyze --set at that point") {
     CHECK(row["value"].get<double>() == doctest::Approx(expected_values[i]).epsilon(1e-12));
     char value[64];
     std::snprintf(value, sizeof value, "%.17g", row["value"].get<double>());
-    const auto analysis = run_json(scratch, {"analyze", chain, "--json", "--set", std::string("s1.rd=") + value});
+    const auto analysis = run_json({"analyze", chain, "--json", "--set", std::string("s1.rd=") + value});
     const auto& out = main_output(analysis);
     for (const std::string key : {"dc_gain_db", "bandwidth_hz", "peaking_db", "overshoot_pct", "group_delay_ripple_s"}) {
       CAPTURE(key);
@@ -340,7 +287,7 @@ TEST_CASE("what-if: every sweep row equals analyze --set at that point") {
     CHECK(close(row["prbs_height"].get<double>(), out["eye"]["prbs_height"].get<double>(), 1e-12));
   }
 
-  const auto csv = run(scratch, {"sweep", chain, "--vary", "s1.rd=60ohm:140ohm:5", "--format", "csv"});
+  const auto csv = run_cli({"sweep", chain, "--vary", "s1.rd=60ohm:140ohm:5", "--format", "csv"});
   REQUIRE(csv.status == 0);
   std::istringstream lines(csv.out);
   std::string header, line;
@@ -355,7 +302,7 @@ TEST_CASE("what-if: every sweep row equals analyze --set at that point") {
 }
 
 TEST_CASE("what-if: a swept single plain stage's bandwidth follows 1/(2 pi Rd C)") {
-  Scratch scratch;
+  TempDir scratch("peakplan_what_if");
   const auto chain = scratch.write("one.toml", R"([chain]
 name = "one plain stage"
 [[stage]]
@@ -365,7 +312,7 @@ gm = "20 mS"
 rd = "100 ohm"
 c_load = "100 fF"
 )");
-  const auto sweep = run_json(scratch, {"sweep", chain, "--vary", "s1.rd=50:200:4", "--format", "json"});
+  const auto sweep = run_json({"sweep", chain, "--vary", "s1.rd=50:200:4", "--format", "json"});
   REQUIRE(sweep["rows"].size() == 4);
   for (const auto& row : sweep["rows"]) {
     const double rd = row["value"].get<double>();
@@ -378,10 +325,10 @@ c_load = "100 fF"
 }
 
 TEST_CASE("what-if: sweep --replan re-plans every point and reports status and the open values") {
-  Scratch scratch;
+  TempDir scratch("peakplan_what_if");
   const auto chain = scratch.write("open.toml", two_open_stages("20 dB"));
   const auto sweep =
-      run_json(scratch, {"sweep", chain, "--vary", "target.gain=14dB:26dB:3", "--replan", "--format", "json"});
+      run_json({"sweep", chain, "--vary", "target.gain=14dB:26dB:3", "--replan", "--format", "json"});
   REQUIRE(sweep["rows"].size() == 3);
   REQUIRE(sweep["open"].size() == 2);
   CHECK(sweep["open"][0]["id"] == "a");
@@ -391,7 +338,7 @@ TEST_CASE("what-if: sweep --replan re-plans every point and reports status and t
     // Each point equals a plan of the file with the gain set there.
     char value[64];
     std::snprintf(value, sizeof value, "target.gain=%.17g", gain);
-    const auto plan = run_json(scratch, {"plan", chain, "--json", "--set", value});
+    const auto plan = run_json({"plan", chain, "--json", "--set", value});
     CHECK(row["status"] == plan["status"]);
     CHECK(close(row["chosen"]["a.rd"].get<double>(), chosen(plan, "a", "rd"), 1e-12));
     CHECK(close(row["chosen"]["b.rd"].get<double>(), chosen(plan, "b", "rd"), 1e-12));
@@ -401,14 +348,14 @@ TEST_CASE("what-if: sweep --replan re-plans every point and reports status and t
           doctest::Approx(gain).epsilon(1e-3));
   }
   // Without --replan the open values are planned once and held while the key varies.
-  const auto held = run_json(scratch, {"sweep", chain, "--vary", "b.rd=100ohm:200ohm:2", "--format", "json"});
+  const auto held = run_json({"sweep", chain, "--vary", "b.rd=100ohm:200ohm:2", "--format", "json"});
   CHECK(held["held_plan"] == "met");
   CHECK(held["rows"][1]["dc_gain_db"].get<double>() - held["rows"][0]["dc_gain_db"].get<double>() ==
         doctest::Approx(20.0 * std::log10(2.0)).epsilon(1e-9));  // derived: gain is linear in b's Rd
 }
 
 TEST_CASE("what-if: a malformed --vary is an input error naming it") {
-  Scratch scratch;
+  TempDir scratch("peakplan_what_if");
   const auto chain = scratch.write("chain.toml", two_stage_chain("100 ohm"));
   const std::pair<const char*, const char*> cases[] = {
       {"s1.rd=60ohm:140ohm", "is not START:STOP:N"},
@@ -421,7 +368,7 @@ TEST_CASE("what-if: a malformed --vary is an input error naming it") {
   };
   for (const auto& [vary, message] : cases) {
     CAPTURE(vary);
-    const auto r = run(scratch, {"sweep", chain, "--vary", vary});
+    const auto r = run_cli({"sweep", chain, "--vary", vary});
     CHECK(r.status == 2);
     CHECK(r.out.empty());
     CHECK(r.err.find(std::string("--vary ") + vary + ": error: ") == 0);

@@ -3,69 +3,14 @@
 
 #include "planner/plan_problem.hpp"
 #include "planner/planner.hpp"
+#include "../six_open_stages.hpp"
 
 namespace {
 
-constexpr const char* kSixStageChain = R"(
-[target]
-gain = "42 dB"
-bandwidth = "36 GHz"
-objective = "flattest"
-[limits]
-overshoot = "5 %"
-peaking = "1 dB"
-group_delay_ripple = "2 ps"
-[technology]
-ft = "250 GHz"
-c_out_ratio = 0.6
-max_inductance = "1 nH"
-max_gm = "80 mS"
-k_range = [0.2, 0.7]
-[[stage]]
-id = "s1"
-kind = "tcoil"
-gm = "auto"
-rd = "auto"
-l1 = "auto"
-l2 = "auto"
-k = "auto"
-cb = "auto"
-c_load = "60 fF"
-[[stage]]
-id = "s2"
-kind = "shunt"
-gm = "auto"
-rd = "auto"
-l = "auto"
-[[stage]]
-id = "s3"
-kind = "series"
-gm = "auto"
-rd = "auto"
-l = "auto"
-[[stage]]
-id = "s4"
-kind = "shunt"
-gm = "auto"
-rd = "auto"
-l = "auto"
-[[stage]]
-id = "s5"
-kind = "shunt"
-gm = "auto"
-rd = "auto"
-l = "auto"
-[[stage]]
-id = "s6"
-kind = "plain"
-gm = "auto"
-rd = "auto"
-c_load = "20 fF"
-)";
 
 void plan_six_stages(benchmark::State& state) {
   peakplan::Diagnostics d("bench.toml");
-  const auto spec = peakplan::parse_chain_spec(kSixStageChain, d);
+  const auto spec = peakplan::parse_chain_spec(peakplan::test::kSixOpenStages, d);
   int evaluations = 0;
   for (auto _ : state) {
     peakplan::Diagnostics pd("bench.toml");
@@ -83,7 +28,7 @@ BENCHMARK(plan_six_stages)->Unit(benchmark::kMillisecond)->Iterations(3);
 // and as the final plan is measured.
 void evaluate_candidate(benchmark::State& state) {
   peakplan::Diagnostics d("bench.toml");
-  const auto spec = peakplan::parse_chain_spec(kSixStageChain, d);
+  const auto spec = peakplan::parse_chain_spec(peakplan::test::kSixOpenStages, d);
   const auto combo = peakplan::combinations(*spec).front();
   const auto graph = peakplan::build_stage_graph(*spec, d, &combo.counts);
   const peakplan::Problem problem(*spec, combo, *graph);

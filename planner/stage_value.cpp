@@ -1,0 +1,33 @@
+#include "planner/stage_value.hpp"
+
+#include <limits>
+
+namespace peakplan {
+
+double stage_value(const ChainStage& stage, std::string_view key) {
+  constexpr double nan = std::numeric_limits<double>::quiet_NaN();
+  const auto& c = stage.circuit;
+  const auto& info = load_kind_info(c.kind);
+  const bool common = key == "gm" || key == "rd" || key == "c_in" || key == "c_out" || key == "c_load" || key == "r_load";
+  bool in_kind = false;
+  for (const auto& p : info.parameters) in_kind = in_kind || p.key == key;
+  if (!common && !in_kind) return nan;
+  if (key == "gm") return c.gm;
+  if (key == "rd") return c.rd;
+  if (key == "c_in") return stage.c_in;
+  if (key == "c_out") return c.c_out;
+  if (key == "c_load") return stage.c_load;
+  if (key == "r_load") return c.r_load;
+  if (key == "l") return c.l;
+  if (key == "r_l") return c.kind == LoadKind::tcoil ? c.r_l1 : c.r_l;
+  if (key == "l1") return c.l1;
+  if (key == "l2") return c.l2;
+  if (key == "k") return c.k;
+  if (key == "cb") return c.cb;
+  if (key == "c_w") return c.c_w;
+  if (key == "r_l1") return c.r_l1;
+  if (key == "r_l2") return c.r_l2;
+  return nan;
+}
+
+}  // namespace peakplan
