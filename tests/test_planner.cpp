@@ -171,10 +171,8 @@ l = "auto"
 }
 
 TEST_CASE("planner: plan, write, analyze reproduces the plan's metrics and meets every limit") {
-  const auto dir = std::filesystem::temp_directory_path() / "peakplan_plan_write_test";
-  std::filesystem::create_directories(dir);
-  const auto written = (dir / "planned.toml").string();
-  std::filesystem::remove(written);
+  const TempDir dir("peakplan_plan_write");
+  const auto written = (dir.path / "planned.toml").string();
   const auto [plan_status, plan_out] =
       run("plan " + std::string(PEAKPLAN_SOURCE_DIR) + "/chains/plan_limiting_amp.toml --json --write " + written);
   REQUIRE(plan_status == 0);
@@ -196,9 +194,8 @@ TEST_CASE("planner: plan, write, analyze reproduces the plan's metrics and meets
 TEST_CASE("planner: an infeasible target exits 1, reports not_met and names the binding check") {
   // One plain stage has a fixed gain-bandwidth gm/(2 pi C) = 20 mS/(2 pi 100 fF) = 31.8 GHz, so
   // 20 dB at 10 GHz is possible and 20 dB at 40 GHz is not (derived).
-  const auto dir = std::filesystem::temp_directory_path() / "peakplan_infeasible_test";
-  std::filesystem::create_directories(dir);
-  const auto file = (dir / "infeasible.toml").string();
+  const TempDir dir("peakplan_infeasible");
+  const auto file = (dir.path / "infeasible.toml").string();
   std::ofstream(file) << R"(
 [target]
 gain = "20 dB"
