@@ -185,11 +185,11 @@ std::vector<double> upper_units(const Problem& p) {
 // The global stage for one combination: a multi-start in the design space, from the closed-form
 // seed (start 0) and fixed-seed random points (starts first .. last-1).
 Candidate explore_design_space(Search& search, const Problem& p, Candidate best, int first, int last,
-                               std::mt19937& random) {
+                               int evaluations_per_dimension, std::mt19937& random) {
   const auto& lo = p.design_lower();
   const auto& hi = p.design_upper();
   const auto expand = [&p](const std::vector<double>& z) { return p.expand(z); };
-  const int budget = 25 * static_cast<int>(p.design_dimensions() + 2);
+  const int budget = evaluations_per_dimension * static_cast<int>(p.design_dimensions() + 2);
   if (p.design_dimensions() == 0) last = std::min(last, 1);
   for (int start = first; start < last; ++start) {
     auto z = p.design_seed();
@@ -301,11 +301,12 @@ std::optional<Plan> plan_chain(const ChainSpec& spec, Diagnostics& diagnostics, 
   auto by_score = [](const Candidate& a, const Candidate& b) { return a.score.better_than(b.score); };
   std::vector<Candidate> explored;
   for (size_t i = 0; i < problems.size(); ++i)
-    explored.push_back(explore_design_space(search, problems[i], Candidate{i, {}, {}}, 0, 1, random));
+    explored.push_back(explore_design_space(search, problems[i], Candidate{i, {}, {}}, 0, 1,
+                                            problems.size() > 3 ? 15 : 25, random));
   std::stable_sort(explored.begin(), explored.end(), by_score);
   const size_t kept = std::min(explored.size(), size_t{3});
   for (size_t r = 0; r < kept; ++r)
-    explored[r] = explore_design_space(search, problems[explored[r].problem], explored[r], 1, options.starts, random);
+    explored[r] = explore_design_space(search, problems[explored[r].problem], explored[r], 1, options.starts, 25, random);
   std::stable_sort(explored.begin(), explored.begin() + static_cast<std::ptrdiff_t>(kept), by_score);
 
   // 2. Local: the most promising combinations in the full space.
