@@ -4,13 +4,12 @@
 // written whole (a temporary name in DIR, then a rename). Bad input writes nothing and leaves
 // DIR as it was; files in DIR that are not part of the report are never touched.
 #include <filesystem>
-#include <fstream>
 #include <iostream>
 #include <memory>
-#include <sstream>
 
 #include "planner/commands/command.hpp"
 #include "planner/chain_graph.hpp"
+#include "planner/overrides.hpp"
 #include "planner/planner.hpp"
 #include "reports/report_bundle.hpp"
 
@@ -25,14 +24,6 @@ struct ReportArgs {
   bool plan = false;
 };
 
-std::optional<std::string> read_text(const std::string& path) {
-  std::ifstream in(path, std::ios::binary);
-  if (!in) return std::nullopt;
-  std::ostringstream text;
-  text << in.rdbuf();
-  return text.str();
-}
-
 int run_report(const ReportArgs& args) {
   Diagnostics diagnostics(args.chain);
   const auto spec = load_chain_spec(args.chain, diagnostics);
@@ -40,9 +31,9 @@ int run_report(const ReportArgs& args) {
     std::cerr << diagnostics.format();
     return bad_input;
   }
-  const auto text = read_text(args.chain);
+  const auto text = read_chain_text(args.chain, diagnostics);
   if (!text) {
-    std::cerr << args.chain << ": error: cannot read the chain file\n";
+    std::cerr << diagnostics.format();
     return bad_input;
   }
   const auto options = analysis_options(*spec);
