@@ -64,12 +64,14 @@ td.id { font-family: ui-monospace, "DejaVu Sans Mono", monospace; font-size: 13p
 .plots { display: grid; grid-template-columns: repeat(2, minmax(0, 1fr)); gap: 18px; }
 figure { margin: 0; background: var(--card); border: 1px solid var(--rule); border-radius: 8px; padding: 10px; }
 figure svg { display: block; width: 100%; height: auto; }
+/* An odd plot out (the pole-zero map of a chain with an eye) sits centred under the pairs. */
+.plots figure:last-child:nth-child(odd) { grid-column: 1 / -1; justify-self: center; width: calc(50% - 9px); }
 figcaption { font-size: 13px; color: var(--muted); margin-top: 6px; }
 figcaption b { color: var(--ink); }
 pre.chain-file { background: #22272b; color: #e8e4da; padding: 14px 16px; border-radius: 8px;
   overflow-x: auto; font: 12.5px/1.5 ui-monospace, "DejaVu Sans Mono", monospace; }
 footer { color: var(--muted); font-size: 12px; padding: 10px 0 30px; }
-@media (max-width: 900px) { .plots, .two { grid-template-columns: 1fr; } }
+@media (max-width: 900px) { .plots, .two { grid-template-columns: 1fr; } .plots figure:last-child:nth-child(odd) { width: auto; } }
 @media print {
   @page { size: A4 landscape; margin: 12mm; }
   html, body { background: #fff; font-size: 11px; }
