@@ -202,6 +202,7 @@ FrequencyMetrics frequency_metrics(const Cascade& cascade, double ripple_band_hz
       (mag(mid) >= level ? a : b) = mid;
     }
     m.bandwidth_hz = freq(0.5 * (a + b));
+    if (scan.bandwidth_only) return m;
     // Sags: interior minima of the scan before the crossing that the response rises out of
     // (by more than 0.01 dB, so that numerical flatness is not one).
     double rise_after = 0.0;

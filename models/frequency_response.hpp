@@ -62,6 +62,7 @@ std::pair<double, double> natural_span(const Cascade& cascade, double margin_dec
 struct ScanResolution {
   double margin_decades = 3.0;
   int per_decade = 60;
+  bool bandwidth_only = false;  // stop once the bandwidth is found (no peak, sag or ripple)
 };
 
 // ripple_band_hz: upper end of the group-delay ripple band; NaN means up to the bandwidth.

@@ -168,10 +168,13 @@ Rational NodalSystem::rational() const {
   const Eigen::VectorXcd& rhs = assembled().b;
 
   // Interpolates p(rho*z) on the unit circle; returns coefficients of powers of (rho*z).
+  // The sample points and the DFT weights are the same roots of unity: w[m] = exp(-2 pi i m / N).
+  std::vector<std::complex<double>> w(static_cast<size_t>(samples));
+  for (int m = 0; m < samples; ++m) w[static_cast<size_t>(m)] = std::polar(1.0, -2.0 * std::numbers::pi * m / samples);
   auto interpolate = [&](double rho, std::vector<double>& num, std::vector<double>& den) {
     std::vector<std::complex<double>> d_samples(samples), n_samples(samples);
     for (int j = 0; j < samples; ++j) {
-      const auto z = std::polar(1.0, 2.0 * std::numbers::pi * j / samples);
+      const auto z = std::conj(w[static_cast<size_t>(j)]);
       const Eigen::PartialPivLU<Eigen::MatrixXcd> lu(g + (rho * z) * c);
       const auto det = lu.determinant();
       d_samples[j] = det;
@@ -182,9 +185,9 @@ Rational NodalSystem::rational() const {
     for (int k = 0; k < samples; ++k) {
       std::complex<double> dn = 0, nn = 0;
       for (int j = 0; j < samples; ++j) {
-        const auto w = std::polar(1.0, -2.0 * std::numbers::pi * j * k / samples);
-        dn += d_samples[j] * w;
-        nn += n_samples[j] * w;
+        const auto& wk = w[static_cast<size_t>((j * k) % samples)];
+        dn += d_samples[j] * wk;
+        nn += n_samples[j] * wk;
       }
       den[k] = dn.real() / samples;
       num[k] = nn.real() / samples;

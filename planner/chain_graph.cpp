@@ -178,7 +178,9 @@ void apply_designs(Chain& chain, const ChainSpec& spec, const std::vector<GraphS
                                       : c.kind == LoadKind::tcoil && !has_l &&
                                             (!s.find("r_l1") || !s.find("r_l2")));
     if (needs_loss) {
-      const auto bw = frequency_metrics(Cascade({build_stage_system(c).rational()}), not_found, scan).bandwidth_hz;
+      ScanResolution edge_only = scan;
+      edge_only.bandwidth_only = true;
+      const auto bw = frequency_metrics(Cascade({build_stage_system(c).rational()}), not_found, edge_only).bandwidth_hz;
       if (std::isfinite(bw)) {
         if (c.kind == LoadKind::tcoil) {
           if (!s.find("r_l1")) c.r_l1 = loss_resistance(c.l1, *q, bw);
