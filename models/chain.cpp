@@ -67,7 +67,16 @@ Rational stage_rational(const ChainStage& stage) {
 Cascade output_cascade(const Chain& chain, int output) {
   Cascade cascade;
   cascade.append(source_rational(chain));
-  for (int s : chain.path_to(output)) cascade.append(stage_rational(chain.stages[static_cast<size_t>(s)]));
+  // Copies of a counted stage are the same circuit: derive each distinct circuit once.
+  const ChainStage* previous = nullptr;
+  for (int s : chain.path_to(output)) {
+    const auto& stage = chain.stages[static_cast<size_t>(s)];
+    if (previous && previous->circuit == stage.circuit)
+      cascade.append(cascade.blocks().back());
+    else
+      cascade.append(stage_rational(stage));
+    previous = &stage;
+  }
   return cascade;
 }
 

@@ -31,6 +31,7 @@ struct StageCircuit {
   double c_out = 0.0;   // the stage's own drain-node parasitic
   double c_node = 0.0;  // on the output node: c_in of every stage fed, plus c_load
   double r_load = std::numeric_limits<double>::infinity();  // on the output node; inf = open
+  bool operator==(const StageCircuit&) const = default;
 };
 
 // One key a kind accepts in a [[stage]] table, beyond the keys every stage has.
