@@ -3,6 +3,7 @@
 #include <cmath>
 #include <numbers>
 
+#include "models/eye_overlay.hpp"
 #include "models/peaking_design.hpp"
 
 namespace peakplan {
@@ -113,13 +114,22 @@ ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) 
     }
     OutputSummary summary{out, summarise(cascade, exact, options), std::nullopt};
     if (options.signal) {
-      EyeSummary eye{estimate_eye(cascade, *options.signal), {}, std::nullopt, std::nullopt};
-      if (options.keep_waveforms)
-        eye.traces = eye_traces(eye.estimate.pulse, eye.estimate.prbs, *options.signal);
+      const Signal& signal = *options.signal;
+      EyeSummary eye;
+      if (options.keep_waveforms) {
+        // Measure and draw the eye from one overlay.
+        eye.estimate.pulse = pulse_response(cascade, signal);
+        const EyeOverlay built(eye.estimate.pulse, signal);
+        eye.estimate.pda = built.pda;
+        eye.estimate.prbs = prbs_eye(eye.estimate.pulse, signal, built);
+        eye.traces = eye_traces(eye.estimate.pulse, eye.estimate.prbs, signal, built);
+      } else {
+        eye.estimate = estimate_eye(cascade, signal);
+      }
       const ChainNoise noise(chain, out, options.noise);
       eye.noise = summarise_noise(noise);
       if (options.swing_given)
-        eye.statistical = statistical_eye(eye.estimate.pulse, eye.estimate.prbs, *options.signal, eye.noise.output_rms_v);
+        eye.statistical = statistical_eye(eye.estimate.pulse, eye.estimate.prbs, signal, eye.noise.output_rms_v);
       summary.eye = std::move(eye);
     }
     result.outputs.push_back(std::move(summary));

@@ -129,12 +129,14 @@ PeakDistortion peak_distortion(const PulseResponse& pulse, Modulation modulation
   return r;
 }
 
-PrbsEye prbs_eye(const PulseResponse& pulse, const Signal& signal) {
-  const auto pda = peak_distortion(pulse, signal.modulation);
+PrbsEye prbs_eye(const PulseResponse& pulse, const Signal& signal) { return prbs_eye(pulse, signal, EyeOverlay(pulse, signal)); }
+
+PrbsEye prbs_eye(const PulseResponse& pulse, const Signal& signal, const EyeOverlay& built) {
+  const auto& pda = built.pda;
+  const auto& overlay = built.overlay;
+  const auto& envelope = built.envelope;
   const int n = pulse.steps_per_ui;
   const bool pam4 = signal.modulation == Modulation::pam4;
-  const PatternOverlay overlay(pulse, signal, pda);
-  const OverlayEnvelope envelope(overlay);
   const int eyes = overlay.eye_count();
 
   PrbsEye r;

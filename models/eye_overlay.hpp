@@ -77,6 +77,19 @@ struct OverlayEnvelope {
   }
 };
 
+// The overlay of one pulse response and its envelope: what prbs_eye measures and eye_traces
+// draws, built once when both are wanted (the overlay is most of an eye's cost).
+struct EyeOverlay {
+  EyeOverlay(const PulseResponse& pulse, const Signal& signal)
+      : pda(peak_distortion(pulse, signal.modulation)), overlay(pulse, signal, pda), envelope(overlay) {}
+  PeakDistortion pda;
+  PatternOverlay overlay;
+  OverlayEnvelope envelope;
+};
+
+// prbs_eye on an overlay already built for `pulse` and `signal`.
+PrbsEye prbs_eye(const PulseResponse& pulse, const Signal& signal, const EyeOverlay& built);
+
 // The ends (in samples) of the contiguous region around `centre` where f > 0 within
 // [first, last], each interpolated linearly between the last open and the first closed sample
 // (or at the bound when the region reaches it); both at centre when f(centre) <= 0.

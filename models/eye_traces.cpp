@@ -11,11 +11,16 @@ namespace peakplan {
 
 EyeTraces eye_traces(const PulseResponse& pulse, const PrbsEye& prbs, const Signal& signal,
                      const EyeTraceLimits& limits) {
+  return eye_traces(pulse, prbs, signal, EyeOverlay(pulse, signal), limits);
+}
+
+EyeTraces eye_traces(const PulseResponse& pulse, const PrbsEye& prbs, const Signal& signal,
+                     const EyeOverlay& built, const EyeTraceLimits& limits) {
   if (limits.max_traces < 1 || limits.points_per_ui < 1)
     throw std::invalid_argument("eye_traces: max_traces and points_per_ui must be at least 1");
   if (prbs.modulation != signal.modulation)
     throw std::invalid_argument("eye_traces: the eye was computed for another modulation");
-  const auto pda = peak_distortion(pulse, signal.modulation);
+  const auto& pda = built.pda;
   const double dt = pulse.dt();
   if (std::fabs(prbs.sample_time_s - prbs.eye.best_offset_s - pda.sample_time_s) > 1e-3 * dt)
     throw std::invalid_argument("eye_traces: the eye does not belong to this pulse response");
@@ -24,8 +29,8 @@ EyeTraces eye_traces(const PulseResponse& pulse, const PrbsEye& prbs, const Sign
     throw std::invalid_argument("eye_traces: the eye has the wrong number of openings");
 
   const long n = pulse.steps_per_ui;
-  const PatternOverlay overlay(pulse, signal, pda);
-  const OverlayEnvelope envelope(overlay);
+  const auto& overlay = built.overlay;
+  const auto& envelope = built.envelope;
   auto samples = [&](double offset_s) { return std::lround(offset_s / dt); };
 
   EyeTraces r;

@@ -3,8 +3,8 @@
 // The waveform is the one prbs_eye measures, built by the same PatternOverlay
 // (models/eye_overlay.hpp), so a trace sample equals the overlay's sample bit for bit.
 //
-// The full overlay is rebuilt here (the same cost as prbs_eye) because the markers need the
-// envelope of every trace at every offset, not only at the best one, and which symbol set it.
+// The markers need the envelope of every trace at every offset, not only at the best one, and
+// which symbol set it; pass the EyeOverlay prbs_eye used to avoid building it twice.
 //
 // Symbol k's trace is the output at offsets within +-1 UI of its sampling instant
 // (pda.sample_time_s + k*UI after the start of symbol 0's pulse), the convention of prbs_eye.
@@ -69,5 +69,11 @@ struct EyeTraceLimits {
 // pulse/prbs pair that do not belong together (different modulation or sampling reference).
 EyeTraces eye_traces(const PulseResponse& pulse, const PrbsEye& prbs, const Signal& signal,
                      const EyeTraceLimits& limits = {});
+
+// The same on an overlay already built for `pulse` and `signal` (models/eye_overlay.hpp), so
+// that measuring and drawing an eye build it once.
+struct EyeOverlay;
+EyeTraces eye_traces(const PulseResponse& pulse, const PrbsEye& prbs, const Signal& signal,
+                     const EyeOverlay& built, const EyeTraceLimits& limits = {});
 
 }  // namespace peakplan
