@@ -155,7 +155,7 @@ double Problem::value(const std::vector<double>& u, size_t stage, std::string_vi
   return a && a->is_fixed() ? a->value : fallback;
 }
 
-Chain Problem::build(const std::vector<double>& u, Fidelity fidelity) const {
+Chain Problem::assemble(const std::vector<double>& u) const {
   std::vector<StageCircuit> circuits(spec_.stages.size());
   std::vector<double> c_in(spec_.stages.size()), c_load(spec_.stages.size());
   for (size_t i = 0; i < spec_.stages.size(); ++i) {
@@ -185,7 +185,11 @@ Chain Problem::build(const std::vector<double>& u, Fidelity fidelity) const {
     c.r_l1 = value(u, i, "r_l1", r_l);
     c.r_l2 = value(u, i, "r_l2", r_l);
   }
-  Chain chain = assemble_chain(spec_, graph_, circuits, c_in, c_load);
+  return assemble_chain(spec_, graph_, circuits, c_in, c_load);
+}
+
+Chain Problem::build(const std::vector<double>& u, Fidelity fidelity) const {
+  Chain chain = assemble(u);
   apply_designs(chain, spec_, graph_, fidelity == Fidelity::final ? ScanResolution{} : search_scan());
   return chain;
 }
@@ -266,8 +270,9 @@ std::vector<double> Problem::expand(const std::vector<double>& z) const {
   }
   for (size_t v = 0; v < variables_.size(); ++v)
     if (variables_[v].key == "rd") set(v, stage_gain / std::max(value(u, variables_[v].spec, "gm", 0.02), 1e-6));
-  // Peaking elements from the published designs, against each stage's actual load.
-  const Chain chain = build(u);
+  // Peaking elements from the published designs, against each stage's actual load (the node
+  // capacitances are all they need, so no designs or losses are resolved here).
+  const Chain chain = assemble(u);
   for (size_t v = 0; v < variables_.size(); ++v) {
     const auto& var = variables_[v];
     const auto stage = std::find_if(graph_.begin(), graph_.end(), [&](const GraphStage& g) { return g.spec == var.spec; });

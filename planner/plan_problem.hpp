@@ -72,6 +72,8 @@ class Problem {
  private:
   enum class Axis { stage_gain, size, taper, m_shunt, m_series, zeta };
   double value(const std::vector<double>& u, size_t stage, std::string_view key, double fallback) const;
+  // The chain with element values and node capacitances only (no designs, no Q losses).
+  Chain assemble(const std::vector<double>& u) const;
   int variable_index(size_t stage, std::string_view key) const;
 
   const ChainSpec& spec_;
