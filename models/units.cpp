@@ -109,7 +109,7 @@ std::string describe(Dimension d) {
     case Dimension::temperature: return "a temperature (K, e.g. 300)";
     case Dimension::noise_density: return "a noise density (V/rtHz, e.g. \"10 nV/rtHz\")";
     case Dimension::decibels: return "a level in dB (e.g. \"30 dB\")";
-    case Dimension::fraction: return "a fraction (e.g. \"5 %\" or 0.05)";
+    case Dimension::fraction: return "a percentage (e.g. \"5 %\")";
     case Dimension::dimensionless: return "a plain number";
   }
   return "a value";

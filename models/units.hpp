@@ -22,8 +22,8 @@ enum class Dimension {
   current,        // A
   temperature,    // K
   noise_density,  // V/rtHz
-  decibels,       // dB: "30 dB" or a plain number taken as dB
-  fraction,       // plain number; "5 %" = 0.05
+  decibels,       // dB: "30 dB" (a chain file must give the unit)
+  fraction,       // "5 %" = 0.05 (a chain file must give the unit)
   dimensionless,  // plain number only
 };
 

@@ -3,11 +3,13 @@
 #include <algorithm>
 #include <cmath>
 #include <filesystem>
+#include <fmt/format.h>
 #include <set>
 #include <sstream>
 #include <toml++/toml.h>
 
 #include "planner/overrides.hpp"
+#include "planner/plausible_range.hpp"
 
 namespace peakplan {
 namespace {
@@ -66,6 +68,16 @@ std::string shown(const toml::node& node) {
   return out.str();
 }
 
+// What to write instead of a bare number for a dB or % key (DESIGN.md section 3): the number
+// with its unit, and for a percentage the reading as a fraction too, since both are common.
+std::string unit_string_hint(double x, Dimension dim) {
+  if (dim == Dimension::decibels)
+    return fmt::format("write the level with its unit, e.g. \"{} dB\"", x);
+  std::string hint = fmt::format("write the percentage with its unit, e.g. \"{} %\"", x);
+  if (std::fabs(x) < 1.0) hint += fmt::format(" (or \"{} %\" if {} was meant as a fraction)", 100.0 * x, x);
+  return hint;
+}
+
 class Reader {
  public:
   explicit Reader(Diagnostics& diagnostics) : diag_(diagnostics) {}
@@ -88,20 +100,33 @@ class Reader {
   }
 
   std::optional<double> quantity(const toml::node& node, Dimension dim, const std::string& what) {
+    std::optional<double> value;
     if (auto v = node.value<double>(); v && !node.is_string()) {
       if (!std::isfinite(*v)) {
         error(node, what + " must be finite, saw " + shown(node));
         return std::nullopt;
       }
-      return from_plain_number(*v, dim);
-    }
-    if (!node.is_string()) {
+      if (dim == Dimension::decibels || dim == Dimension::fraction) {
+        error(node, what + ": a bare number is ambiguous here; " + unit_string_hint(*v, dim));
+        return std::nullopt;
+      }
+      value = from_plain_number(*v, dim);
+    } else if (!node.is_string()) {
       error(node, what + ": expected " + describe(dim) + ", saw " + shown(node));
       return std::nullopt;
+    } else {
+      const auto parsed = parse_quantity(node.as_string()->get(), dim);
+      if (!parsed.value) {
+        error(node, what + ": " + parsed.error);
+        return std::nullopt;
+      }
+      value = parsed.value;
     }
-    const auto parsed = parse_quantity(node.as_string()->get(), dim);
-    if (!parsed.value) error(node, what + ": " + parsed.error);
-    return parsed.value;
+    if (const auto why = implausibility(*value, dim); !why.empty()) {
+      error(node, what + ": " + why);
+      return std::nullopt;
+    }
+    return value;
   }
 
   // A value that must be > 0 (strict), >= 0, or (sign_free) anything finite.
@@ -339,6 +364,20 @@ std::optional<std::vector<LoadKind>> read_kind(Reader& reader, const toml::node&
   return std::vector<LoadKind>{*k};
 }
 
+// A normalised design sets the elements it names, whether they are written as values, "auto"
+// or a range: giving both would leave one of them silently unused.
+void check_design_conflicts(Reader& reader, const StageSpec& stage, const std::string& who) {
+  if (stage.m && stage.find("l")) reader.error(stage.design_where, who + "give l or m, not both");
+  const bool designed_coil = stage.zeta || !stage.response.empty();
+  if (stage.zeta && !stage.response.empty())
+    reader.error(stage.design_where, who + "give zeta or response, not both");
+  if (!designed_coil) return;
+  for (const auto* key : {"l1", "l2", "k", "cb"})
+    if (const auto* a = stage.find(key))
+      reader.error(a->where, who + key + " is set by the " + (stage.zeta ? "zeta" : "response") +
+                                 " design; give one or the other");
+}
+
 void read_stage(Reader& reader, const toml::table& t, size_t index, ChainSpec& spec) {
   StageSpec stage;
   stage.where = position(t.source());
@@ -418,6 +457,7 @@ void read_stage(Reader& reader, const toml::table& t, size_t index, ChainSpec& s
   stage.values.erase("response");
   stage.values.erase("m");
   stage.values.erase("zeta");
+  check_design_conflicts(reader, stage, who);
 
   if (const auto* n = t.get("feeds")) {
     stage.feeds_where = position(n->source());

@@ -232,23 +232,15 @@ std::optional<Chain> resolve_chain(const ChainSpec& spec, Diagnostics& diagnosti
       case LoadKind::plain: break;
       case LoadKind::shunt:
       case LoadKind::series:
-        if (s.m && s.find("l"))
-          diagnostics.error(s.design_where, who + "give l or m, not both");
-        else if (!s.m && !s.find("l"))
+        if (!s.m && !s.find("l"))
           diagnostics.error(s.where, who + "a " + std::string(to_string(c.kind)) +
                                          " stage needs l (an inductance) or m (its design factor L/(Rd^2 C))");
         c.l = value("l", 0.0);
         c.r_l = value("r_l", 0.0);
         break;
       case LoadKind::tcoil: {
-        if (s.zeta && !s.response.empty())
-          diagnostics.error(s.design_where, who + "give zeta or response, not both");
         std::string missing;  // one error naming every missing key, not one per key
         for (const auto* key : {"l1", "l2", "k", "cb"}) {
-          if (designed_coil && s.find(key))
-            diagnostics.error(s.find(key)->where, who + key + " is set by the " +
-                                                      (s.zeta ? "zeta" : "response") +
-                                                      " design; give one or the other");
           if (!designed_coil && !s.find(key) && std::string_view(key) != "cb")
             missing += (missing.empty() ? "" : ", ") + std::string(key);
         }

@@ -12,7 +12,7 @@ namespace {
 // Full precision so that analyzing the written file reproduces the plan exactly, with the
 // engineering form alongside for the reader.
 std::string number_line(std::string_view key, double value, std::string_view unit) {
-  return fmt::format("{} = {:.17g}{}\n", key, value, unit.empty() ? "" : fmt::format("    # {}", format_si(value, unit, 4)));
+  return fmt::format("{} = {}{}\n", key, toml_number(value), unit.empty() ? "" : fmt::format("    # {}", format_si(value, unit, 4)));
 }
 
 }  // namespace
@@ -29,12 +29,12 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
     out += "modulation = " + toml_basic_string(s.modulation) + "\npattern = " + toml_basic_string(s.pattern) + "\n";
     if (s.input_rise) out += number_line("input_rise", *s.input_rise, "s");
     if (s.swing) out += number_line("swing", *s.swing, "V");
-    out += fmt::format("target_ber = {:.17g}\n", s.target_ber);
+    out += "target_ber = " + toml_number(s.target_ber) + "\n";
   }
   const auto& t = spec.target;
   if (t.gain_db || t.bandwidth || t.gain_bandwidth) {
     out += "\n[target]\n";
-    if (t.gain_db) out += fmt::format("gain = \"{:.17g} dB\"\n", *t.gain_db);
+    if (t.gain_db) out += "gain = " + toml_decibels(*t.gain_db) + "\n";
     if (t.bandwidth) out += number_line("bandwidth", *t.bandwidth, "Hz");
     if (t.gain_bandwidth) out += number_line("gain_bandwidth", *t.gain_bandwidth, "Hz");
     out += "objective = " + toml_basic_string(t.objective) + "\n";
@@ -42,8 +42,8 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
   const auto& l = spec.limits;
   if (l.overshoot || l.peaking_db || l.group_delay_ripple || l.ripple_band) {
     out += "\n[limits]\n";
-    if (l.overshoot) out += fmt::format("overshoot = {:.17g}\n", *l.overshoot);
-    if (l.peaking_db) out += fmt::format("peaking = \"{:.17g} dB\"\n", *l.peaking_db);
+    if (l.overshoot) out += "overshoot = " + toml_percent(*l.overshoot) + "\n";
+    if (l.peaking_db) out += "peaking = " + toml_decibels(*l.peaking_db) + "\n";
     if (l.group_delay_ripple) out += number_line("group_delay_ripple", *l.group_delay_ripple, "s");
     if (l.ripple_band) out += number_line("ripple_band", *l.ripple_band, "Hz");
   }
@@ -60,8 +60,8 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
   opt("max_gm", tech.max_gm, "S");
   opt("gm_over_id", tech.gm_over_id, "");
   opt("current_budget", tech.current_budget, "");
-  if (tech.k_min && tech.k_max) out += fmt::format("k_range = [{:.17g}, {:.17g}]\n", *tech.k_min, *tech.k_max);
-  out += fmt::format("gamma = {:.17g}\ntemperature = {:.17g}\n", tech.gamma, tech.temperature);
+  if (tech.k_min && tech.k_max) out += "k_range = [" + toml_number(*tech.k_min) + ", " + toml_number(*tech.k_max) + "]\n";
+  out += "gamma = " + toml_number(tech.gamma) + "\ntemperature = " + toml_number(tech.temperature) + "\n";
 
   for (const auto& planned : plan.stages) {
     const auto& s = spec.stages[planned.spec];
@@ -80,7 +80,7 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
       case LoadKind::shunt:
       case LoadKind::series: out += number_line("l", c.l, "H") + number_line("r_l", c.r_l, "ohm"); break;
       case LoadKind::tcoil:
-        out += number_line("l1", c.l1, "H") + number_line("l2", c.l2, "H") + fmt::format("k = {:.17g}\n", c.k);
+        out += number_line("l1", c.l1, "H") + number_line("l2", c.l2, "H") + "k = " + toml_number(c.k) + "\n";
         out += number_line("cb", c.cb, "F");
         if (c.c_w > 0.0) out += number_line("c_w", c.c_w, "F");
         out += number_line("r_l1", c.r_l1, "ohm") + number_line("r_l2", c.r_l2, "ohm");

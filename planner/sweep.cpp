@@ -10,6 +10,7 @@
 #include "planner/chain_graph.hpp"
 #include "planner/overrides.hpp"
 #include "planner/stage_value.hpp"
+#include "planner/toml_text.hpp"
 #include "planner/what_if.hpp"
 
 namespace peakplan {
@@ -95,9 +96,12 @@ KeyValue read_key(const ChainSpec& spec, std::string_view target, std::string_vi
   return {};
 }
 
-std::string point_text(double value, bool whole) {
-  // fmt's shortest form reads back as the same double, and a TOML number it always is.
-  return whole ? fmt::format("{}", static_cast<long long>(std::llround(value))) : fmt::format("{}", value);
+// The point as a chain file writes it: dB and % keys take their unit string (DESIGN.md section 3).
+std::string point_text(double value, bool whole, std::string_view unit) {
+  if (whole) return fmt::format("{}", static_cast<long long>(std::llround(value)));
+  if (unit == "dB") return toml_decibels(value);
+  if (unit == "%") return toml_percent(value);
+  return toml_number(value);
 }
 
 struct Axis {
@@ -236,7 +240,7 @@ std::optional<SweepResult> run_sweep(const SweepRequest& request, Diagnostics& d
     }
     auto overrides = base_overrides;
     overrides.push_back(axis->base);
-    overrides.back().value = point_text(value, whole);
+    overrides.back().value = point_text(value, whole, key.unit);
     overrides.back().origin += fmt::format(" (point {}: {})", i + 1, overrides.back().value);
     const auto spec = parse_chain_spec(base_text, overrides, diagnostics);
     if (!spec) return std::nullopt;

@@ -6,6 +6,7 @@
 
 #include "models/units.hpp"
 #include "planner/stage_value.hpp"
+#include "reports/caution.hpp"
 
 namespace peakplan {
 namespace {
@@ -275,7 +276,8 @@ std::string tables_markdown(const std::vector<TableView>& views) {
 }
 
 std::string budget_markdown(const Budget& b) {
-  return "# Budget: " + md_cell(b.chain) + "\n\n" + tables_markdown(budget_views(b));
+  return "# Budget: " + md_cell(b.chain) + "\n\n" + std::string(kPlanningCaution) + "\n\n" +
+         tables_markdown(budget_views(b));
 }
 
 std::string budget_csv(const Budget& b) {

@@ -5,6 +5,7 @@
 #include <limits>
 
 #include "models/units.hpp"
+#include "reports/caution.hpp"
 
 namespace peakplan {
 namespace {
@@ -199,8 +200,8 @@ nlohmann::json compare_json(const CompareSide& a, const CompareSide& b) {
 }
 
 std::string compare_text(const CompareSide& a, const CompareSide& b) {
-  std::string out = fmt::format("A  {}  ({}: {})\nB  {}  ({}: {})\n", a.file, a.chain.name, how(a), b.file,
-                                b.chain.name, how(b));
+  std::string out = fmt::format("A  {}  ({}: {})\nB  {}  ({}: {})\n{}\n", a.file, a.chain.name, how(a), b.file,
+                                b.chain.name, how(b), kPlanningCaution);
   const auto& main_a = a.chain.stages[static_cast<size_t>(a.analysis.outputs.back().stage)].id;
   const auto& main_b = b.chain.stages[static_cast<size_t>(b.analysis.outputs.back().stage)].id;
   out += fmt::format("\nmain output (A: {}, B: {})\n", main_a, main_b);

@@ -5,6 +5,7 @@
 
 #include "models/units.hpp"
 #include "reports/markup.hpp"
+#include "reports/caution.hpp"
 
 namespace peakplan {
 namespace {
@@ -33,6 +34,8 @@ header h1 { margin: 2px 0 4px; font-size: 28px; font-weight: 650; letter-spacing
 header .source { font-size: 13px; opacity: .8; font-family: ui-monospace, "DejaVu Sans Mono", monospace; }
 .status { margin: 18px 0 0; padding: 10px 14px; border-radius: 6px; font-weight: 600;
   border-left: 6px solid; background: var(--card); }
+.caution { margin: 14px 0 0; padding: 8px 14px; border-left: 6px solid var(--fail); background: var(--card);
+  font-size: 14px; }
 .status.met { border-color: var(--pass); color: var(--pass); }
 .status.not-met { border-color: var(--fail); color: var(--fail); }
 .figures { display: grid; grid-template-columns: repeat(auto-fit, minmax(140px, 1fr)); gap: 12px;
@@ -213,6 +216,7 @@ std::string html_report(const HtmlReportInput& in) {
          std::string(in.plan ? " &middot; planned" : "") + "</div>\n<h1>" + name + "</h1>\n<div class=\"source\">" +
          html_escape(in.chain_file_name) + " &middot; " + std::to_string(chain.stages.size()) + " stages &middot; main output " +
          html_escape(budget.totals.node) + "</div>\n</div></header>\n<main class=\"wrap\">\n";
+  out += "<p class=\"caution\" id=\"caution\">" + html_escape(std::string(kPlanningCaution)) + "</p>\n";
 
   if (in.plan) {
     out += std::string("<div class=\"status ") + (in.plan->met ? "met" : "not-met") + "\">" +

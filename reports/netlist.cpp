@@ -9,6 +9,7 @@
 
 #include "models/frequency_response.hpp"
 #include "models/step_response.hpp"
+#include "reports/caution.hpp"
 
 namespace peakplan {
 namespace {
@@ -238,6 +239,7 @@ std::string write_spice_netlist(const Chain& chain, const NetlistOptions& option
   // SPICE always takes the first line as the title, but an unescaped newline would end it.
   out << "peakplan: " << (chain.name.empty() ? std::string("chain") : comment_safe(chain.name))
       << '\n';
+  out << "* " << kPlanningCaution << '\n';
   out << "* Small-signal half circuit of each stage; AC ground = supply = node 0.\n"
          "* Each stage inverts. Node capacitance = c_load + c_in of every stage fed.\n\n";
 

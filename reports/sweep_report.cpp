@@ -5,6 +5,7 @@
 #include <fmt/format.h>
 
 #include "models/units.hpp"
+#include "reports/caution.hpp"
 
 namespace peakplan {
 namespace {
@@ -50,7 +51,7 @@ std::string heading(const SweepResult& s) {
 }  // namespace
 
 std::string sweep_text(const SweepResult& s) {
-  std::string out = heading(s) + "\n";
+  std::string out = heading(s) + "\n" + std::string(kPlanningCaution) + "\n";
   const bool whole = s.key == "count";
   const size_t first = std::max<size_t>(12, name_of(s.target, s.key).size());
   std::vector<size_t> widths;

@@ -4,6 +4,7 @@
 #include <fmt/format.h>
 
 #include "models/units.hpp"
+#include "reports/caution.hpp"
 
 namespace peakplan {
 namespace {
@@ -30,7 +31,8 @@ std::string load_elements_text(const StageCircuit& c) {
 }
 
 std::string analysis_text(const Chain& chain, const ChainAnalysis& analysis) {
-  std::string out = fmt::format("chain: {}\n\nstages (each alone, driving its actual load)\n", chain.name);
+  std::string out = fmt::format("chain: {}\n{}\n\nstages (each alone, driving its actual load)\n", chain.name,
+                                kPlanningCaution);
   out += fmt::format("  {:<10} {:<7} {:>9} {:>9} {:>9} {:>9} {:>8} {:>10} {:>8} {:>9} {:>10}  {}\n", "id",
                      "kind", "gm", "Rd", "C out", "C node", "gain dB", "bandwidth", "peak dB",
                      "delay", "overshoot", "load");

@@ -58,6 +58,22 @@ struct Fault {
 
 const std::vector<Fault>& faults() {
   static const std::vector<Fault> table{
+      // Silent misreadings that are errors instead (DESIGN.md section 3: dB and % keys take a
+      // unit string; a value decades outside any chain's is a missing or wrong prefix).
+      {"overshoot_bare_number.toml", "a bare overshoot is ambiguous and the message shows the string to write", 3, 13,
+       {"[limits] overshoot: a bare number is ambiguous", "\"3 %\""}},
+      {"gain_bare_number.toml", "a bare gain is ambiguous and the message shows the string to write", 3, 8,
+       {"[target] gain: a bare number is ambiguous", "\"30 dB\""}},
+      {"capacitance_missing_prefix.toml", "c_load = 35 (35 F) is out of range and the message suggests 35 fF", 7, 10,
+       {"stage 'a1': c_load: 35 F is outside the plausible range", "did you mean \"35 fF\"?"}},
+      {"inductance_one_henry.toml", "a 1 H stage inductor is out of range and the message suggests 1 nH", 8, 5,
+       {"stage 'a1': l: 1 H is outside the plausible range", "did you mean \"1 nH\"?"}},
+      {"resistance_implausibly_small.toml", "a 1e-30 ohm Rd is out of range, with no prefix to suggest", 6, 6,
+       {"stage 'a1': rd: 1e-30 ohm is outside the plausible range 1 mohm .. 100 Mohm"}},
+      {"shunt_with_auto_l_and_m.toml", "an open l beside m is the same error as a fixed one", 9, 5,
+       {"stage 'a1': give l or m, not both"}},
+      {"tcoil_response_and_auto_k.toml", "an open k beside a response design is reported at k", 9, 5,
+       {"stage 'a1': k is set by the response design"}},
       {"toml_syntax_error.toml", "a key with no value is a TOML syntax error at the end of its line", 6, 5,
        {"TOML syntax", "expected value"}},
       {"unit_mismatch.toml", "c_in = \"2 nH\" is an inductance where a capacitance is expected", 7, 8,

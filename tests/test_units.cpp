@@ -1,6 +1,9 @@
 #include <doctest/doctest.h>
+#include <cmath>
+#include <limits>
 
 #include "models/units.hpp"
+#include "planner/toml_text.hpp"
 
 using peakplan::Dimension;
 using peakplan::parse_quantity;
@@ -34,4 +37,22 @@ TEST_CASE("units: engineering notation") {
   CHECK(peakplan::format_si(45e-15, "F") == "45.0 fF");
   CHECK(peakplan::format_si(4.1e10, "Hz") == "41.0 GHz");
   CHECK(peakplan::format_si(120.0, "ohm") == "120 ohm");
+}
+
+TEST_CASE("units: written chain files use the shortest decimal and unit strings that read back exactly") {
+  // Derived: fmt's shortest form is the shortest decimal that rounds back to the same double.
+  CHECK(peakplan::toml_number(0.07) == "0.07");
+  CHECK(peakplan::toml_number(0.1 + 0.2) == "0.30000000000000004");
+  CHECK(peakplan::toml_decibels(36.0) == "\"36 dB\"");
+  // 0.07 * 100 is 7.000000000000001 in doubles; "7 %" reads back as 7 / 100 = 0.07 exactly.
+  CHECK(peakplan::toml_percent(0.07) == "\"7 %\"");
+  auto read_back = [](double fraction) {
+    const std::string text = peakplan::toml_percent(fraction);
+    return *peakplan::parse_quantity(text.substr(1, text.size() - 2), peakplan::Dimension::fraction).value;
+  };
+  for (const double fraction : {0.02, 0.05, 0.07, 0.123456789, 0.29, 1e-5})
+    CHECK(read_back(fraction) == fraction);  // exact: the writer searched for a text that round-trips
+  // Not every double is some double divided by 100 (near 1/3 the percentages are spaced wider
+  // than 100 times the fractions): then the nearest, one ulp away.
+  CHECK(std::fabs(read_back(1.0 / 3.0) - 1.0 / 3.0) <= std::numeric_limits<double>::epsilon());
 }

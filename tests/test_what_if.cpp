@@ -337,7 +337,7 @@ TEST_CASE("what-if: sweep --replan re-plans every point and reports status and t
     const double gain = row["value"].get<double>();
     // Each point equals a plan of the file with the gain set there.
     char value[64];
-    std::snprintf(value, sizeof value, "target.gain=%.17g", gain);
+    std::snprintf(value, sizeof value, "target.gain=%.17gdB", gain);
     const auto plan = run_json({"plan", chain, "--json", "--set", value});
     CHECK(row["status"] == plan["status"]);
     CHECK(close(row["chosen"]["a.rd"].get<double>(), chosen(plan, "a", "rd"), 1e-12));
