@@ -7,6 +7,6 @@
 namespace peakplan {
 
 inline constexpr std::string_view kPlanningCaution =
-    "Planning estimates from peakplan's models: confirm them by circuit simulation and silicon measurement.";
+    "Planning estimates from small-signal and behavioural models: confirm them by circuit simulation and silicon measurement.";
 
 }  // namespace peakplan

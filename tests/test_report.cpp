@@ -416,3 +416,30 @@ TEST_CASE("report: with [technology] gm_over_id every stage shows Id = gm / (gm/
   CHECK(checked);
   CHECK(read_file(dir.path / "out" / "budget.md").find("| Id (mA) |") != std::string::npos);
 }
+
+TEST_CASE("report: every output a user reads says once that its numbers are planning estimates") {
+  // The brief's rule: text, page, budget table and netlist header each carry the caution line.
+  const std::string caution = "Planning estimates from small-signal and behavioural models: confirm them by circuit simulation";
+  const std::string chain = std::string(PEAKPLAN_SOURCE_DIR) + "/chains/demo_postamp.toml";
+  auto count = [](const std::string& text, const std::string& what) {
+    size_t n = 0;
+    for (size_t at = text.find(what); at != std::string::npos; at = text.find(what, at + 1)) ++n;
+    return n;
+  };
+  for (const std::vector<std::string>& args :
+       {std::vector<std::string>{"analyze", chain}, {"netlist", chain}, {"compare", chain, chain},
+        {"sweep", chain, "--vary", "a4.rd=50ohm:60ohm:2"}}) {
+    const auto run = run_cli(args);
+    INFO("command: " << args.front());
+    REQUIRE(run.status == 0);
+    CHECK(count(run.out, caution) == 1);
+  }
+  TempDir out("peakplan_caution");
+  REQUIRE(run_cli({"report", chain, "--out", out.path.string()}).status == 0);
+  CHECK(count(read_file(out.path / "budget.md"), caution) == 1);
+  CHECK(count(read_file(out.path / "chain.cir"), caution) == 1);
+  const std::string page = read_file(out.path / "index.html");
+  CHECK(count(page, caution) == 1);
+  // Near the top: before the first table of the page.
+  CHECK(page.find(caution) < page.find("<table"));
+}
