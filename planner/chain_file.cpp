@@ -554,6 +554,12 @@ const Adjustable* StageSpec::find(std::string_view key) const {
 
 const std::vector<std::string_view>& common_stage_keys() { return kStageKeys; }
 
+std::vector<FileTable> chain_file_tables() {
+  return {{"chain", kChainKeys},   {"input", kInputKeys},           {"signal", kSignalKeys},
+          {"target", kTargetKeys}, {"limits", kLimitsKeys},         {"technology", kTechnologyKeys},
+          {"stage", stage_keys_for(every_kind())}};
+}
+
 std::optional<ChainSpec> parse_chain_spec(std::string_view text, Diagnostics& diagnostics) {
   return parse_chain_spec(text, {}, diagnostics);
 }

@@ -96,4 +96,12 @@ std::optional<ChainSpec> parse_chain_spec(std::string_view text, const std::vect
 // The keys every [[stage]] accepts, whatever its kind.
 const std::vector<std::string_view>& common_stage_keys();
 
+// Every table the loader reads and the keys it accepts there ("stage": the common keys and every
+// kind's parameters), so the format reference (docs/chain-format.md) can be checked against it.
+struct FileTable {
+  std::string_view name;  // "signal", "stage", ...
+  std::vector<std::string_view> keys;
+};
+std::vector<FileTable> chain_file_tables();
+
 }  // namespace peakplan
