@@ -294,6 +294,15 @@ std::string write_spice_netlist(const Chain& chain, const NetlistOptions& option
       card(a.tran_step) + " " + card(a.tran_stop) + " 0 " + card(a.tran_step);
   out << ".ac " << ac << '\n';
   out << ".tran " << tran << '\n';
+  if (!options.batch_control) {
+    // So that `ngspice -b chain.cir` simulates and prints the main output without editing.
+    const std::string main_node = stage_output_node(chain, outputs.back());
+    out << ".print ac vdb(" << main_node << ") vp(" << main_node << ")\n";
+    out << ".print tran v(" << main_node << ")\n";
+    // Without an explicit .save, ngspice's batch mode keeps only what each .print names for
+    // its own analysis and refuses the other ("no data saved").
+    out << ".save v(" << main_node << ")\n";
+  }
 
   if (options.batch_control) {
     std::string vectors;

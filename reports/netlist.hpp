@@ -12,7 +12,8 @@
 //     SPICE's dots sit on the drain side of each half and positive k makes the halves aid.
 //   - the source: Vin with "DC 0 AC 1 PULSE(0 1 ...)" behind Rsource, or on the input directly
 //     when r_source is 0.
-//   - .ac and .tran cards matched to the main output's bandwidth, and .end.
+//   - .ac and .tran cards matched to the main output's bandwidth, .print lines for the main
+//     output (AC magnitude in dB and phase, and the step), and .end.
 // Stage ids may hold any bytes: nodes and subcircuits get safe names (index + sanitised id)
 // and the original id appears only in comments, escaped so that it cannot end a line.
 //
@@ -22,7 +23,7 @@
 //   <data_prefix>.dc.txt    v(out) for Vin = 1 V (the signed DC gain)
 //   <data_prefix>.ac.txt    frequency, re, im, ...
 //   <data_prefix>.tran.txt  time, v(out) for the step
-// then quits. The designer-facing default has no .control block.
+// then quits, in place of the .print lines. The designer-facing default has no .control block.
 #pragma once
 
 #include <limits>

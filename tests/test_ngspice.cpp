@@ -24,6 +24,7 @@
 #include <cstdlib>
 #include <filesystem>
 #include <fstream>
+#include <nlohmann/json.hpp>
 #include <numbers>
 #include <sstream>
 #include <string>
@@ -438,4 +439,30 @@ TEST_CASE("ngspice: every shipped chain (planned first where it leaves values op
     ++checked;
   }
   CHECK(checked >= 6);
+}
+
+TEST_CASE("ngspice: `ngspice -b chain.cir` on the netlist as written prints the main output's AC and step") {
+  using namespace peakplan::test;
+  TempDir scratch("peakplan_ngspice_print");
+  const std::string chain = std::string(PEAKPLAN_SOURCE_DIR) + "/chains/demo_postamp.toml";
+  const auto netlist = run_cli({"netlist", chain});
+  REQUIRE(netlist.status == 0);
+  write_file(scratch.path / "chain.cir", netlist.out);
+  const auto listing = scratch.path / "listing.txt";
+  REQUIRE(run_shell("cd " + shell_quoted(scratch.path.string()) + " && ngspice -b chain.cir >" +
+                    shell_quoted(listing.string()) + " 2>&1") == 0);
+  const std::string text = read_file(listing);
+  CHECK(text.find("no data saved") == std::string::npos);
+  CHECK(text.find("Index   time") != std::string::npos);
+  // The first AC row is at bandwidth / 1000, where the gain is the DC gain to far below 1e-4 dB
+  // (derived: a 4-stage roll-off there is of order (f/f3dB)^2 = 1e-6 relative).
+  const auto at = text.find("Index   frequency");
+  REQUIRE(at != std::string::npos);
+  std::istringstream rows(text.substr(text.find('\n', text.find('\n', at) + 1) + 1));
+  int index = -1;
+  double frequency = 0.0, gain_db = 0.0, phase = 0.0;
+  rows >> index >> frequency >> gain_db >> phase;
+  REQUIRE(index == 0);
+  const auto analysis = nlohmann::json::parse(run_cli({"analyze", chain, "--json"}).out);
+  CHECK(gain_db == doctest::Approx(analysis["outputs"].back()["dc_gain_db"].get<double>()).epsilon(1e-5));
 }
