@@ -237,6 +237,20 @@ Candidate refine_full_space(Search& search, const Problem& p, Candidate start, b
   return best;
 }
 
+// The headline: what the plan met or missed. With nothing to choose there is no binding check
+// (a fixed chain's least margin says nothing about the plan), and a miss names every failure.
+std::string plan_message(Plan& plan, bool met, bool nothing_to_choose) {
+  std::string failed;
+  for (const auto& c : plan.checks)
+    if (!c.met) failed += (failed.empty() ? "" : ", ") + c.name;
+  if (nothing_to_choose) plan.binding.clear();
+  const std::string fixed = nothing_to_choose ? " (nothing to choose: every value is fixed)" : "";
+  if (plan.checks.empty()) return "no targets or limits to meet" + fixed;
+  if (!met) return (nothing_to_choose ? "the chain as written misses " : "the best plan found misses ") + failed + fixed;
+  if (nothing_to_choose) return "every target and limit is met" + fixed;
+  return "every target and limit is met, " + plan.binding + " binds";
+}
+
 }  // namespace
 
 double total_gm(const Chain& chain) {
@@ -364,9 +378,7 @@ std::optional<Plan> plan_chain(const ChainSpec& spec, Diagnostics& diagnostics, 
       plan.binding = c.name;
     }
   }
-  plan.message = plan.checks.empty() ? "no targets or limits to meet"
-                 : met               ? "every target and limit is met, " + plan.binding + " binds"
-                                     : "the best plan found misses " + plan.binding;
+  plan.message = plan_message(plan, met, problems.size() == 1 && p.variables().empty());
   // A -3 dB edge far beyond a deep in-band sag meets the letter of a bandwidth target, not its
   // intent; say so rather than let the figure stand alone.
   if (final_eval.f.sag_db < -1.0)

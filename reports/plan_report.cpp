@@ -22,7 +22,7 @@ nlohmann::json plan_json(const ChainSpec& spec, const Plan& plan, const ChainAna
   auto doc = analysis_json(plan.chain, analysis, {true, analysis_options(spec).signal});
   doc["status"] = plan.termination == Plan::Termination::met ? "met" : "not_met";
   doc["message"] = plan.message;
-  doc["binding"] = plan.binding;
+  doc["binding"] = plan.binding.empty() ? nlohmann::json(nullptr) : nlohmann::json(plan.binding);  // null: nothing to choose
   doc["objective"] = spec.target.objective;
   doc["evaluations"] = plan.evaluations;
   doc["plan_time_s"] = plan.seconds;

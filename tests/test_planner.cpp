@@ -216,6 +216,42 @@ c_load = "100 fF"
 }
 
 
+TEST_CASE("planner: a chain with nothing to choose says so, and a miss names every failed check") {
+  // One plain stage, gm = 20 mS, Rd = 100 ohm, 100 fF: gain 20*log10(2) = 6.02 dB and bandwidth
+  // 1/(2 pi 100 ohm 100 fF) = 15.9 GHz (derived), so a 10 dB, 20 GHz target misses both.
+  const Plan plan = plan_from(R"(
+[target]
+gain = "10 dB"
+bandwidth = "20 GHz"
+[limits]
+overshoot = "5 %"
+[[stage]]
+id = "p"
+kind = "plain"
+gm = "20 mS"
+rd = "100 ohm"
+c_load = "100 fF"
+)");
+  CHECK(plan.termination == Plan::Termination::not_met);
+  CHECK(plan.message == "the chain as written misses gain, bandwidth (nothing to choose: every value is fixed)");
+  CHECK(plan.binding.empty());
+  const Plan met = plan_from(R"(
+[target]
+gain = "5 dB"
+[limits]
+overshoot = "5 %"
+[[stage]]
+id = "p"
+kind = "plain"
+gm = "20 mS"
+rd = "100 ohm"
+c_load = "100 fF"
+)");
+  CHECK(met.termination == Plan::Termination::met);
+  // No "overshoot binds" for a fixed chain with a 5-point margin: there is no binding choice.
+  CHECK(met.message == "every target and limit is met (nothing to choose: every value is fixed)");
+}
+
 TEST_CASE("planner: six open stages of mixed kinds meet every limit, also when the written plan is re-analysed") {
   const auto spec = spec_from(kSixOpenStages);
   Diagnostics d("six.toml");
