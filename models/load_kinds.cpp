@@ -30,6 +30,10 @@ std::optional<LoadKind> load_kind_from_name(std::string_view name) {
 
 std::string_view to_string(LoadKind kind) { return load_kind_info(kind).name; }
 
+double output_node_capacitance(const StageCircuit& stage) {
+  return stage.c_node + (load_kind_info(stage.kind).drain_is_output ? stage.c_out : 0.0);
+}
+
 NodalSystem build_stage_system(const StageCircuit& stage) {
   NodalSystem system;
   const int out = load_kind_info(stage.kind).stamp(stage, system);

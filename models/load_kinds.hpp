@@ -48,12 +48,17 @@ struct LoadKindInfo {
   std::span<const LoadParameter> parameters;
   // Stamps the load and the gm drive into an empty system; returns the output node.
   int (*stamp)(const StageCircuit&, NodalSystem&);
+  // True when the stage's output node is its drain (plain, shunt), so c_out loads the output.
+  bool drain_is_output = false;
 };
 
 const LoadKindInfo& load_kind_info(LoadKind kind);
 std::span<const LoadKindInfo> all_load_kinds();
 std::optional<LoadKind> load_kind_from_name(std::string_view name);
 std::string_view to_string(LoadKind kind);
+
+// Every capacitance on the stage's output node: c_node, plus c_out when the drain is the output.
+double output_node_capacitance(const StageCircuit& stage);
 
 // The stage's nodal system with its output node set, driven by v_in = 1 V.
 NodalSystem build_stage_system(const StageCircuit& stage);

@@ -25,6 +25,6 @@ int stamp_plain(const StageCircuit& s, NodalSystem& sys) {
 
 }  // namespace
 
-const LoadKindInfo plain_load{LoadKind::plain, "plain", "resistor load Rd", {}, stamp_plain};
+const LoadKindInfo plain_load{LoadKind::plain, "plain", "resistor load Rd", {}, stamp_plain, /*drain_is_output=*/true};
 
 }  // namespace peakplan

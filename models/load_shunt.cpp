@@ -40,6 +40,6 @@ int stamp_shunt(const StageCircuit& s, NodalSystem& sys) {
 }  // namespace
 
 const LoadKindInfo shunt_load{LoadKind::shunt, "shunt", "Rd in series with a shunt inductor",
-                              kParameters, stamp_shunt};
+                              kParameters, stamp_shunt, /*drain_is_output=*/true};
 
 }  // namespace peakplan

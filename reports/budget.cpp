@@ -149,7 +149,7 @@ Budget build_budget(const ChainSpec& spec, const Chain& chain, const ChainAnalys
       r.k = c.k;
       r.cb = c.cb;
     }
-    r.c_node = c.c_node;
+    r.c_node = output_node_capacitance(c);  // every capacitance on the node, c_out included
     const auto& f = s.alone.frequency;
     r.gain_db = to_db(f.dc_gain);
     r.bandwidth_hz = f.bandwidth_hz;

@@ -27,7 +27,7 @@ struct BudgetRow {
   double l = not_found;                        // shunt, series
   double l1 = not_found, l2 = not_found;       // tcoil
   double k = not_found, cb = not_found;        // tcoil
-  double c_node = 0.0;                         // capacitance on the stage's output node
+  double c_node = 0.0;                         // every capacitance on the output node (c_out too where the drain is it)
   double gain_db = 0.0, bandwidth_hz = not_found, peaking_db = 0.0;    // the stage alone
   double group_delay_s = 0.0;                                          // the stage alone, DC
   double cumulative_gain_db = 0.0, cumulative_bandwidth_hz = not_found;  // input to this node

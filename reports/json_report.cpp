@@ -84,7 +84,7 @@ nlohmann::json noise_json(const NoiseSummary& n) {
 nlohmann::json stage_values_json(const ChainStage& stage) {
   const auto& c = stage.circuit;
   nlohmann::json v{{"gm", c.gm}, {"rd", c.rd}, {"c_in", stage.c_in}, {"c_out", c.c_out},
-                   {"c_load", stage.c_load}, {"c_node", c.c_node}, {"r_load", number(c.r_load)}};
+                   {"c_load", stage.c_load}, {"c_node", c.c_node}, {"c_output_node", output_node_capacitance(c)}, {"r_load", number(c.r_load)}};
   switch (c.kind) {
     case LoadKind::plain: break;
     case LoadKind::shunt:

@@ -41,7 +41,7 @@ std::string analysis_text(const Chain& chain, const ChainAnalysis& analysis) {
     const auto& f = s.alone.frequency;
     out += fmt::format("  {:<10} {:<7} {:>9} {:>9} {:>9} {:>9} {:>8} {:>10} {:>8} {:>9} {:>10}  {}\n", st.id,
                        to_string(st.circuit.kind), format_si(st.circuit.gm, "S"), format_si(st.circuit.rd, "ohm"),
-                       format_si(st.circuit.c_out, "F"), format_si(st.circuit.c_node, "F"), db(to_db(f.dc_gain)),
+                       format_si(st.circuit.c_out, "F"), format_si(output_node_capacitance(st.circuit), "F"), db(to_db(f.dc_gain)),
                        format_si(f.bandwidth_hz, "Hz"), db(f.peaking_db), format_si(f.group_delay_s, "s"),
                        pct(s.alone.step.overshoot_pct), load_elements_text(st.circuit));
   }

@@ -98,3 +98,17 @@ TEST_CASE("plain: the nodal solve equals -gm R/(1 + s R C)") {
   for (double f = 1e8; f < 1e12; f *= 1.33)
     CHECK(std::abs(system.transfer(jw(f)) / (-s.gm * r / (1.0 + jw(f) * r * (s.c_node + s.c_out))) - 1.0) < 1e-12);
 }
+
+TEST_CASE("load contract: the output node's capacitance includes c_out exactly where the drain is the output") {
+  // DESIGN.md section 2: plain and shunt take their output at the drain, series and tcoil after
+  // a coil, so c_out joins the output node only for the first two (derived from the schematics).
+  for (const auto& info : peakplan::all_load_kinds()) {
+    peakplan::StageCircuit c;
+    c.kind = info.kind;
+    c.c_out = 7e-15;
+    c.c_node = 30e-15;
+    const bool at_drain = info.kind == peakplan::LoadKind::plain || info.kind == peakplan::LoadKind::shunt;
+    INFO("kind: " << info.name);
+    CHECK(peakplan::output_node_capacitance(c) == doctest::Approx(at_drain ? 37e-15 : 30e-15).epsilon(1e-15));
+  }
+}
