@@ -118,10 +118,25 @@ std::string show_number(double value, int decimals) {
   if (std::fabs(value) < 0.5 * std::pow(10.0, -decimals)) value = 0.0;
   return fmt::format("{:.{}f}", value, decimals);
 }
-std::string show_db(double value) { return show_number(value, 2) + " dB"; }
-std::string show_ghz(double hz) { return scaled(hz, kGhz, 2) + " GHz"; }
-std::string show_ps(double s) { return scaled(s, kPs, 2) + " ps"; }
-std::string show_pct(double pct) { return show_number(pct, 2) + " %"; }
+namespace {
+// A missing value reads "n/a" alone, never "n/a ps".
+std::string with_unit(double value, const std::string& text, std::string_view unit) {
+  return std::isfinite(value) ? text + " " + std::string(unit) : text;
+}
+}  // namespace
+
+std::string show_db(double value) { return with_unit(value, show_number(value, 2), "dB"); }
+std::string show_ghz(double hz) { return with_unit(hz, scaled(hz, kGhz, 2), "GHz"); }
+std::string show_ps(double s) { return with_unit(s, scaled(s, kPs, 2), "ps"); }
+std::string show_pct(double pct) { return with_unit(pct, show_number(pct, 2), "%"); }
+// Past Q = 20 (BER below 1e-88) and below a BER of 1e-30 the figures only say "no errors at all";
+// the JSON keeps the numbers.
+std::string show_q(double q) { return std::isfinite(q) && q > 20.0 ? "> 20" : show_number(q, 2); }
+std::string show_eye_height(double height) { return height <= 0.0 ? "closed" : show_number(height, 3); }
+std::string show_ber(double ber) {
+  if (!std::isfinite(ber)) return "n/a";
+  return ber < 1e-30 ? "< 1e-30" : fmt::format("{:.1e}", ber);
+}
 
 Budget build_budget(const ChainSpec& spec, const Chain& chain, const ChainAnalysis& analysis) {
   if (analysis.outputs.empty()) throw std::logic_error("build_budget: the analysis has no output");

@@ -98,5 +98,8 @@ std::string show_db(double value);
 std::string show_ghz(double hz);
 std::string show_ps(double s);
 std::string show_pct(double pct);
+std::string show_q(double q);      // "> 20" past 20
+std::string show_ber(double ber);  // "< 1e-30" below 1e-30
+std::string show_eye_height(double height);  // "closed" at or below 0 (the JSON keeps the number)
 
 }  // namespace peakplan

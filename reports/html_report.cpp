@@ -151,11 +151,11 @@ std::optional<TableView> eye_view(const Chain& chain, const ChainAnalysis& analy
     const auto& e = *o.eye;
     const auto& p = e.estimate.prbs;
     truncated = truncated || p.pattern_truncated;
-    v.rows.push_back({chain.stages[static_cast<size_t>(o.stage)].id, show_number(e.estimate.pda.height, 3),
-                      show_number(p.eye.height, 3), show_number(p.eye.width_ui, 3) + " UI", show_ps(p.ddj_pp_s),
+    v.rows.push_back({chain.stages[static_cast<size_t>(o.stage)].id, show_eye_height(e.estimate.pda.height),
+                      show_eye_height(p.eye.height), show_number(p.eye.width_ui, 3) + " UI", show_ps(p.ddj_pp_s),
                       format_si(e.noise.output_rms_v, "V", 3), show_ghz(e.noise.noise_bandwidth_hz),
-                      e.statistical ? show_number(e.statistical->q, 2) : "-",
-                      e.statistical ? fmt::format("{:.1e}", e.statistical->ber) : "-"});
+                      e.statistical ? show_q(e.statistical->q) : "-",
+                      e.statistical ? show_ber(e.statistical->ber) : "-"});
     v.row_state.push_back("");
   }
   if (v.rows.empty()) return std::nullopt;

@@ -4,13 +4,14 @@
 #include <fmt/format.h>
 
 #include "models/units.hpp"
+#include "reports/budget.hpp"
 #include "reports/caution.hpp"
 
 namespace peakplan {
 namespace {
 
-std::string db(double x) { return std::isfinite(x) ? fmt::format("{:.2f}", x) : "n/a"; }
-std::string pct(double x) { return std::isfinite(x) ? fmt::format("{:.2f} %", x) : "n/a"; }
+std::string db(double x) { return show_number(x, 2); }
+std::string pct(double x) { return show_pct(x); }
 
 }  // namespace
 
@@ -77,12 +78,13 @@ std::string analysis_text(const Chain& chain, const ChainAnalysis& analysis) {
     }
     const auto& e = *o.eye;
     const auto& p = e.estimate.prbs;
-    out += fmt::format("  {:<10} {:>9.3f} {:>9.3f} {:>6.3f} UI {:>9} {:>11} {:>10} {:>8} {:>10}\n",
-                       chain.stages[static_cast<size_t>(o.stage)].id, e.estimate.pda.height, p.eye.height,
+    out += fmt::format("  {:<10} {:>9} {:>9} {:>6.3f} UI {:>9} {:>11} {:>10} {:>8} {:>10}\n",
+                       chain.stages[static_cast<size_t>(o.stage)].id, show_eye_height(e.estimate.pda.height),
+                       show_eye_height(p.eye.height),
                        p.eye.width_ui, format_si(p.ddj_pp_s, "s"), format_si(e.noise.output_rms_v, "V"),
                        format_si(e.noise.noise_bandwidth_hz, "Hz"),
-                       e.statistical ? fmt::format("{:.2f}", e.statistical->q) : "-",
-                       e.statistical ? fmt::format("{:.1e}", e.statistical->ber) : "-");
+                       e.statistical ? show_q(e.statistical->q) : "-",
+                       e.statistical ? show_ber(e.statistical->ber) : "-");
     if (p.pattern_truncated)
       out += fmt::format("  note: the pattern is longer than the simulation bound; {} symbols were overlaid\n",
                          p.symbols_overlaid);

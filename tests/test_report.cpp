@@ -20,6 +20,7 @@
 #include <vector>
 
 #include "cli_support.hpp"
+#include "reports/budget.hpp"
 
 using namespace peakplan::test;
 
@@ -442,4 +443,19 @@ TEST_CASE("report: every output a user reads says once that its numbers are plan
   CHECK(count(page, caution) == 1);
   // Near the top: before the first table of the page.
   CHECK(page.find(caution) < page.find("<table"));
+}
+
+TEST_CASE("report: display rules: no -0.00, missing values without a unit, Q and BER past their useful range, closed eyes") {
+  using namespace peakplan;
+  CHECK(show_number(-0.001, 2) == "0.00");
+  CHECK(show_number(-0.006, 2) == "-0.01");
+  CHECK(show_ps(std::nan("")) == "n/a");
+  CHECK(show_ps(3.2e-12) == "3.20 ps");
+  CHECK(show_q(451.67) == "> 20");
+  CHECK(show_q(7.03) == "7.03");
+  CHECK(show_ber(0.0) == "< 1e-30");
+  CHECK(show_ber(4.4e-281) == "< 1e-30");
+  CHECK(show_ber(1.0e-12) == "1.0e-12");
+  CHECK(show_eye_height(-0.2) == "closed");
+  CHECK(show_eye_height(0.929) == "0.929");
 }
