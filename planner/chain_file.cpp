@@ -1,6 +1,7 @@
 #include "planner/chain_file.hpp"
 
 #include <algorithm>
+#include <cctype>
 #include <cmath>
 #include <filesystem>
 #include <fmt/format.h>
@@ -148,7 +149,10 @@ class Reader {
       return std::nullopt;
     }
     const std::string value = node.as_string()->get();
-    if (std::find(allowed.begin(), allowed.end(), value) != allowed.end()) return value;
+    // Trade spellings differ in case ("PAM4", "NRZ", "PRBS7"); the meaning does not.
+    std::string lower = value;
+    std::transform(lower.begin(), lower.end(), lower.begin(), [](unsigned char c) { return static_cast<char>(std::tolower(c)); });
+    if (std::find(allowed.begin(), allowed.end(), lower) != allowed.end()) return lower;
     const auto suggestion = closest_match(value, allowed);
     error(node, what + ": unknown value \"" + value + "\"; expected one of " + quoted_list(allowed) +
                     (suggestion.empty() ? "" : " (did you mean \"" + suggestion + "\"?)"));
@@ -216,13 +220,30 @@ void read_signal(Reader& reader, const toml::table& root, ChainSpec& spec) {
   if (!t) return;
   reader.check_keys(*t, kSignalKeys, "[signal]: ");
   SignalSpec signal;
+  bool in_baud = false;  // "28 GBd": a symbol rate, in bits once the modulation is known
   if (const auto* n = t->get("bit_rate")) {
-    if (auto v = reader.bounded(*n, Dimension::bit_rate, "[signal] bit_rate", true)) signal.bit_rate = *v;
+    std::optional<double> v;
+    const std::string text = n->is_string() ? n->as_string()->get() : std::string();
+    if (text.size() > 2 && text.compare(text.size() - 2, 2, "Bd") == 0) {
+      in_baud = true;
+      const auto parsed = parse_quantity(text.substr(0, text.size() - 2) + "b/s", Dimension::bit_rate);
+      const std::string why = !parsed.value      ? parsed.error
+                              : *parsed.value <= 0 ? "must be positive, saw \"" + text + "\""
+                                                   : implausibility(*parsed.value, Dimension::bit_rate);
+      if (why.empty())
+        v = parsed.value;
+      else
+        reader.error(*n, "[signal] bit_rate: " + why);
+    } else {
+      v = reader.bounded(*n, Dimension::bit_rate, "[signal] bit_rate", true);
+    }
+    if (v) signal.bit_rate = *v;
   } else {
     reader.error(position(t->source()), "[signal]: missing bit_rate, e.g. bit_rate = \"56 Gb/s\"");
   }
   if (const auto* n = t->get("modulation"))
     if (auto w = reader.word(*n, kModulations, "[signal] modulation")) signal.modulation = *w;
+  if (in_baud && signal.modulation == "pam4") signal.bit_rate *= 2.0;  // two bits per PAM4 symbol
   if (const auto* n = t->get("pattern"))
     if (auto w = reader.word(*n, kPatterns, "[signal] pattern")) signal.pattern = *w;
   if (const auto* n = t->get("input_rise"))

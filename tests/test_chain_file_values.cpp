@@ -1,0 +1,42 @@
+// What the loader makes of values written the way practitioners write them: the trade's
+// spellings of enumerations and rates read as the format's own.
+#include <doctest/doctest.h>
+
+#include <string>
+
+#include "planner/chain_file.hpp"
+#include "planner/diagnostics.hpp"
+
+namespace {
+
+peakplan::ChainSpec spec_of(const std::string& signal) {
+  peakplan::Diagnostics d("values.toml");
+  const auto spec = peakplan::parse_chain_spec(signal + R"(
+[[stage]]
+id = "a"
+kind = "Plain"
+gm = "40 mS"
+rd = "100 ohm"
+c_load = "40 fF"
+)", d);
+  INFO(d.format());
+  REQUIRE(spec);
+  return *spec;
+}
+
+}  // namespace
+
+TEST_CASE("chain values: enumerations are case-insensitive and read as their lower-case names") {
+  const auto spec = spec_of("[signal]\nbit_rate = \"56 Gb/s\"\nmodulation = \"PAM4\"\npattern = \"PRBS15\"\n");
+  CHECK(spec.signal->modulation == "pam4");
+  CHECK(spec.signal->pattern == "prbs15");
+  CHECK(spec.stages.front().kinds.front() == peakplan::load_kind_from_name("plain"));
+}
+
+TEST_CASE("chain values: a symbol rate in baud is bits per symbol times the rate") {
+  // PAM4 carries two bits per symbol, NRZ one (DESIGN.md section 5: symbol rate = bit rate / 2).
+  const auto pam4 = spec_of("[signal]\nbit_rate = \"53.125 GBd\"\nmodulation = \"pam4\"\n");
+  CHECK(pam4.signal->bit_rate == doctest::Approx(106.25e9).epsilon(1e-15));
+  const auto nrz = spec_of("[signal]\nbit_rate = \"25.78125 GBd\"\n");
+  CHECK(nrz.signal->bit_rate == doctest::Approx(25.78125e9).epsilon(1e-15));
+}
