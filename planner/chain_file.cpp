@@ -8,13 +8,15 @@
 #include <toml++/toml.h>
 
 #include "planner/overrides.hpp"
+#include "planner/variation_file.hpp"
 
 namespace peakplan {
 namespace {
 
 using Keys = std::vector<std::string_view>;
 
-const Keys kTopKeys{"chain", "input", "signal", "target", "limits", "technology", "stage"};
+const Keys kTopKeys{"chain", "input", "signal", "target", "limits", "technology", "stage",
+                 "variation"};
 const Keys kChainKeys{"name"};
 const Keys kInputKeys{"r_source", "noise_density"};
 const Keys kSignalKeys{"bit_rate", "modulation", "pattern", "input_rise", "swing", "target_ber"};
@@ -490,6 +492,7 @@ std::optional<ChainSpec> read_document(const toml::table& root, Diagnostics& dia
   read_target(reader, root, spec);
   read_limits(reader, root, spec);
   read_technology(reader, root, spec);
+  spec.variation = read_variation(root, diagnostics);
 
   const auto* stages = root.get("stage");
   const auto* array = stages ? stages->as_array() : nullptr;

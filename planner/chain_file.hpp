@@ -10,6 +10,7 @@
 
 #include "models/load_kinds.hpp"
 #include "planner/diagnostics.hpp"
+#include "planner/variation_spec.hpp"
 
 namespace peakplan {
 
@@ -81,6 +82,7 @@ struct ChainSpec {
   LimitsSpec limits;
   TechnologySpec technology;
   std::vector<StageSpec> stages;
+  std::optional<VariationSpec> variation;  // [variation], planner/variation_file.hpp
 };
 
 // Parses and validates one chain file. `display_name` is the name errors carry (the path as
