@@ -80,8 +80,9 @@ class VariationReader {
   // ambiguous (0.1 % or 10 %?) and is an error showing the string to write.
   std::optional<double> percent(const toml::node& node, const std::string& what, bool sign) {
     if (const auto v = node.value<double>(); v && !node.is_string()) {
-      error(node, fmt::format("{}: a bare number is ambiguous here (0.1 % or 10 %?); write a percentage "
-                              "string such as {}, saw {}", what, percent_suggestion(*v, sign), shown(node)));
+      error(node, fmt::format("{}: a bare number is ambiguous here ({} as a fraction or in %?); write a "
+                              "percentage string such as {}, saw {}", what, shown(node),
+                              percent_suggestion(*v, sign), shown(node)));
       return std::nullopt;
     }
     const std::string example = sign ? "\"-12 %\"" : "\"10 %\"";
