@@ -54,7 +54,9 @@ CaseMetrics measure_case(const Chain& chain, const CaseOptions& options) {
   const Cascade cascade = main_cascade(chain);
   CaseMetrics m;
   m.f = frequency_metrics(cascade, options.ripple_band_hz);
-  m.t = step_metrics(step_response(cascade, choose_time_axis(cascade, m.f.bandwidth_hz)));
+  const auto axis = options.short_step ? short_time_axis(cascade, m.f.bandwidth_hz)
+                                       : choose_time_axis(cascade, m.f.bandwidth_hz);
+  m.t = step_metrics(step_response(cascade, axis));
   if (options.signal) {
     const auto eye = estimate_eye(cascade, *options.signal);
     m.eye_height = eye.prbs.eye.height;

@@ -21,10 +21,14 @@ namespace peakplan {
 struct CaseOptions {
   double ripple_band_hz = not_found;  // NaN: up to the bandwidth
   std::optional<Signal> signal;       // with a signal, the PRBS eye is measured too
+  // Overshoot on short_time_axis (the planner's search record) instead of analyze's full
+  // record: what Monte Carlo samples use, for speed; corners use the full record.
+  bool short_step = false;
 };
 
 // The main output of one case, measured as analyze measures it (the same scan, time axis and
-// PRBS overlay), so a corner equals an analysis of the same values.
+// PRBS overlay), so a corner equals an analysis of the same values; with short_step the step
+// record is the short one (overshoot within about 1e-3 percentage points of the full record's).
 struct CaseMetrics {
   FrequencyMetrics f;
   StepMetrics t;

@@ -45,24 +45,6 @@ bool needs_step(const ChainSpec& spec) {
   return spec.limits.overshoot.has_value() || spec.target.objective == "flattest";
 }
 
-// The search's step response: about 50 samples per 1/bandwidth (a rise time spans about 17),
-// at most 500 of them. Overshoot peaks within a few rise times of the delay, so the short
-// record finds it; the final plan is measured on analyze's full record.
-TimeAxis search_time_axis(const Cascade& cascade, double bandwidth_hz) {
-  auto axis = choose_time_axis(cascade, bandwidth_hz);
-  constexpr int kMaxPoints = 500;
-  if (std::isfinite(bandwidth_hz) && bandwidth_hz > 0.0) {
-    const double dt = std::max(axis.dt, 1.0 / (50.0 * bandwidth_hz));
-    const double duration = axis.dt * (axis.points - 1);
-    axis.points = std::min(kMaxPoints, static_cast<int>(std::ceil(duration / dt)) + 1);
-    axis.dt = dt;
-  } else if (axis.points > kMaxPoints) {
-    axis.dt *= static_cast<double>(axis.points) / kMaxPoints;
-    axis.points = kMaxPoints;
-  }
-  return axis;
-}
-
 }  // namespace
 
 double Variable::to_value(double u) const { return log_scale ? std::exp(u) : u; }
@@ -202,7 +184,7 @@ Evaluation Problem::evaluate(const std::vector<double>& u, Fidelity fidelity) co
   e.f = frequency_metrics(cascade, band, fidelity == Fidelity::final ? ScanResolution{} : search_scan());
   if (fidelity == Fidelity::final || needs_step(spec_)) {
     const auto axis = fidelity == Fidelity::final ? choose_time_axis(cascade, e.f.bandwidth_hz)
-                                                  : search_time_axis(cascade, e.f.bandwidth_hz);
+                                                  : short_time_axis(cascade, e.f.bandwidth_hz);
     e.t = step_metrics(step_response(cascade, axis));
   }
   for (const auto& s : chain.stages) e.total_gm += s.circuit.gm;

@@ -65,7 +65,9 @@ VariationResult analyze_variation(const ChainSpec& spec, const Chain& nominal, c
   mc.threads = options.threads;
   mc.progress = options.progress;
   if (mc.samples < 1) return result;
-  const auto samples = run_monte_carlo(nominal, vspec.variation, case_options, mc);
+  CaseOptions sample_options = case_options;
+  sample_options.short_step = true;
+  const auto samples = run_monte_carlo(nominal, vspec.variation, sample_options, mc);
   MonteCarloSummary summary;
   summary.samples = mc.samples;
   summary.seed = mc.seed;
