@@ -47,16 +47,19 @@ VariationResult analyze_variation(const ChainSpec& spec, const Chain& nominal, c
   }
   for (const auto* m : result.metrics) {
     const CornerResult* worst = nullptr;
-    double worst_value = 0.0;
+    double worst_value = 0.0, lo = INFINITY, hi = -INFINITY;
     for (const auto& r : result.corners) {
       const double v = m->get(r.metrics);
       if (!std::isfinite(v)) continue;
+      lo = std::min(lo, v);
+      hi = std::max(hi, v);
       if (!worst || (m->higher_is_worse ? v > worst_value : v < worst_value)) {
         worst = &r;
         worst_value = v;
       }
     }
-    if (worst) result.worst.emplace_back(std::string(m->key), worst->corner.name);
+    const bool all_equal = hi - lo <= 1e-12 * std::max(std::fabs(lo), std::fabs(hi));
+    result.worst.emplace_back(std::string(m->key), worst && !all_equal ? worst->corner.name : std::string());
   }
 
   MonteCarloOptions mc;

@@ -50,7 +50,9 @@ struct VariationResult {
   bool with_eye = false;                 // the file has a [signal]: eye metrics are included
   std::vector<const CaseMetric*> metrics;  // reported metrics, in case_metrics() order
   std::vector<CornerResult> corners;     // nominal, then the extremes, then the named corners
-  std::vector<std::pair<std::string, std::string>> worst;  // metric key -> corner name
+  // metric key -> the corner where it is worst (the first of equals); empty when every corner
+  // gives the same value (to 1e-12 relative), so that no corner is worse than nominal.
+  std::vector<std::pair<std::string, std::string>> worst;
   std::optional<MonteCarloSummary> monte_carlo;
 };
 

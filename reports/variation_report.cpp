@@ -85,7 +85,8 @@ nlohmann::json variation_json(const VariationResult& r) {
     doc["corners"].push_back(std::move(j));
   }
   doc["worst"] = nlohmann::json::object();
-  for (const auto& [metric, corner] : r.worst) doc["worst"][metric] = corner;
+  for (const auto& [metric, corner] : r.worst)
+    doc["worst"][metric] = corner.empty() ? nlohmann::json(nullptr) : nlohmann::json(corner);
   if (r.monte_carlo) {
     const auto& mc = *r.monte_carlo;
     nlohmann::json j;
@@ -141,14 +142,16 @@ std::string variation_text(const VariationResult& r) {
     for (const auto& c : r.corners) failing += c.met ? 0 : 1;
     out += fmt::format("  {} of {} corners meet every check\n", r.corners.size() - failing, r.corners.size());
   }
-  if (!r.worst.empty()) {
-    out += "  worst corner per metric:";
-    for (size_t i = 0; i < r.worst.size(); ++i) {
-      const auto* m = r.metrics[i];
-      out += fmt::format("{} {} at {}", i ? ";" : "", m->label, r.worst[i].second);
-    }
-    out += "\n";
+  std::string worst, same;
+  for (size_t i = 0; i < r.worst.size(); ++i) {
+    const auto label = std::string(r.metrics[i]->label);
+    if (r.worst[i].second.empty())
+      same += (same.empty() ? "" : ", ") + label;
+    else
+      worst += (worst.empty() ? "" : "; ") + label + " at " + r.worst[i].second;
   }
+  if (!worst.empty()) out += "  worst corner per metric: " + worst + "\n";
+  if (!same.empty()) out += "  the same at every corner: " + same + "\n";
   if (!r.monte_carlo) return out;
   const auto& mc = *r.monte_carlo;
   out += fmt::format("\nmonte carlo ({} samples, seed {}, {}; percentiles 0.135 / 50 / 99.865 are -3 / 0 / +3 sigma)\n",
