@@ -20,7 +20,7 @@ const Keys kTopKeys{"chain", "input", "signal", "target", "limits", "technology"
 const Keys kChainKeys{"name"};
 const Keys kInputKeys{"r_source", "noise_density"};
 const Keys kSignalKeys{"bit_rate", "modulation", "pattern", "input_rise", "swing", "target_ber"};
-const Keys kTargetKeys{"gain", "bandwidth", "gain_bandwidth", "objective"};
+const Keys kTargetKeys{"gain", "bandwidth", "gain_bandwidth", "objective", "plan_for"};
 const Keys kLimitsKeys{"overshoot", "peaking", "group_delay_ripple", "ripple_band"};
 const Keys kTechnologyKeys{"ft", "c_out_ratio", "inductor_q", "max_inductance", "k_range",
                            "min_cb", "max_gm", "gm_over_id", "current_budget", "gamma",
@@ -230,6 +230,10 @@ void read_target(Reader& reader, const toml::table& root, ChainSpec& spec) {
   }
   if (const auto* n = t->get("objective"))
     if (auto w = reader.word(*n, kObjectives, "[target] objective")) spec.target.objective = *w;
+  if (const auto* n = t->get("plan_for")) {  // DESIGN.md section 6
+    spec.target.plan_for_where = position(n->source());
+    if (auto w = reader.word(*n, {"nominal", "corners"}, "[target] plan_for")) spec.target.plan_for = *w;
+  }
 }
 
 void read_limits(Reader& reader, const toml::table& root, ChainSpec& spec) {

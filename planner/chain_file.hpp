@@ -54,6 +54,8 @@ struct TargetSpec {
   std::optional<double> bandwidth;       // Hz, a minimum
   std::optional<double> gain_bandwidth;  // Hz
   std::string objective = "flattest";
+  std::string plan_for = "nominal";  // or "corners": every check at every [variation] corner
+  SourcePosition plan_for_where;
 };
 
 struct LimitsSpec {

@@ -123,6 +123,13 @@ Problem::Problem(const ChainSpec& spec, Combination combo, std::vector<GraphStag
   if (peaked(LoadKind::series)) add(Axis::m_series, 0.05, 1.5);
   if (any([&](const Variable& v) { return combo_.kinds[v.spec] == LoadKind::tcoil && v.key != "gm" && v.key != "rd"; }))
     add(Axis::zeta, 0.52, 1.3);
+
+  if (spec.target.plan_for == "corners" && spec.variation) {
+    corners_.push_back(nominal_corner());
+    if (spec.variation->extremes)
+      for (auto& c : extreme_corners(spec.variation->variation)) corners_.push_back(std::move(c));
+    for (const auto& named : spec.variation->corners) corners_.push_back(named.corner);
+  }
 }
 
 int Problem::variable_index(size_t stage, std::string_view key) const {
@@ -177,7 +184,35 @@ Chain Problem::build(const std::vector<double>& u, Fidelity fidelity) const {
 }
 
 Evaluation Problem::evaluate(const std::vector<double>& u, Fidelity fidelity) const {
+  if (corners_.empty()) return measure(build(u, fidelity), fidelity);
+  const auto each = evaluate_corners(u, fidelity);
+  Evaluation w = each.front();
+  for (size_t i = 1; i < each.size(); ++i) {
+    const auto& e = each[i];
+    if (std::fabs(e.f.dc_gain) < std::fabs(w.f.dc_gain)) w.f.dc_gain = e.f.dc_gain;
+    // A bandwidth not found counts as the worst, as the checks count it.
+    if (!std::isfinite(e.f.bandwidth_hz) || e.f.bandwidth_hz < w.f.bandwidth_hz) w.f.bandwidth_hz = e.f.bandwidth_hz;
+    w.f.peaking_db = std::max(w.f.peaking_db, e.f.peaking_db);
+    w.f.group_delay_ripple_s = std::max(w.f.group_delay_ripple_s, e.f.group_delay_ripple_s);
+    w.f.sag_db = std::min(w.f.sag_db, e.f.sag_db);
+    w.t.overshoot_pct = std::max(w.t.overshoot_pct, e.t.overshoot_pct);
+  }
+  return w;
+}
+
+std::vector<Evaluation> Problem::evaluate_corners(const std::vector<double>& u, Fidelity fidelity) const {
   const Chain chain = build(u, fidelity);
+  if (corners_.empty()) return {measure(chain, fidelity)};
+  std::vector<Evaluation> each;
+  for (const auto& corner : corners_) {
+    each.push_back(measure(apply_variation(chain, corner.draw()), fidelity));
+    // The supply current is set by the bias, not by the devices' spread of gm.
+    each.back().total_gm = each.front().total_gm;
+  }
+  return each;
+}
+
+Evaluation Problem::measure(const Chain& chain, Fidelity fidelity) const {
   Evaluation e;
   const auto cascade = output_cascade(chain, chain.outputs().back());
   const double band = spec_.limits.ripple_band.value_or(not_found);

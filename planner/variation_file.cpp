@@ -7,6 +7,7 @@
 #include <sstream>
 
 #include "models/units.hpp"
+#include "planner/toml_text.hpp"
 
 namespace peakplan {
 namespace {
@@ -341,6 +342,46 @@ void check_variation(const VariationSpec& spec, const Chain& chain, Diagnostics&
       }
     }
   }
+}
+
+namespace {
+
+// The shortest "x %" (or plain number, for coupling) that reads back to exactly `fraction`.
+std::string amount_text(VariationClass c, double value, bool sign) {
+  for (int digits = 1; digits <= 17; ++digits) {
+    const double shown_value = is_relative(c) ? 100.0 * value : value;
+    const std::string text = fmt::format("{:.{}g}", shown_value, digits);
+    if (text.find('e') != std::string::npos) continue;  // "1e+01 %" reads back, but nobody writes it
+    const auto parsed = parse_quantity(text + (is_relative(c) ? " %" : ""), is_relative(c) ? Dimension::fraction
+                                                                                            : Dimension::dimensionless);
+    if (parsed.value && *parsed.value == value) {
+      const std::string signed_text = sign && value >= 0.0 ? "+" + text : text;
+      return is_relative(c) ? "\"" + signed_text + " %\"" : signed_text;
+    }
+  }
+  return fmt::format("{:.17g}", value);
+}
+
+}  // namespace
+
+std::string variation_toml(const VariationSpec& spec) {
+  std::string out = "\n[variation]\n";
+  for (auto c : all_variation_classes) {
+    if (!spec.given[static_cast<size_t>(c)]) continue;
+    const auto& s = spec.variation.spread(c);
+    out += fmt::format("{} = {{ global = {}, local = {} }}\n", to_string(c), amount_text(c, s.global, false),
+                       amount_text(c, s.local, false));
+  }
+  out += fmt::format("distribution = \"{}\"\nsamples = {}\nseed = {}\ncorners = \"{}\"\n",
+                     to_string(spec.variation.distribution), spec.samples, spec.seed,
+                     spec.extremes ? "extremes" : "none");
+  for (const auto& named : spec.corners) {
+    out += "\n[[variation.corner]]\nname = " + toml_basic_string(named.corner.name) + "\n";
+    for (auto c : all_variation_classes)
+      if (named.corner.named[static_cast<size_t>(c)])
+        out += fmt::format("{} = {}\n", to_string(c), amount_text(c, named.corner.offset[static_cast<size_t>(c)], true));
+  }
+  return out;
 }
 
 }  // namespace peakplan

@@ -3,6 +3,7 @@
 #pragma once
 
 #include <optional>
+#include <string>
 #include <toml++/toml.h>
 
 #include "models/chain.hpp"
@@ -17,5 +18,9 @@ std::optional<VariationSpec> read_variation(const toml::table& root, Diagnostics
 // Checks that need the resolved chain: a coupling spread or corner offset that would take some
 // T-coil's k out of (-1, 1). Errors at the offending spread or offset.
 void check_variation(const VariationSpec& variation, const Chain& chain, Diagnostics& diagnostics);
+
+// The [variation] table (and its [[variation.corner]] tables) as chain-file text that reads
+// back to the same spec: percentages in the shortest decimal that gives the same fraction.
+std::string variation_toml(const VariationSpec& variation);
 
 }  // namespace peakplan

@@ -13,6 +13,7 @@
 #include "models/monte_carlo.hpp"
 #include "models/variation.hpp"
 #include "planner/chain_graph.hpp"
+#include "planner/planner.hpp"
 #include "planner/variation_analysis.hpp"
 
 using namespace peakplan;
@@ -386,4 +387,102 @@ TEST_CASE("variation: analyze prints the corner table and the yield with its Wil
   CHECK(bad.out.empty());
   CHECK(bad.err.find("--samples") != std::string::npos);
   CHECK(bad.err.find("no [variation]") != std::string::npos);
+}
+
+namespace {
+
+// The two-stage chain with its load resistors and inductor left to the planner.
+std::string two_stages_open(const std::string& plan_for) {
+  std::string text = kTwoStages;
+  auto replace = [&](const std::string& from, const std::string& to) {
+    const auto at = text.find(from);
+    REQUIRE(at != std::string::npos);
+    text.replace(at, from.size(), to);
+  };
+  replace("rd = \"110 ohm\"", "rd = \"auto\"");
+  replace("rd = \"60 ohm\"", "rd = \"auto\"");
+  replace("l = \"250 pH\"", "l = \"auto\"");
+  replace("[limits]", "plan_for = \"" + plan_for + "\"\n[limits]");
+  return text;
+}
+
+// Plans `text`, writes the plan, analyzes the written file and returns the analysis document.
+nlohmann::json plan_write_and_analyze(const std::string& text, Plan& plan) {
+  Diagnostics d("corner_plan.toml");
+  const auto spec = parse_chain_spec(text, d);
+  REQUIRE(spec);
+  auto planned = plan_chain(*spec, d);
+  INFO(d.format());
+  REQUIRE(planned);
+  plan = *planned;
+  TempDir dir;
+  const auto written = dir.write("planned.toml", planned_chain_toml(*spec, plan));
+  const auto run = run_cli({"analyze", written, "--json", "--samples", "200"});
+  INFO(run.err);
+  REQUIRE(run.status == 0);
+  return nlohmann::json::parse(run.out);
+}
+
+void check_every_corner_met(const nlohmann::json& doc, size_t corners) {
+  const auto& list = doc["variation"]["corners"];
+  CHECK(list.size() == corners);
+  for (const auto& c : list) {
+    INFO("corner " << c["name"].get<std::string>());
+    CHECK(c["met"] == true);
+    CHECK_FALSE(c["checks"].empty());
+    for (const auto& check : c["checks"]) {
+      INFO("check " << check["name"].get<std::string>());
+      CHECK(check["met"] == true);
+    }
+  }
+}
+
+}  // namespace
+
+TEST_CASE("variation: a plan for corners, written and re-analysed, meets every check at every corner (a T-coil "
+          "chain and a shunt chain)") {
+  // The planner's own claim checked the way a user would: the written plan (every value fixed,
+  // the [variation] table kept) analysed on its own, each corner measured like analyze measures.
+  SUBCASE("the shipped T-coil example") {
+    Plan plan;
+    const auto doc = plan_write_and_analyze(read_file(std::string(PEAKPLAN_SOURCE_DIR) + "/chains/variation_post_amp.toml"), plan);
+    CHECK(plan.termination == Plan::Termination::met);
+    CHECK(plan.for_corners);
+    CHECK(plan.corner_count == 10);  // 2^3 extremes of gm, C, R, nominal and "slow"
+    CHECK_FALSE(plan.binding_corner.empty());
+    check_every_corner_met(doc, 10);
+  }
+  SUBCASE("a shunt and a plain stage") {
+    Plan plan;
+    const auto doc = plan_write_and_analyze(two_stages_open("corners"), plan);
+    CHECK(plan.termination == Plan::Termination::met);
+    CHECK(plan.corner_count == 18);  // 2^4 extremes, nominal and "slow"
+    REQUIRE(plan.nominal_checks.size() == plan.checks.size());
+    for (size_t i = 0; i < plan.checks.size(); ++i) {
+      // The worst corner is never better than nominal.
+      CHECK(plan.checks[i].margin <= plan.nominal_checks[i].margin + 1e-12 * std::fabs(plan.checks[i].limit));
+    }
+    check_every_corner_met(doc, 18);
+
+    // The same chain planned for nominal sits on the edge of a limit and misses it at some corner.
+    Plan nominal;
+    const auto nominal_doc = plan_write_and_analyze(two_stages_open("nominal"), nominal);
+    CHECK(nominal.termination == Plan::Termination::met);
+    CHECK_FALSE(nominal.for_corners);
+    bool some_corner_fails = false;
+    for (const auto& c : nominal_doc["variation"]["corners"]) some_corner_fails = some_corner_fails || c["met"] == false;
+    CHECK(some_corner_fails);
+  }
+}
+
+TEST_CASE("variation: plan_for = \"corners\" without a [variation] table is bad input at plan_for") {
+  TempDir dir;
+  std::string text = two_stages_open("corners");
+  text = text.substr(0, text.find("[variation]")) + text.substr(text.find("[[stage]]"));
+  const auto path = dir.write("no_variation.toml", text);
+  const auto run = run_cli({"plan", path, "--json"});
+  CHECK(run.status == 2);
+  CHECK(run.out.empty());
+  const auto line = 1 + std::count(text.begin(), text.begin() + static_cast<long>(text.find("plan_for")), '\n');
+  CHECK(run.err.rfind(path + ":" + std::to_string(line) + ":12: error: [target] plan_for = \"corners\" needs a [variation]", 0) == 0);
 }
