@@ -69,12 +69,14 @@ std::vector<CaseMetrics> run_monte_carlo(const Chain& nominal, const Variation& 
                                          const CaseOptions& case_options, const MonteCarloOptions& options) {
   const int total = std::max(0, options.samples);
   std::vector<CaseMetrics> results(static_cast<size_t>(total));
-  std::atomic<int> done{0};
+  std::atomic<int> done{0}, next{0};
   std::exception_ptr failure;
   std::atomic<bool> failed{false};
-  auto work = [&](int begin, int end) {
+  // Each worker takes the next sample as it finishes one (a busy machine then costs no thread
+  // an idle wait); sample i's result depends only on i, whoever measures it.
+  auto work = [&] {
     try {
-      for (int i = begin; i < end && !failed.load(std::memory_order_relaxed); ++i) {
+      for (int i = next++; i < total && !failed.load(std::memory_order_relaxed); i = next++) {
         const auto draw = draw_sample(variation, options.seed, static_cast<std::uint64_t>(i), nominal.stages.size());
         results[static_cast<size_t>(i)] = measure_case(apply_variation(nominal, draw), case_options);
         done.fetch_add(1, std::memory_order_relaxed);
@@ -86,11 +88,7 @@ std::vector<CaseMetrics> run_monte_carlo(const Chain& nominal, const Variation& 
   const int threads = std::clamp(options.threads, 1, std::max(1, total));
   {
     std::vector<std::jthread> pool;
-    for (int t = 0; t < threads; ++t) {
-      const int begin = static_cast<int>(static_cast<long long>(total) * t / threads);
-      const int end = static_cast<int>(static_cast<long long>(total) * (t + 1) / threads);
-      pool.emplace_back(work, begin, end);
-    }
+    for (int t = 0; t < threads; ++t) pool.emplace_back(work);
     if (options.progress) {
       while (done.load() < total && !failed.load()) {
         std::this_thread::sleep_for(std::chrono::milliseconds(100));

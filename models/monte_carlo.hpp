@@ -60,7 +60,7 @@ struct MonteCarloOptions {
 };
 
 // Sample i is apply_variation(nominal, draw_sample(variation, seed, i, stages)), measured;
-// results[i] is written by whichever thread measures it, in contiguous chunks.
+// results[i] is written by whichever thread measures it (each takes the next sample in turn).
 std::vector<CaseMetrics> run_monte_carlo(const Chain& nominal, const Variation& variation,
                                          const CaseOptions& case_options, const MonteCarloOptions& options);
 

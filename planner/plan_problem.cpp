@@ -5,8 +5,10 @@
 #include <limits>
 #include <numbers>
 
+#include "models/parallel.hpp"
 #include "models/peaking_design.hpp"
 #include "models/units.hpp"
+#include "planner/variation_analysis.hpp"
 
 namespace peakplan {
 namespace {
@@ -125,6 +127,7 @@ Problem::Problem(const ChainSpec& spec, Combination combo, std::vector<GraphStag
     add(Axis::zeta, 0.52, 1.3);
 
   if (spec.target.plan_for == "corners" && spec.variation) {
+    corner_threads_ = default_thread_count();
     corners_.push_back(nominal_corner());
     if (spec.variation->extremes)
       for (auto& c : extreme_corners(spec.variation->variation)) corners_.push_back(std::move(c));
@@ -203,12 +206,13 @@ Evaluation Problem::evaluate(const std::vector<double>& u, Fidelity fidelity) co
 std::vector<Evaluation> Problem::evaluate_corners(const std::vector<double>& u, Fidelity fidelity) const {
   const Chain chain = build(u, fidelity);
   if (corners_.empty()) return {measure(chain, fidelity)};
-  std::vector<Evaluation> each;
-  for (const auto& corner : corners_) {
-    each.push_back(measure(apply_variation(chain, corner.draw()), fidelity));
-    // The supply current is set by the bias, not by the devices' spread of gm.
-    each.back().total_gm = each.front().total_gm;
-  }
+  // Corners are independent: measured in parallel, each into its own slot.
+  std::vector<Evaluation> each(corners_.size());
+  parallel_for(corners_.size(), corners_.size() >= 4 ? corner_threads_ : 1, [&](size_t i) {
+    each[i] = measure(apply_variation(chain, corners_[i].draw()), fidelity);
+  });
+  // The supply current is set by the bias, not by the devices' spread of gm.
+  for (auto& e : each) e.total_gm = each.front().total_gm;
   return each;
 }
 

@@ -93,6 +93,7 @@ class Problem {
   std::vector<Axis> design_;
   std::vector<double> design_lo_, design_hi_;
   std::vector<Corner> corners_;
+  int corner_threads_ = 1;  // default_thread_count(): the results do not depend on it
 };
 
 }  // namespace peakplan

@@ -152,7 +152,7 @@ std::string variation_text(const VariationResult& r) {
   }
   if (!worst.empty()) out += "  worst corner per metric: " + worst + "\n";
   if (!same.empty()) out += "  the same at every corner: " + same + "\n";
-  if (!r.monte_carlo) return out;
+  if (!r.monte_carlo) return out + "  (no Monte Carlo run here: peakplan analyze of the chain gives the yield)\n";
   const auto& mc = *r.monte_carlo;
   out += fmt::format("\nmonte carlo ({} samples, seed {}, {}; percentiles 0.135 / 50 / 99.865 are -3 / 0 / +3 sigma)\n",
                      mc.samples, mc.seed, to_string(mc.distribution));

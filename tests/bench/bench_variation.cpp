@@ -1,7 +1,11 @@
-// How long a Monte Carlo run takes: 10,000 samples of a six-stage mixed chain (the planning
-// benchmark's chain, planned once outside the timing), each measured with its frequency scan,
-// step overshoot and PRBS7 eye, on 1 and 2 threads.
+// How long process variation takes: 10,000 Monte Carlo samples of a six-stage mixed chain (the
+// planning benchmark's chain, planned once outside the timing), each measured with its frequency
+// scan, step overshoot and PRBS7 eye, on 1 and 2 threads; one case alone; and a corner plan.
 #include <benchmark/benchmark.h>
+
+#include <fstream>
+#include <sstream>
+#include <string>
 
 #include "models/monte_carlo.hpp"
 #include "planner/chain_graph.hpp"
@@ -64,6 +68,39 @@ void one_case(benchmark::State& state) {
   for (auto _ : state) benchmark::DoNotOptimize(peakplan::measure_case(chain, cases));
 }
 BENCHMARK(one_case)->Arg(0)->Arg(1)->Unit(benchmark::kMicrosecond);
+
+// The corner plan of chains/plan_post_tia.toml: the shipped file with plan_for = "corners" and
+// the moderate spreads of chains/variation_post_amp.toml (2^3 extremes, nominal: 9 corners).
+void corner_plan_post_tia(benchmark::State& state) {
+  std::ifstream in(std::string(PEAKPLAN_SOURCE_DIR) + "/chains/plan_post_tia.toml");
+  std::stringstream text;
+  text << in.rdbuf();
+  std::string file = text.str();
+  const std::string objective = "objective = \"flattest\"";
+  file.replace(file.find(objective), objective.size(), objective + "\nplan_for = \"corners\"");
+  file.insert(file.find("[[stage]]"), R"([variation]
+gm          = { global = "8 %", local = "2 %" }
+capacitance = { global = "6 %", local = "1 %" }
+inductance  = { local = "2 %" }
+resistance  = { global = "10 %", local = "1 %" }
+coupling    = { local = 0.01 }
+
+)");
+  peakplan::Diagnostics d("plan_post_tia.toml");
+  const auto spec = peakplan::parse_chain_spec(file, d);
+  if (!spec) {
+    state.SkipWithError(d.format().c_str());
+    return;
+  }
+  for (auto _ : state) {
+    peakplan::Diagnostics pd("plan_post_tia.toml");
+    const auto plan = peakplan::plan_chain(*spec, pd);
+    state.counters["met"] = plan->termination == peakplan::Plan::Termination::met ? 1 : 0;
+    state.counters["corners"] = plan->corner_count;
+    state.counters["evaluations"] = plan->evaluations;
+  }
+}
+BENCHMARK(corner_plan_post_tia)->Unit(benchmark::kMillisecond)->Iterations(1)->UseRealTime();
 
 }  // namespace
 
