@@ -28,7 +28,8 @@ struct CaseOptions {
 
 // The main output of one case, measured as analyze measures it (the same scan, time axis and
 // PRBS overlay), so a corner equals an analysis of the same values; with short_step the step
-// record is the short one (overshoot within about 1e-3 percentage points of the full record's).
+// record is the short one (overshoot within about 0.002 percentage points of the full record's
+// in the shipped chains).
 struct CaseMetrics {
   FrequencyMetrics f;
   StepMetrics t;
