@@ -166,4 +166,19 @@ StepMetrics step_metrics(const StepResponse& step) {
   return m;
 }
 
+TimeAxis short_time_axis(const Cascade& cascade, double bandwidth_hz) {
+  auto axis = choose_time_axis(cascade, bandwidth_hz);
+  constexpr int kMaxPoints = 500;
+  if (std::isfinite(bandwidth_hz) && bandwidth_hz > 0.0) {
+    const double dt = std::max(axis.dt, 1.0 / (50.0 * bandwidth_hz));
+    const double duration = axis.dt * (axis.points - 1);
+    axis.points = std::min(kMaxPoints, static_cast<int>(std::ceil(duration / dt)) + 1);
+    axis.dt = dt;
+  } else if (axis.points > kMaxPoints) {
+    axis.dt *= static_cast<double>(axis.points) / kMaxPoints;
+    axis.points = kMaxPoints;
+  }
+  return axis;
+}
+
 }  // namespace peakplan

@@ -62,6 +62,11 @@ struct TimeAxis {
   int points;
 };
 TimeAxis choose_time_axis(const Cascade& cascade, double bandwidth_hz);
+// A short record for measuring overshoot many times (a planner's search, Monte Carlo samples):
+// choose_time_axis's span at about 50 samples per 1/bandwidth (a rise time spans about 17), at
+// most 500 of them. Overshoot peaks within a few rise times of the delay, so the short record
+// finds it; settling times need the full record.
+TimeAxis short_time_axis(const Cascade& cascade, double bandwidth_hz);
 
 StepResponse step_response(const Cascade& cascade, const TimeAxis& axis);
 StepMetrics step_metrics(const StepResponse& step);

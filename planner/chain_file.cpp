@@ -11,17 +11,19 @@
 
 #include "planner/overrides.hpp"
 #include "planner/plausible_range.hpp"
+#include "planner/variation_file.hpp"
 
 namespace peakplan {
 namespace {
 
 using Keys = std::vector<std::string_view>;
 
-const Keys kTopKeys{"chain", "input", "signal", "target", "limits", "technology", "stage"};
+const Keys kTopKeys{"chain", "input", "signal", "target", "limits", "technology", "stage",
+                 "variation"};
 const Keys kChainKeys{"name"};
 const Keys kInputKeys{"r_source", "noise_density"};
 const Keys kSignalKeys{"bit_rate", "modulation", "pattern", "input_rise", "swing", "target_ber"};
-const Keys kTargetKeys{"gain", "bandwidth", "gain_bandwidth", "objective"};
+const Keys kTargetKeys{"gain", "bandwidth", "gain_bandwidth", "objective", "plan_for"};
 const Keys kLimitsKeys{"overshoot", "peaking", "group_delay_ripple", "ripple_band"};
 const Keys kTechnologyKeys{"ft", "c_out_ratio", "inductor_q", "max_inductance", "k_range",
                            "min_cb", "max_gm", "gm_over_id", "current_budget", "gamma",
@@ -274,6 +276,10 @@ void read_target(Reader& reader, const toml::table& root, ChainSpec& spec) {
   }
   if (const auto* n = t->get("objective"))
     if (auto w = reader.word(*n, kObjectives, "[target] objective")) spec.target.objective = *w;
+  if (const auto* n = t->get("plan_for")) {  // DESIGN.md section 6
+    spec.target.plan_for_where = position(n->source());
+    if (auto w = reader.word(*n, {"nominal", "corners"}, "[target] plan_for")) spec.target.plan_for = *w;
+  }
 }
 
 void read_limits(Reader& reader, const toml::table& root, ChainSpec& spec) {
@@ -551,6 +557,7 @@ std::optional<ChainSpec> read_document(const toml::table& root, Diagnostics& dia
   read_target(reader, root, spec);
   read_limits(reader, root, spec);
   read_technology(reader, root, spec);
+  spec.variation = read_variation(root, diagnostics);
 
   const auto* stages = root.get("stage");
   const auto* array = stages ? stages->as_array() : nullptr;

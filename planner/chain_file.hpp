@@ -10,6 +10,7 @@
 
 #include "models/load_kinds.hpp"
 #include "planner/diagnostics.hpp"
+#include "planner/variation_spec.hpp"
 
 namespace peakplan {
 
@@ -53,6 +54,8 @@ struct TargetSpec {
   std::optional<double> bandwidth;       // Hz, a minimum
   std::optional<double> gain_bandwidth;  // Hz
   std::string objective = "flattest";
+  std::string plan_for = "nominal";  // or "corners": every check at every [variation] corner
+  SourcePosition plan_for_where;
 };
 
 struct LimitsSpec {
@@ -81,6 +84,7 @@ struct ChainSpec {
   LimitsSpec limits;
   TechnologySpec technology;
   std::vector<StageSpec> stages;
+  std::optional<VariationSpec> variation;  // [variation], planner/variation_file.hpp
 };
 
 // Parses and validates one chain file. `display_name` is the name errors carry (the path as

@@ -8,6 +8,7 @@
 
 #include "models/frequency_response.hpp"
 #include "models/peaking_design.hpp"
+#include "planner/variation_file.hpp"
 
 namespace peakplan {
 namespace {
@@ -280,6 +281,8 @@ std::optional<Chain> resolve_chain(const ChainSpec& spec, Diagnostics& diagnosti
   }
   if (!diagnostics.empty()) return std::nullopt;
   apply_designs(chain, spec, *graph);
+  if (spec.variation) check_variation(*spec.variation, chain, diagnostics);
+  if (!diagnostics.empty()) return std::nullopt;
   return chain;
 }
 

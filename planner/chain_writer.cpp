@@ -5,6 +5,7 @@
 #include "models/units.hpp"
 #include "planner/planner.hpp"
 #include "planner/toml_text.hpp"
+#include "planner/variation_file.hpp"
 
 namespace peakplan {
 namespace {
@@ -38,6 +39,7 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
     if (t.bandwidth) out += number_line("bandwidth", *t.bandwidth, "Hz");
     if (t.gain_bandwidth) out += number_line("gain_bandwidth", *t.gain_bandwidth, "Hz");
     out += "objective = " + toml_basic_string(t.objective) + "\n";
+    if (t.plan_for != "nominal") out += "plan_for = " + toml_basic_string(t.plan_for) + "\n";
   }
   const auto& l = spec.limits;
   if (l.overshoot || l.peaking_db || l.group_delay_ripple || l.ripple_band) {
@@ -62,6 +64,7 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
   opt("current_budget", tech.current_budget, "");
   if (tech.k_min && tech.k_max) out += "k_range = [" + toml_number(*tech.k_min) + ", " + toml_number(*tech.k_max) + "]\n";
   out += "gamma = " + toml_number(tech.gamma) + "\ntemperature = " + toml_number(tech.temperature) + "\n";
+  if (spec.variation) out += variation_toml(*spec.variation);
 
   for (const auto& planned : plan.stages) {
     const auto& s = spec.stages[planned.spec];

@@ -5,8 +5,10 @@
 #include <limits>
 #include <numbers>
 
+#include "models/parallel.hpp"
 #include "models/peaking_design.hpp"
 #include "models/units.hpp"
+#include "planner/variation_analysis.hpp"
 
 namespace peakplan {
 namespace {
@@ -43,24 +45,6 @@ ScanResolution search_scan() { return {2.0, 30}; }
 
 bool needs_step(const ChainSpec& spec) {
   return spec.limits.overshoot.has_value() || spec.target.objective == "flattest";
-}
-
-// The search's step response: about 50 samples per 1/bandwidth (a rise time spans about 17),
-// at most 500 of them. Overshoot peaks within a few rise times of the delay, so the short
-// record finds it; the final plan is measured on analyze's full record.
-TimeAxis search_time_axis(const Cascade& cascade, double bandwidth_hz) {
-  auto axis = choose_time_axis(cascade, bandwidth_hz);
-  constexpr int kMaxPoints = 500;
-  if (std::isfinite(bandwidth_hz) && bandwidth_hz > 0.0) {
-    const double dt = std::max(axis.dt, 1.0 / (50.0 * bandwidth_hz));
-    const double duration = axis.dt * (axis.points - 1);
-    axis.points = std::min(kMaxPoints, static_cast<int>(std::ceil(duration / dt)) + 1);
-    axis.dt = dt;
-  } else if (axis.points > kMaxPoints) {
-    axis.dt *= static_cast<double>(axis.points) / kMaxPoints;
-    axis.points = kMaxPoints;
-  }
-  return axis;
 }
 
 }  // namespace
@@ -141,6 +125,14 @@ Problem::Problem(const ChainSpec& spec, Combination combo, std::vector<GraphStag
   if (peaked(LoadKind::series)) add(Axis::m_series, 0.05, 1.5);
   if (any([&](const Variable& v) { return combo_.kinds[v.spec] == LoadKind::tcoil && v.key != "gm" && v.key != "rd"; }))
     add(Axis::zeta, 0.52, 1.3);
+
+  if (spec.target.plan_for == "corners" && spec.variation) {
+    corner_threads_ = default_thread_count();
+    corners_.push_back(nominal_corner());
+    if (spec.variation->extremes)
+      for (auto& c : extreme_corners(spec.variation->variation)) corners_.push_back(std::move(c));
+    for (const auto& named : spec.variation->corners) corners_.push_back(named.corner);
+  }
 }
 
 int Problem::variable_index(size_t stage, std::string_view key) const {
@@ -195,14 +187,43 @@ Chain Problem::build(const std::vector<double>& u, Fidelity fidelity) const {
 }
 
 Evaluation Problem::evaluate(const std::vector<double>& u, Fidelity fidelity) const {
+  if (corners_.empty()) return measure(build(u, fidelity), fidelity);
+  const auto each = evaluate_corners(u, fidelity);
+  Evaluation w = each.front();
+  for (size_t i = 1; i < each.size(); ++i) {
+    const auto& e = each[i];
+    if (std::fabs(e.f.dc_gain) < std::fabs(w.f.dc_gain)) w.f.dc_gain = e.f.dc_gain;
+    // A bandwidth not found counts as the worst, as the checks count it.
+    if (!std::isfinite(e.f.bandwidth_hz) || e.f.bandwidth_hz < w.f.bandwidth_hz) w.f.bandwidth_hz = e.f.bandwidth_hz;
+    w.f.peaking_db = std::max(w.f.peaking_db, e.f.peaking_db);
+    w.f.group_delay_ripple_s = std::max(w.f.group_delay_ripple_s, e.f.group_delay_ripple_s);
+    w.f.sag_db = std::min(w.f.sag_db, e.f.sag_db);
+    w.t.overshoot_pct = std::max(w.t.overshoot_pct, e.t.overshoot_pct);
+  }
+  return w;
+}
+
+std::vector<Evaluation> Problem::evaluate_corners(const std::vector<double>& u, Fidelity fidelity) const {
   const Chain chain = build(u, fidelity);
+  if (corners_.empty()) return {measure(chain, fidelity)};
+  // Corners are independent: measured in parallel, each into its own slot.
+  std::vector<Evaluation> each(corners_.size());
+  parallel_for(corners_.size(), corners_.size() >= 4 ? corner_threads_ : 1, [&](size_t i) {
+    each[i] = measure(apply_variation(chain, corners_[i].draw()), fidelity);
+  });
+  // The supply current is set by the bias, not by the devices' spread of gm.
+  for (auto& e : each) e.total_gm = each.front().total_gm;
+  return each;
+}
+
+Evaluation Problem::measure(const Chain& chain, Fidelity fidelity) const {
   Evaluation e;
   const auto cascade = output_cascade(chain, chain.outputs().back());
   const double band = spec_.limits.ripple_band.value_or(not_found);
   e.f = frequency_metrics(cascade, band, fidelity == Fidelity::final ? ScanResolution{} : search_scan());
   if (fidelity == Fidelity::final || needs_step(spec_)) {
     const auto axis = fidelity == Fidelity::final ? choose_time_axis(cascade, e.f.bandwidth_hz)
-                                                  : search_time_axis(cascade, e.f.bandwidth_hz);
+                                                  : short_time_axis(cascade, e.f.bandwidth_hz);
     e.t = step_metrics(step_response(cascade, axis));
   }
   for (const auto& s : chain.stages) e.total_gm += s.circuit.gm;

@@ -16,6 +16,7 @@
 #include "models/chain.hpp"
 #include "models/frequency_response.hpp"
 #include "models/step_response.hpp"
+#include "models/variation.hpp"
 #include "planner/chain_file.hpp"
 #include "planner/chain_graph.hpp"
 
@@ -58,7 +59,15 @@ class Problem {
   const std::vector<GraphStage>& graph() const { return graph_; }
 
   Chain build(const std::vector<double>& u, Fidelity fidelity = Fidelity::final) const;
+  // With [target] plan_for = "corners" the worst value of each metric over every corner
+  // (lowest gain and bandwidth, highest overshoot, peaking and ripple, deepest sag), so that
+  // meeting a check here means meeting it at every corner; otherwise the nominal chain's.
   Evaluation evaluate(const std::vector<double>& u, Fidelity fidelity) const;
+  // The corners a plan for corners must hold at: nominal first, then the [variation]
+  // extremes and named corners; empty when planning for nominal.
+  const std::vector<Corner>& corners() const { return corners_; }
+  // Each corner's evaluation (nominal first); just the nominal one when planning for nominal.
+  std::vector<Evaluation> evaluate_corners(const std::vector<double>& u, Fidelity fidelity) const;
   // Every value from the published designs at an equal gain per stage (the design space's seed).
   std::vector<double> seed() const { return expand(design_seed()); }
 
@@ -75,6 +84,7 @@ class Problem {
   // The chain with element values and node capacitances only (no designs, no Q losses).
   Chain assemble(const std::vector<double>& u) const;
   int variable_index(size_t stage, std::string_view key) const;
+  Evaluation measure(const Chain& chain, Fidelity fidelity) const;
 
   const ChainSpec& spec_;
   Combination combo_;
@@ -82,6 +92,8 @@ class Problem {
   std::vector<Variable> variables_;
   std::vector<Axis> design_;
   std::vector<double> design_lo_, design_hi_;
+  std::vector<Corner> corners_;
+  int corner_threads_ = 1;  // default_thread_count(): the results do not depend on it
 };
 
 }  // namespace peakplan

@@ -71,6 +71,13 @@ struct Plan {
   std::vector<GraphStage> graph;
   std::vector<PlanCheck> checks;
   std::string binding;  // the check with the least margin
+  // [target] plan_for = "corners": `checks` hold each check's worst value over the corners,
+  // `check_corners` the corner each comes from, `nominal_checks` the nominal chain's checks.
+  bool for_corners = false;
+  int corner_count = 0;  // corners checked, nominal included
+  std::vector<PlanCheck> nominal_checks;
+  std::vector<std::string> check_corners;
+  std::string binding_corner;
   double objective = 0.0;
   int evaluations = 0;
   double seconds = 0.0;

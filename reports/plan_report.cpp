@@ -30,6 +30,17 @@ nlohmann::json plan_json(const ChainSpec& spec, const Plan& plan, const ChainAna
   for (const auto& c : plan.checks)
     doc["checks"].push_back({{"name", c.name}, {"unit", c.unit}, {"value", c.value}, {"limit", c.limit},
                              {"kind", c.is_minimum ? "minimum" : "maximum"}, {"margin", c.margin}, {"met", c.met}});
+  doc["plan_for"] = spec.target.plan_for;
+  if (plan.for_corners) {
+    // Each check's value above is its worst over the corners; here the nominal value beside it.
+    for (size_t i = 0; i < plan.checks.size(); ++i) {
+      doc["checks"][i]["corner"] = plan.check_corners[i];
+      doc["checks"][i]["nominal"] = plan.nominal_checks[i].value;
+      doc["checks"][i]["nominal_margin"] = plan.nominal_checks[i].margin;
+    }
+    doc["binding_corner"] = plan.binding_corner;
+    doc["corners_checked"] = plan.corner_count;
+  }
   doc["chosen"] = nlohmann::json::array();
   for (const auto& p : plan.stages) {
     size_t first = 0;
@@ -44,6 +55,21 @@ nlohmann::json plan_json(const ChainSpec& spec, const Plan& plan, const ChainAna
 
 std::string plan_text(const ChainSpec& spec, const Plan& plan, const ChainAnalysis& analysis) {
   std::string out = plan.brief() + "\n\n" + analysis_text(plan.chain, analysis);
+  if (plan.for_corners) {
+    out += fmt::format("\ntargets and limits at nominal and at the worst of {} corners (objective: {}, at the worst "
+                       "corner)\n", plan.corner_count, spec.target.objective);
+    out += fmt::format("  {:<20} {:>12} {:>12} {:>12} {:>12}  {:<16}  {}\n", "check", "required", "nominal", "worst",
+                       "margin", "worst corner", "");
+    for (size_t i = 0; i < plan.checks.size(); ++i) {
+      const auto& c = plan.checks[i];
+      out += fmt::format("  {:<20} {:>12} {:>12} {:>12} {:>12}  {:<16}  {}{}\n", c.name,
+                         (c.is_minimum ? ">= " : "<= ") + shown(c, c.limit), shown(c, plan.nominal_checks[i].value),
+                         shown(c, c.value), shown(c, c.margin), plan.check_corners[i], c.met ? "met" : "NOT MET",
+                         c.name == plan.binding ? " (binding)" : "");
+    }
+    if (plan.checks.empty()) out += "  (the file sets no [target] or [limits])\n";
+    return out;
+  }
   out += fmt::format("\ntargets and limits (objective: {})\n", spec.target.objective);
   out += fmt::format("  {:<20} {:>12} {:>14} {:>14}  {}\n", "check", "required", "achieved", "margin", "");
   for (const auto& c : plan.checks)

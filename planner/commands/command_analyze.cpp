@@ -1,12 +1,17 @@
-// peakplan analyze CHAIN.toml [--json] [--points N] [--set ID.KEY=VALUE ...]
+// peakplan analyze CHAIN.toml [--json] [--points N] [--set ID.KEY=VALUE ...] [--samples N] [--seed S]
+#include <fmt/format.h>
 #include <iostream>
 #include <memory>
+#include <optional>
 
 #include "planner/commands/command.hpp"
+#include "planner/commands/progress_line.hpp"
 #include "planner/chain_graph.hpp"
+#include "planner/variation_analysis.hpp"
 #include "planner/what_if.hpp"
 #include "reports/json_report.hpp"
 #include "reports/text_report.hpp"
+#include "reports/variation_report.hpp"
 
 namespace peakplan::cli {
 namespace {
@@ -16,6 +21,8 @@ struct AnalyzeArgs {
   bool json = false;
   int points = 201;
   WhatIf what_if;
+  std::optional<int> samples;
+  std::optional<std::uint64_t> seed;
 };
 
 int run_analyze(const AnalyzeArgs& args) {
@@ -23,14 +30,34 @@ int run_analyze(const AnalyzeArgs& args) {
   const auto what_if = load_what_if(args.chain, args.what_if, diagnostics);
   const auto* spec = what_if ? &what_if->spec : nullptr;
   const auto chain = spec ? resolve_chain(*spec, diagnostics) : std::nullopt;
-  if (!chain) {
+  if (chain && !spec->variation && (args.samples || args.seed))
+    diagnostics.error({0, 0, args.samples ? "--samples" : "--seed"},
+                      "the chain file has no [variation] table to sample; add one (DESIGN.md section 6)");
+  if (!chain || !diagnostics.empty()) {
     std::cerr << diagnostics.format();
     return bad_input;
   }
   const auto options = analysis_options(*spec, args.points);
   const auto analysis = analyze_chain(*chain, options);
-  print(args.json ? analysis_json(*chain, analysis, {true, options.signal}).dump(2) + "\n"
-                  : analysis_text(*chain, analysis));
+  std::optional<VariationResult> variation;
+  if (spec->variation) {
+    ProgressLine progress;
+    VariationRunOptions run;
+    run.samples = args.samples;
+    run.seed = args.seed;
+    run.threads = default_thread_count();
+    run.progress = [&progress](int done, int total) {
+      progress.show(fmt::format("monte carlo: {} of {} samples", done, total));
+    };
+    variation = analyze_variation(*spec, *chain, run);
+  }
+  if (args.json) {
+    auto doc = analysis_json(*chain, analysis, {true, options.signal});
+    if (variation) doc["variation"] = variation_json(*variation);
+    print(doc.dump(2) + "\n");
+  } else {
+    print(analysis_text(*chain, analysis) + (variation ? variation_text(*variation) : std::string()));
+  }
   return ok;
 }
 
@@ -45,6 +72,10 @@ Command add_analyze_command(CLI::App& app) {
       ->check(CLI::Range(2, 100000));
   cmd->add_option("--set", args->what_if.sets, "override ID.KEY=VALUE without editing the file (repeatable)")
       ->allow_extra_args(false);
+  cmd->add_option("--samples", args->samples,
+                  "Monte Carlo samples of [variation] (overrides the file; threads: PEAKPLAN_THREADS, default every core)")
+      ->check(CLI::Range(1, 1000000));
+  cmd->add_option("--seed", args->seed, "Monte Carlo seed of [variation] (overrides the file)");
   return {cmd, [args] { return run_analyze(*args); }};
 }
 
