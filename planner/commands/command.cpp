@@ -44,6 +44,12 @@ void install_signal_handlers() {
 
 int stop_signal() { return g_stop_signal; }
 
+PlanOptions stopping_plan_options() {
+  PlanOptions options;
+  options.stop = [] { return g_stop_signal != 0; };
+  return options;
+}
+
 int exit_for_stop() {
   const int signal = g_stop_signal;
   static bool noted = false;  // a command and main may both end with this

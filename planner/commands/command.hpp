@@ -34,6 +34,8 @@ std::string help_footer(const std::string& example);
 // flag), it exits there and then. SIGXFSZ is ignored, so a file-size limit is a write error
 // (EFBIG) reported with exit 4, not a silent death. Call once, before any work.
 void install_signal_handlers();
+// Plan options that stop on those signals and show no progress.
+PlanOptions stopping_plan_options();
 // The signal received (SIGINT or SIGTERM), or 0.
 int stop_signal();
 // The exit status for the signal received (130, 143), with a note on stderr.

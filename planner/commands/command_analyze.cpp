@@ -39,12 +39,13 @@ int run_analyze(const AnalyzeArgs& args) {
 Command add_analyze_command(CLI::App& app) {
   auto args = std::make_shared<AnalyzeArgs>();
   auto* cmd = app.add_subcommand("analyze", "response, metrics and per-stage figures of a chain as written");
-  cmd->add_option("chain", args->chain, "chain file (TOML)")->required();
+  cmd->add_option("chain", args->chain, "chain file (TOML), or - for standard input")->required();
   cmd->add_flag("--json", args->json, "print one JSON document on stdout");
   cmd->add_option("--points", args->points, "frequency points of the reported response")
       ->check(CLI::Range(2, 100000));
   cmd->add_option("--set", args->what_if.sets, "override ID.KEY=VALUE without editing the file (repeatable)")
       ->allow_extra_args(false);
+  cmd->footer(help_footer("peakplan analyze chains/demo_postamp.toml --json"));
   return {cmd, [args] { return run_analyze(*args); }};
 }
 
