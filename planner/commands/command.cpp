@@ -59,12 +59,17 @@ int exit_for_stop() {
 }
 
 std::string help_footer(const std::string& example) {
-  return "Exit status: 0 success; 1 the plan did not meet its target (the result is still given, marked);\n"
-         "2 bad input (a positioned error on stderr, nothing written); 3 internal error (a bug in peakplan:\n"
-         "please report it); 4 cannot write output (the path and the system's reason on stderr, nothing\n"
-         "half-written); 130 stopped by SIGINT; 143 stopped by SIGTERM.\n"
-         "A chain file of \"-\" is read from standard input. The chain format: docs/chain-format.md.\n"
-         "Example: " + example;
+  return "Exit status:\n"
+         "  0    success\n"
+         "  1    the plan did not meet its target (the result is still given, marked)\n"
+         "  2    bad input: a positioned error on stderr, nothing written\n"
+         "  3    internal error: a bug in peakplan; please report it\n"
+         "  4    cannot write output: the path and the system's reason on stderr, nothing half-written\n"
+         "  130  stopped by SIGINT (Ctrl-C), nothing half-written\n"
+         "  143  stopped by SIGTERM, nothing half-written\n"
+         "The chain file format: docs/chain-format.md. A chain file given as - is read from standard input.\n"
+         "Example: " +
+         example + "\n";
 }
 
 PlanProgressLine::PlanProgressLine()

@@ -11,6 +11,7 @@ int main(int argc, char** argv) {
   CLI::App app{"peakplan: plan the gain, bandwidth and peaking of a broadband amplifier chain"};
   app.set_version_flag("--version", std::string("peakplan ") + PEAKPLAN_VERSION);
   app.require_subcommand(1);
+  app.footer(help_footer("peakplan analyze chains/demo_postamp.toml"));
 
   const std::vector<Command> commands{
       add_analyze_command(app),

@@ -161,11 +161,11 @@ std::optional<std::string> make_version(const fs::path& store, WriteFailure& fai
     const std::string name = std::string(kVersionPrefix) + run_id();
     if (::mkdir((store / name).c_str(), 0777) == 0) return name;
     if (errno != EEXIST) {
-      failed = failure(store / name, errno);
+      failed = failure(store.parent_path(), errno);  // the report directory is what the user named
       return std::nullopt;
     }
   }
-  failed = failure(store, EEXIST);
+  failed = failure(store.parent_path(), EEXIST);
   return std::nullopt;
 }
 
@@ -180,15 +180,15 @@ class Store {
   explicit Store(fs::path dir) : dir_(std::move(dir)), path_(dir_ / kReportStore) {}
 
   std::optional<WriteFailure> open() {
-    if (::mkdir(path_.c_str(), 0777) != 0 && errno != EEXIST) return failure_at(path_, errno);
+    if (::mkdir(path_.c_str(), 0777) != 0 && errno != EEXIST) return failure_at(dir_, errno);
     struct stat st {};
-    if (::lstat(path_.c_str(), &st) != 0) return failure(path_, errno);
+    if (::lstat(path_.c_str(), &st) != 0) return failure(dir_, errno);
     if (!S_ISDIR(st.st_mode)) return failure(path_, ENOTDIR);
     lock_ = ::open((path_ / kLock).c_str(), O_RDWR | O_CREAT | O_CLOEXEC | O_NOFOLLOW, 0666);
-    if (lock_ < 0) return failure(path_ / kLock, errno);
+    if (lock_ < 0) return failure(dir_, errno);
     // Another run on the same directory finishes first; a killed one held nothing.
     while (::flock(lock_, LOCK_EX) != 0)
-      if (errno != EINTR) return failure(path_ / kLock, errno);
+      if (errno != EINTR) return failure(dir_, errno);
     current_ = link_target(path_ / kCurrent).value_or("");
     if (current_.find('/') != std::string::npos || !current_.starts_with(kVersionPrefix)) current_.clear();
     remove_leftovers();
