@@ -501,6 +501,22 @@ TEST_CASE("outputs: SIGINT and SIGTERM stop a long plan with 130 and 143, and no
   }
 }
 
+TEST_CASE("outputs: SIGTERM during a long analysis, which polls no flag, still ends it with 143") {
+  // 256 shunt stages with a PRBS15 eye: over a second of analysis on the development machine.
+  std::string text = "[signal]\nbit_rate = \"56 Gb/s\"\npattern = \"prbs15\"\n";
+  for (int i = 0; i < 4; ++i)
+    text += "[[stage]]\nid = \"g" + std::to_string(i) +
+            "\"\nkind = \"shunt\"\ngm = \"40 mS\"\nrd = \"25 ohm\"\nc_in = \"20 fF\"\nc_out = \"10 fF\"\nm = 0.3\n"
+            "count = 64\n";
+  TempDir dir("peakplan_outputs"), capture("peakplan_outputs_signal");
+  const std::string chain = dir.write("long_analysis.toml", text);
+  const Child child = spawn(capture, {"analyze", chain, "--json"});
+  std::this_thread::sleep_for(std::chrono::milliseconds(200));
+  ::kill(child.pid, SIGTERM);
+  CHECK(wait_for(child, std::chrono::seconds(10)) == 143);  // 128 + SIGTERM: common practice
+  CHECK(read_file(child.out).empty());
+}
+
 TEST_CASE("outputs: a chain file of - is standard input, and its errors name <stdin>") {
   TempDir dir("peakplan_outputs");
   const auto from_file = run({"analyze", kDemo.string(), "--json"});

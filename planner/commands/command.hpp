@@ -30,8 +30,9 @@ enum Exit : int {
 std::string help_footer(const std::string& example);
 
 // SIGINT and SIGTERM set a flag that plans poll (PlanOptions::stop) and commands check before
-// they write; should the process not have stopped a second later (a long analysis polls no
-// flag), it exits there and then. SIGXFSZ is ignored, so a file-size limit is a write error
+// they write; should the process not have stopped half a second later (a long analysis polls
+// no flag), it exits there and then (a report being swapped in is then old or new all the
+// same, planner/commands/output_files.hpp). A second signal ends it at once. SIGXFSZ is ignored, so a file-size limit is a write error
 // (EFBIG) reported with exit 4, not a silent death. Call once, before any work.
 void install_signal_handlers();
 // Plan options that stop on those signals and show no progress.
