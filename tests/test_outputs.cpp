@@ -279,6 +279,20 @@ TEST_CASE("outputs: report --out to a place that cannot take it exits 4 and leav
     CHECK(shown(out, {"eye.svg"}) == before);
     CHECK(store_entries(out) == kFinishedStore);
   }
+  SUBCASE("a read-only directory (chmod; root writes anyway, so only as another user)") {
+    if (::geteuid() == 0) {
+      MESSAGE("running as root, which chmod does not stop: the read-only tmpfs case below covers EROFS instead");
+      return;
+    }
+    const fs::path out = dir.path / "report";
+    const auto older = reference_report(dir, kFanout, "report");
+    fs::permissions(out / ".peakplan", fs::perms::owner_read | fs::perms::owner_exec);
+    const auto r = run({"report", kDemo.string(), "--out", out.string()});
+    fs::permissions(out / ".peakplan", fs::perms::owner_all);
+    CHECK(r.status == 4);
+    CHECK(contains(r.err, ": error: cannot write: Permission denied"));
+    CHECK(shown(out) == older);
+  }
   SUBCASE("/proc") {
     const auto r = run({"report", kDemo.string(), "--out", "/proc/peakplan_report"});
     CHECK(r.status == 4);
@@ -296,6 +310,15 @@ TEST_CASE("outputs: report --out to a place that cannot take it exits 4 and leav
     CHECK(contains(r.err, ": error: cannot write: File too large"));
     CHECK(shown(out) == older);
     CHECK(store_entries(out) == kFinishedStore);  // the partial version was removed
+  }
+  SUBCASE("a file-size limit on a report into a new directory leaves no directory") {
+    const fs::path out = dir.path / "new" / "report";
+    const auto r = run({"report", kDemo.string(), "--out", out.string()}, "/dev/null", [] {
+      const rlimit limit{20000, 20000};
+      ::setrlimit(RLIMIT_FSIZE, &limit);
+    });
+    CHECK(r.status == 4);
+    CHECK_FALSE(fs::exists(out));
   }
 }
 

@@ -271,24 +271,17 @@ std::optional<WriteFailure> write_file_atomically(const fs::path& path, std::str
   return std::nullopt;
 }
 
-std::optional<WriteFailure> write_report_directory(const fs::path& dir, const std::vector<OutputFile>& files) {
+namespace {
+
+// write_report_directory on an existing directory.
+std::optional<WriteFailure> replace_report(const fs::path& dir, const std::vector<OutputFile>& files) {
   struct stat st {};
-  if (::stat(dir.c_str(), &st) == 0) {
-    if (!S_ISDIR(st.st_mode)) return failure(dir, ENOTDIR);
-  } else {
-    std::error_code ec;
-    fs::create_directories(dir, ec);
-    if (ec) return failure_at(dir, ec.value());
-  }
+  for (const auto& file : files)
+    if (::lstat((dir / file.name).c_str(), &st) == 0 && S_ISDIR(st.st_mode)) return failure(dir / file.name, EISDIR);
   Store store(dir);
   if (auto f = store.open()) return f;
   const fs::path& store_path = store.path();
-
-  // Leftovers of peakplan 0.1's per-file writes, and directories in the way.
-  for (const auto& file : files) {
-    ::unlink((dir / (file.name + std::string(kLegacyTemporary))).c_str());
-    if (::lstat((dir / file.name).c_str(), &st) == 0 && S_ISDIR(st.st_mode)) return failure(dir / file.name, EISDIR);
-  }
+  for (const auto& file : files) ::unlink((dir / (file.name + std::string(kLegacyTemporary))).c_str());
 
   // Report names DIR shows other than through our links: a report of an older peakplan, or
   // the user's own file under a report name. They join a version of what DIR shows now, so
@@ -375,6 +368,22 @@ std::optional<WriteFailure> write_report_directory(const fs::path& dir, const st
   for (const auto& old : retire) remove_tree(store_path / old);
   sync_directory(dir);
   return std::nullopt;
+}
+
+}  // namespace
+
+std::optional<WriteFailure> write_report_directory(const fs::path& dir, const std::vector<OutputFile>& files) {
+  struct stat st {};
+  if (::stat(dir.c_str(), &st) == 0) {
+    if (!S_ISDIR(st.st_mode)) return failure(dir, ENOTDIR);
+    return replace_report(dir, files);
+  }
+  std::error_code ec;
+  fs::create_directories(dir, ec);
+  if (ec) return failure_at(dir, ec.value());
+  auto failed = replace_report(dir, files);
+  if (failed) remove_tree(dir);  // created by this run and holding nothing but its own files
+  return failed;
 }
 
 }  // namespace peakplan::cli
