@@ -518,11 +518,17 @@ void read_stage(Reader& reader, const toml::table& t, size_t index, ChainSpec& s
       reader.check_keys(*range, {"min", "max"}, who + "count: ");
       if (!lo || !hi || *lo < 1 || *hi < *lo)
         reader.error(*n, who + "count: a range needs integers 1 <= min <= max, e.g. { min = 3, max = 7 }");
+      else if (*hi > kMaxCount)
+        reader.error(*range->get("max"), who + "count: max " + std::to_string(*hi) + " is over the limit of " +
+                                             std::to_string(kMaxCount) + " copies of one stage");
       else {
         stage.count.mode = Adjustable::Mode::range;
         stage.count.min = static_cast<double>(*lo);
         stage.count.max = static_cast<double>(*hi);
       }
+    } else if (const auto large = n->as_integer(); large && large->get() > kMaxCount) {
+      reader.error(*n, who + "count " + std::to_string(large->get()) + " is over the limit of " +
+                           std::to_string(kMaxCount) + " copies of one stage");
     } else if (const auto v = n->as_integer(); v && v->get() >= 1) {
       stage.count.value = static_cast<double>(v->get());
     } else {
@@ -536,6 +542,23 @@ void read_stage(Reader& reader, const toml::table& t, size_t index, ChainSpec& s
       reader.error(*n, who + "tap: expected true or false, saw " + shown(*n));
   }
   spec.stages.push_back(std::move(stage));
+}
+
+// The copies of the whole chain (kMaxStageCopies), reported at the stage that passes the limit.
+void check_stage_copies(Reader& reader, const ChainSpec& spec) {
+  int64_t copies = 0;
+  for (const auto& s : spec.stages) {
+    copies += static_cast<int64_t>(s.count.mode == Adjustable::Mode::range ? s.count.max
+                                   : s.count.is_fixed()                     ? s.count.value
+                                                                            : 1.0);
+    if (copies > kMaxStageCopies) {
+      reader.error(s.count.where.line > 0 ? s.count.where : s.where,
+                   "stage '" + s.id + "': the chain reaches " + std::to_string(copies) +
+                       " stage copies here, over the limit of " + std::to_string(kMaxStageCopies) +
+                       " (counted: every fixed count, every range's max)");
+      return;
+    }
+  }
 }
 
 std::optional<ChainSpec> read_document(const toml::table& root, Diagnostics& diagnostics) {
@@ -565,8 +588,13 @@ std::optional<ChainSpec> read_document(const toml::table& root, Diagnostics& dia
     reader.error(SourcePosition{}, "no [[stage]] tables: a chain needs at least one stage");
   } else if (!array || !array->is_array_of_tables()) {
     reader.error(*stages, "'stage' must be an array of tables, written [[stage]]");
+  } else if (array->size() > kMaxStageTables) {
+    reader.error(*array->get(kMaxStageTables), "[[stage]] table " + std::to_string(kMaxStageTables + 1) +
+                                                   " is over the limit of " + std::to_string(kMaxStageTables) +
+                                                   " stages in a chain file");
   } else {
     for (size_t i = 0; i < array->size(); ++i) read_stage(reader, *array->get(i)->as_table(), i, spec);
+    check_stage_copies(reader, spec);
   }
   if (spec.name.empty()) spec.name = std::filesystem::path(spec.file).stem().string();
   if (!diagnostics.empty()) return std::nullopt;
@@ -594,6 +622,7 @@ std::optional<ChainSpec> parse_chain_spec(std::string_view text, Diagnostics& di
 
 std::optional<ChainSpec> parse_chain_spec(std::string_view text, const std::vector<Override>& overrides,
                                           Diagnostics& diagnostics) {
+  if (!check_nesting(text, diagnostics)) return std::nullopt;  // TOML++ recurses per level
   try {
     toml::table root = toml::parse(text, diagnostics.file());
     apply_overrides(root, overrides, diagnostics);

@@ -3,6 +3,7 @@
 // collected into Diagnostics; the spec is only usable when there are none.
 #pragma once
 
+#include <cstdint>
 #include <map>
 #include <optional>
 #include <string>
@@ -86,6 +87,13 @@ struct ChainSpec {
   std::vector<StageSpec> stages;
   std::optional<VariationSpec> variation;  // [variation], planner/variation_file.hpp
 };
+
+// Bounds on the work a chain file may ask for (each an error at the place it is passed): the
+// number of [[stage]] tables, the copies one `count` makes (a fixed count or a range's max),
+// and the copies of the whole chain (every fixed count, every range's max, "auto" as 1).
+inline constexpr size_t kMaxStageTables = 256;
+inline constexpr int64_t kMaxCount = 64;
+inline constexpr int64_t kMaxStageCopies = 256;
 
 // Parses and validates one chain file. `display_name` is the name errors carry (the path as
 // the user gave it). Returns nullopt when there were errors; they are in `diagnostics`.

@@ -33,7 +33,8 @@ class Diagnostics {
  public:
   static constexpr size_t limit = 20;  // more than this and the rest are counted, not kept
 
-  explicit Diagnostics(std::string file) : file_(std::move(file)) {}
+  // A file of "-" is standard input (planner/chain_input.hpp) and is named "<stdin>".
+  explicit Diagnostics(std::string file) : file_(file == "-" ? std::string("<stdin>") : std::move(file)) {}
   void error(SourcePosition where, std::string message);
   bool empty() const { return list_.empty() && dropped_ == 0; }
   const std::vector<Diagnostic>& list() const { return list_; }

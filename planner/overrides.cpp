@@ -2,9 +2,7 @@
 
 #include <algorithm>
 #include <fmt/format.h>
-#include <fstream>
 #include <memory>
-#include <sstream>
 
 #include "planner/toml_text.hpp"
 
@@ -25,6 +23,7 @@ toml::source_region command_line_region(const std::string& origin) {
 // The value as a one-key document parsed under the option's source path; nullopt when it is
 // not exactly one TOML value.
 std::optional<toml::table> parse_value_document(const std::string& value_text, const std::string& origin) {
+  if (too_deep_at(value_text)) return std::nullopt;  // then a string, like any text that is not TOML
   try {
     toml::table doc = toml::parse("v = " + value_text + "\n", command_line_path(origin));
     if (doc.size() != 1 || !doc.get("v")) return std::nullopt;
@@ -159,17 +158,6 @@ void apply_overrides(toml::table& root, const std::vector<Override>& overrides, 
     // Not a table in the file: the reader reports that, at the file's line.
     if (auto* table = root.get_as<toml::table>(o.target)) set_value(*table, o);
   }
-}
-
-std::optional<std::string> read_chain_text(const std::string& path, Diagnostics& diagnostics) {
-  std::ifstream in(path, std::ios::binary);
-  if (!in) {
-    diagnostics.error({}, "cannot open the chain file");
-    return std::nullopt;
-  }
-  std::ostringstream text;
-  text << in.rdbuf();
-  return text.str();
 }
 
 std::optional<ChainSpec> load_chain_spec(const std::string& path, const std::vector<Override>& overrides,

@@ -21,6 +21,7 @@
 #include <vector>
 
 #include "planner/chain_file.hpp"
+#include "planner/chain_input.hpp"  // read_chain_text
 #include "planner/diagnostics.hpp"
 
 namespace peakplan {
@@ -46,8 +47,6 @@ std::optional<std::vector<Override>> parse_overrides(const std::vector<std::stri
 // unknown ID is reported with the closest stage id or table name; the rest are still applied.
 void apply_overrides(toml::table& root, const std::vector<Override>& overrides, Diagnostics& diagnostics);
 
-// The file read whole; nullopt (reported) when it cannot be read.
-std::optional<std::string> read_chain_text(const std::string& path, Diagnostics& diagnostics);
 // load_chain_spec with overrides applied.
 std::optional<ChainSpec> load_chain_spec(const std::string& path, const std::vector<Override>& overrides,
                                          Diagnostics& diagnostics);

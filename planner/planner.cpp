@@ -78,6 +78,7 @@ class Search {
   // Scores u; `constraints` (optional) receives every constraint value (<= 0 when met).
   Score score(const Problem& p, size_t index, const std::vector<double>& u, Fidelity fidelity,
               std::vector<double>* constraints = nullptr) {
+    if (stopping()) throw PlanStopped{};
     const auto e = p.evaluate(u, fidelity);
     Score s{objective(spec_, e), 0.0};
     const auto g = violations(spec_, e);
@@ -147,6 +148,8 @@ class Search {
     try {
       local.optimize(x, value);
     } catch (const std::exception&) {
+      // NLopt turns a PlanStopped thrown in its callbacks into a failure of its own.
+      if (stopping()) throw PlanStopped{};
       // A roundoff-limited stop still leaves a usable point; the best one seen is kept below.
     }
     // COBYLA returns its last iterate; keep the best point it visited instead.
@@ -155,6 +158,7 @@ class Search {
   }
 
   int evaluations() const { return evaluations_; }
+  bool stopping() const { return options_.stop && options_.stop(); }
   double seconds() const { return std::chrono::duration<double>(std::chrono::steady_clock::now() - start_).count(); }
   void set_stage(std::string stage) { stage_ = std::move(stage); }
   void report() const {

@@ -43,7 +43,14 @@ struct PlanOptions {
   // Called every `progress_every` evaluations and once at the end; may be empty.
   std::function<void(const PlanProgress&)> progress;
   int progress_every = 250;
+  // Asked before every evaluation; when it returns true the plan stops at once by throwing
+  // PlanStopped (a SIGINT or SIGTERM from the user). May be empty.
+  std::function<bool()> stop;
 };
+
+// Thrown by plan_chain when PlanOptions::stop asked it to stop: not an error, so not derived
+// from std::exception (which the search's own error handling catches).
+struct PlanStopped {};
 
 // One target or limit of the plan, as checked on the final chain.
 struct PlanCheck {

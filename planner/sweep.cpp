@@ -126,6 +126,8 @@ std::optional<Axis> parse_vary(const std::string& text, Diagnostics& diagnostics
   const auto [end, ec] = std::from_chars(n.data(), n.data() + n.size(), axis.points);
   if (ec != std::errc{} || end != n.data() + n.size()) return fail("N must be a whole number of points, saw '" + n + "'");
   if (axis.points < 2) return fail("N must be at least 2, saw " + n);
+  if (axis.points > kMaxSweepPoints)
+    return fail("N " + n + " is over the limit of " + std::to_string(kMaxSweepPoints) + " points");
   if (axis.start.empty() || axis.stop.empty()) return fail("START and STOP must both be given");
   for (const auto* word : {"id", "kind", "feeds", "tap", "response", "name", "modulation", "pattern", "objective", "k_range"})
     if (axis.base.key == word) return fail("'" + axis.base.key + "' is not a number that can be swept");

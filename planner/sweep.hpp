@@ -1,6 +1,6 @@
 // peakplan sweep: the chain's main-output metrics against one value, stepped linearly.
 //
-//   --vary ID.KEY=START:STOP:N   N >= 2 points from START to STOP inclusive; START and STOP
+//   --vary ID.KEY=START:STOP:N   2 <= N <= kMaxSweepPoints points from START to STOP inclusive; START and STOP
 //                                as the chain file would write the key (80ohm, "0.2 nH", 5%)
 //                                or plain numbers in the key's plain unit (SI; dB for gains).
 //
@@ -20,6 +20,8 @@
 #include "planner/planner.hpp"
 
 namespace peakplan {
+
+inline constexpr int kMaxSweepPoints = 1000;  // a bound on the work one command asks for
 
 struct SweepRequest {
   std::string chain;              // the chain file

@@ -185,6 +185,22 @@ const std::vector<Fault>& faults() {
        {"[[variation.corner]] 1: missing name"}},
       {"variation_coupling_past_one.toml", "a coupling spread taking a T-coil's k past 1 is reported at the spread", 15, 12,
        {"[variation] coupling", "k = 0.9 +- 0.15", "stage 'a1'", "outside (-1, 1)"}},
+      {"count_over_limit.toml", "count = 3000000000 is over the limit of 64 copies", 7, 9,
+       {"stage 'g': count 3000000000 is over the limit of 64 copies of one stage"}},
+      {"count_range_over_limit.toml", "a count range's max over 64 is reported at max", 7, 26,
+       {"stage 'g': count: max 100 is over the limit of 64 copies of one stage"}},
+      {"stage_copies_over_limit.toml", "300 stage copies in all are reported at the count that passes 256", 31, 9,
+       {"stage 'g5': the chain reaches 300 stage copies here, over the limit of 256"}},
+      {"stage_tables_over_limit.toml", "the 257th [[stage]] table is reported at its header", 1282, 1,
+       {"[[stage]] table 257 is over the limit of 256 stages"}},
+      {"dotted_key_too_deep.toml", "a 40-part dotted key is reported where it passes 32 levels", 2, 66,
+       {"nested deeper than the limit of 32 levels"}},
+      {"arrays_too_deep.toml", "arrays nested 40 deep are reported where they pass 32 levels", 3, 43,
+       {"nested deeper than the limit of 32 levels"}},
+      {"nul_byte.toml", "a NUL byte makes a binary file, reported at the byte", 3, 8, {"a NUL byte", "binary file"}},
+      {"not_utf8.toml", "a byte that is not UTF-8 is reported at the byte", 3, 12, {"byte 0xFF is not UTF-8 text"}},
+      {"not_a_number_count.toml", "count = inf is not a whole number of copies", 7, 9,
+       {"stage 'g': count must be a whole number of copies >= 1", "saw inf"}},
   };
   return table;
 }

@@ -271,9 +271,19 @@ TEST_CASE("report: an existing directory gets whole files; other files stay as t
   REQUIRE(fresh.status == 0);
   CHECK(read_file(out / "budget.md") == read_file(dir.path / "fresh" / "budget.md"));
   CHECK(read_file(out / "notes.txt") == "the designer's own notes\n");
-  auto expected = files_below(dir.path / "fresh");
+  // A report keeps its versions in DIR/.peakplan and shows them through links
+  // (planner/commands/output_files.hpp): what a reader sees is every name outside it.
+  const auto visible = [](std::map<std::string, std::string> files) {
+    std::erase_if(files, [](const auto& file) { return file.first.starts_with(".peakplan/"); });
+    return files;
+  };
+  auto expected = visible(files_below(dir.path / "fresh"));
   expected["notes.txt"] = "the designer's own notes\n";
-  const auto actual = files_below(out);
+  const auto actual = visible(files_below(out));
+  std::multiset<std::string> store;
+  for (const auto& e : fs::directory_iterator(out / ".peakplan"))
+    store.insert(e.path().filename().string().starts_with("r-") ? "r-" : e.path().filename().string());
+  CHECK(store == std::multiset<std::string>{"current", "lock", "r-"});  // one version, nothing temporary
   std::vector<std::string> names, expected_names;
   for (const auto& [name, _] : actual) names.push_back(name);
   for (const auto& [name, _] : expected) expected_names.push_back(name);

@@ -1,5 +1,6 @@
-// What every peakplan subcommand shares: exit codes, whole-file output, and the way a command
-// registers itself with the CLI11 application.
+// What every peakplan subcommand shares: exit codes, stopping on SIGINT/SIGTERM, the help
+// footer, and the way a command registers itself with the CLI11 application. Files are
+// written through planner/commands/output_files.hpp.
 #pragma once
 
 #include <CLI/CLI.hpp>
@@ -11,7 +12,35 @@
 
 namespace peakplan::cli {
 
-enum Exit : int { ok = 0, target_not_met = 1, bad_input = 2, internal_error = 3 };
+// Exit statuses (README and every --help list them). 3 is a bug in peakplan; 4 is the user's
+// environment (a directory missing, read-only or full; something in the way); 130 and 143 are
+// the shell's convention for a process stopped by SIGINT and SIGTERM (128 + the signal).
+enum Exit : int {
+  ok = 0,
+  target_not_met = 1,
+  bad_input = 2,
+  internal_error = 3,
+  cannot_write = 4,
+  interrupted = 130,
+  terminated = 143
+};
+
+// The help footer of every subcommand: each exit status, where the chain format is described,
+// and `example`, one command line.
+std::string help_footer(const std::string& example);
+
+// SIGINT and SIGTERM set a flag that plans poll (PlanOptions::stop) and commands check before
+// they write; should the process not have stopped half a second later (a long analysis polls
+// no flag), it exits there and then (a report being swapped in is then old or new all the
+// same, planner/commands/output_files.hpp). A second signal ends it at once. SIGXFSZ is ignored, so a file-size limit is a write error
+// (EFBIG) reported with exit 4, not a silent death. Call once, before any work.
+void install_signal_handlers();
+// Plan options that stop on those signals and show no progress.
+PlanOptions stopping_plan_options();
+// The signal received (SIGINT or SIGTERM), or 0.
+int stop_signal();
+// The exit status for the signal received (130, 143), with a note on stderr.
+int exit_for_stop();
 
 // A registered subcommand and what runs when it is chosen; the runner returns the exit status.
 struct Command {
@@ -20,11 +49,8 @@ struct Command {
 };
 
 // Everything goes to stdout in one write, after the whole text is built, so a failure never
-// leaves half an output.
+// leaves half an output. Nothing is printed once a stop signal has arrived.
 void print(const std::string& text);
-
-// Writes `text` to `path` whole or not at all: a temporary file beside it, then a rename.
-bool write_whole_file(const std::string& path, const std::string& text, std::string& error);
 
 // A one-line progress display of a running plan on stderr, shown only when stderr is a terminal
 // and only once the plan has run for a second; the line is cleared when the display goes.
@@ -34,7 +60,7 @@ class PlanProgressLine {
   ~PlanProgressLine();
   PlanProgressLine(const PlanProgressLine&) = delete;
   PlanProgressLine& operator=(const PlanProgressLine&) = delete;
-  PlanOptions options() const;  // default plan options reporting to this line
+  PlanOptions options() const;  // default plan options reporting to this line, stopping on a signal
 
  private:
   bool terminal_ = false;

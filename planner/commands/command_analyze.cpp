@@ -66,7 +66,7 @@ int run_analyze(const AnalyzeArgs& args) {
 Command add_analyze_command(CLI::App& app) {
   auto args = std::make_shared<AnalyzeArgs>();
   auto* cmd = app.add_subcommand("analyze", "response, metrics and per-stage figures of a chain as written");
-  cmd->add_option("chain", args->chain, "chain file (TOML)")->required();
+  cmd->add_option("chain", args->chain, "chain file (TOML), or - for standard input")->required();
   cmd->add_flag("--json", args->json, "print one JSON document on stdout");
   cmd->add_option("--points", args->points, "frequency points of the reported response")
       ->check(CLI::Range(2, 100000));
@@ -76,6 +76,7 @@ Command add_analyze_command(CLI::App& app) {
                   "Monte Carlo samples of [variation] (overrides the file; threads: PEAKPLAN_THREADS, default every core)")
       ->check(CLI::Range(1, 1000000));
   cmd->add_option("--seed", args->seed, "Monte Carlo seed of [variation] (overrides the file)");
+  cmd->footer(help_footer("peakplan analyze chains/demo_postamp.toml --json"));
   return {cmd, [args] { return run_analyze(*args); }};
 }
 

@@ -30,7 +30,7 @@ std::optional<Loaded> load_side(const std::string& path, Diagnostics& diagnostic
   if (!spec) return std::nullopt;
   Loaded side{*spec, {}, std::nullopt, {}};
   if (std::any_of(spec->stages.begin(), spec->stages.end(), has_open_values)) {
-    auto plan = plan_chain(*spec, diagnostics);
+    auto plan = plan_chain(*spec, diagnostics, stopping_plan_options());
     if (!plan) return std::nullopt;
     side.planned = plan->termination;
     side.chain = std::move(plan->chain);
@@ -65,6 +65,7 @@ Command add_compare_command(CLI::App& app) {
   cmd->add_option("a", args->a, "chain file A (TOML); planned first if it leaves values open")->required();
   cmd->add_option("b", args->b, "chain file B (TOML); planned first if it leaves values open")->required();
   cmd->add_flag("--json", args->json, "print one JSON document on stdout");
+  cmd->footer(help_footer("peakplan compare chains/demo_postamp.toml chains/tcoil_single_zeta.toml"));
   return {cmd, [args] { return run_compare(*args); }};
 }
 

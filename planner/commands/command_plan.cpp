@@ -4,6 +4,7 @@
 #include <memory>
 
 #include "planner/commands/command.hpp"
+#include "planner/commands/output_files.hpp"
 #include "planner/chain_graph.hpp"
 #include "planner/planner.hpp"
 #include "planner/what_if.hpp"
@@ -27,13 +28,14 @@ int run_plan(const PlanArgs& args) {
     std::cerr << args.write << ": error: --write would overwrite the chain file itself; choose another path\n";
     return bad_input;
   }
-  const auto what_if = load_what_if(args.chain, args.what_if, diagnostics);
-  const auto* spec = what_if ? &what_if->spec : nullptr;
+  std::optional<WhatIfSpec> what_if;
   std::optional<Plan> plan;
-  if (spec) {
-    const PlanProgressLine progress;
-    plan = plan_chain(*spec, diagnostics, progress.options());
+  {
+    const PlanProgressLine progress;  // cleared before anything is printed
+    what_if = load_what_if(args.chain, args.what_if, diagnostics, progress.options());
+    if (what_if) plan = plan_chain(what_if->spec, diagnostics, progress.options());
   }
+  const auto* spec = what_if ? &what_if->spec : nullptr;
   if (!plan) {
     std::cerr << diagnostics.format();
     return bad_input;
@@ -59,11 +61,11 @@ int run_plan(const PlanArgs& args) {
   } else {
     text = plan_text(*spec, *plan, analysis) + (variation ? variation_text(*variation) : std::string());
   }
+  if (stop_signal() != 0) return exit_for_stop();
   if (!args.write.empty()) {
-    std::string error;
-    if (!write_whole_file(args.write, planned_chain_toml(*spec, *plan), error)) {
-      std::cerr << "peakplan: error: " << error << "\n";
-      return internal_error;
+    if (const auto failed = write_file_atomically(args.write, planned_chain_toml(*spec, *plan))) {
+      std::cerr << failed->format();
+      return cannot_write;
     }
   }
   print(text);
@@ -76,14 +78,16 @@ int run_plan(const PlanArgs& args) {
 Command add_plan_command(CLI::App& app) {
   auto args = std::make_shared<PlanArgs>();
   auto* cmd = app.add_subcommand("plan", "choose the \"auto\" values to meet [target] within [limits]");
-  cmd->add_option("chain", args->chain, "chain file (TOML)")->required();
+  cmd->add_option("chain", args->chain, "chain file (TOML), or - for standard input")->required();
   cmd->add_flag("--json", args->json, "print one JSON document on stdout");
-  cmd->add_option("--write", args->write, "write the planned chain as a complete chain file");
+  cmd->add_option("--write", args->write,
+                  "write the planned chain as a complete chain file (whole: a temporary file, then a rename)");
   cmd->add_option("--set", args->what_if.sets, "override ID.KEY=VALUE without editing the file (repeatable)")
       ->allow_extra_args(false);
   cmd->add_option("--lock", args->what_if.locks, "fix these stages at their current values (ID,...)")
       ->delimiter(',')
       ->allow_extra_args(false);
+  cmd->footer(help_footer("peakplan plan chains/plan_post_tia.toml --write planned.toml"));
   return {cmd, [args] { return run_plan(*args); }};
 }
 

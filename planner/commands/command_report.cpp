@@ -1,13 +1,16 @@
 // peakplan report CHAIN.toml --out DIR [--plan]
 //
-// Everything is built in memory first; only then is DIR created (when missing) and each file
-// written whole (a temporary name in DIR, then a rename). Bad input writes nothing and leaves
-// DIR as it was; files in DIR that are not part of the report are never touched.
+// Everything is built in memory first; only then is DIR created (when missing) and the report
+// set replaced as one whole (planner/commands/output_files.hpp: the set is written into a new
+// version beside the old one and swapped in with one rename, so DIR shows the complete old set
+// or the complete new one, whatever happens to the process). Bad input writes nothing and
+// leaves DIR as it was; files in DIR that are not part of the report are never touched.
 #include <filesystem>
 #include <iostream>
 #include <memory>
 
 #include "planner/commands/command.hpp"
+#include "planner/commands/output_files.hpp"
 #include "planner/chain_graph.hpp"
 #include "planner/overrides.hpp"
 #include "planner/planner.hpp"
@@ -68,7 +71,7 @@ int run_report(const ReportArgs& args) {
   if (plan)
     plan_context = ReportPlan{&*plan, before_chain ? &*before_chain : nullptr,
                               before_analysis ? &*before_analysis : nullptr};
-  const auto files = build_report({&*spec, args.chain, *text}, *chain, analysis, plan_context);
+  const auto files = build_report({&*spec, diagnostics.file(), *text}, *chain, analysis, plan_context);
 
   const fs::path dir(args.out);
   for (const auto& f : files) {
@@ -78,22 +81,15 @@ int run_report(const ReportArgs& args) {
       return bad_input;
     }
   }
-  std::error_code ec;
-  fs::create_directories(dir, ec);
-  if (ec || !fs::is_directory(dir)) {
-    std::cerr << args.out << ": error: cannot create the report directory" << (ec ? ": " + ec.message() : "")
-              << "\n";
-    return internal_error;
+  if (stop_signal() != 0) return exit_for_stop();
+  std::vector<OutputFile> outputs;
+  for (const auto& f : files) outputs.push_back({f.name, f.contents});
+  if (const auto failed = write_report_directory(dir, outputs)) {
+    std::cerr << failed->format();
+    return cannot_write;
   }
   std::string summary = "report of '" + chain->name + "' in " + dir.string() + "/:";
-  for (const auto& f : files) {
-    std::string error;
-    if (!write_whole_file((dir / f.name).string(), f.contents, error)) {
-      std::cerr << "peakplan: error: " << error << "\n";
-      return internal_error;
-    }
-    summary += " " + f.name;
-  }
+  for (const auto& f : files) summary += " " + f.name;
   summary += "\n";
   if (plan) summary += plan->brief() + "\n";
   print(summary);
@@ -105,9 +101,10 @@ int run_report(const ReportArgs& args) {
 Command add_report_command(CLI::App& app) {
   auto args = std::make_shared<ReportArgs>();
   auto* cmd = app.add_subcommand("report", "budget tables, plots, HTML page, JSON and netlist in a directory");
-  cmd->add_option("chain", args->chain, "chain file (TOML)")->required();
+  cmd->add_option("chain", args->chain, "chain file (TOML), or - for standard input")->required();
   cmd->add_option("--out", args->out, "directory to write the report into (created if missing)")->required();
   cmd->add_flag("--plan", args->plan, "plan the chain first and report the planned chain, before and after");
+  cmd->footer(help_footer("peakplan report chains/demo_postamp.toml --out demo_report"));
   return {cmd, [args] { return run_report(*args); }};
 }
 

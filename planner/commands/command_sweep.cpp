@@ -35,11 +35,13 @@ int run_sweep_command(const SweepArgs& args) {
 Command add_sweep_command(CLI::App& app) {
   auto args = std::make_shared<SweepArgs>();
   auto* cmd = app.add_subcommand("sweep", "the main output's metrics against one value stepped linearly");
-  cmd->add_option("chain", args->request.chain, "chain file (TOML)")->required();
+  cmd->add_option("chain", args->request.chain, "chain file (TOML), or - for standard input")->required();
   cmd->add_option("--vary", args->request.vary, "ID.KEY=START:STOP:N, e.g. a1.rd=80ohm:160ohm:5")->required();
   cmd->add_flag("--replan", args->request.replan, "re-plan the open values at every point");
   cmd->add_option("--format", args->format, "text, csv or json")->check(CLI::IsMember({"text", "csv", "json"}));
   cmd->add_option("--set", args->request.sets, "override ID.KEY=VALUE (repeatable)")->allow_extra_args(false);
+  args->request.plan_options = stopping_plan_options();
+  cmd->footer(help_footer("peakplan sweep chains/demo_postamp.toml --vary a1.rd=80ohm:160ohm:5"));
   return {cmd, [args] { return run_sweep_command(*args); }};
 }
 

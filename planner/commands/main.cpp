@@ -11,6 +11,7 @@ int main(int argc, char** argv) {
   CLI::App app{"peakplan: plan the gain, bandwidth and peaking of a broadband amplifier chain"};
   app.set_version_flag("--version", std::string("peakplan ") + PEAKPLAN_VERSION);
   app.require_subcommand(1);
+  app.footer(help_footer("peakplan analyze chains/demo_postamp.toml"));
 
   const std::vector<Command> commands{
       add_analyze_command(app),
@@ -21,6 +22,7 @@ int main(int argc, char** argv) {
       add_report_command(app),
   };
 
+  install_signal_handlers();
   try {
     app.parse(argc, argv);
   } catch (const CLI::ParseError& e) {
@@ -29,9 +31,17 @@ int main(int argc, char** argv) {
   }
   try {
     for (const auto& command : commands)
-      if (*command.app) return command.run();
+      if (*command.app) {
+        const int status = command.run();
+        return stop_signal() != 0 ? exit_for_stop() : status;
+      }
+  } catch (const peakplan::PlanStopped&) {
+    return exit_for_stop();
   } catch (const std::exception& e) {
-    std::cerr << "peakplan: internal error: " << e.what() << "\n";
+    if (stop_signal() != 0) return exit_for_stop();
+    std::cerr << "peakplan: internal error: " << e.what() << "\n"
+              << "peakplan: this is a bug in peakplan, not a fault in your input; please report it with the "
+                 "command line and the chain file\n";
     return internal_error;
   }
   return internal_error;
