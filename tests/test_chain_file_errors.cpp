@@ -134,6 +134,19 @@ const std::vector<Fault>& faults() {
        {"[signal] modulation: unknown value \"nrzz\""}, 3},
       {"too_many_errors.toml", "23 faults are cut at 20 reported in full", 7, 1,
        {"stage 'a1': unknown key 'x01'"}, peakplan::Diagnostics::limit},
+      {"limiting_tail_current_zero.toml", "a zero tail current is rejected at its value", 7, 16,
+       {"stage 'la1': tail_current must be positive", "saw \"0 mA\""}},
+      {"limiting_tail_current_negative.toml", "a negative tail current is rejected at its value", 7, 16,
+       {"stage 'la1': tail_current must be positive", "saw \"-4 mA\""}},
+      {"limiting_tail_current_not_current.toml", "a tail current in volts names the expected current", 7, 16,
+       {"stage 'la1': tail_current", "expected a current"}},
+      {"limiting_pair_misspelt.toml", "pair \"bipolr\" suggests bipolar", 8, 8,
+       {"stage 'la1': pair: unknown value \"bipolr\"", "did you mean \"bipolar\"?"}},
+      {"limiting_pair_without_tail.toml", "a pair without tail_current asks for it", 7, 8,
+       {"stage 'la1': pair needs tail_current"}},
+      {"limiting_mos_gm_beyond_tail.toml", "a MOS pair cannot give more gm than I_T/(2 V_T)", 8, 16,
+       {"stage 'la1': tail_current 1.000 mA cannot give gm = 40.00 mS", "at most I_T/(2 V_T) = 19.34 mS",
+        "expected at least 2.068 mA"}},
   };
   return table;
 }
