@@ -108,48 +108,8 @@ double LargeSignalPath::compression_swing(size_t j) const {
 
 namespace {
 
-struct EyeAtStep {
-  PrbsEye eye;
-  double height_v = 0.0;
-  std::vector<double> eye_heights_v;
-};
-
 // Half-circuit input for a symbol level a in [0, 1]: the differential input is swing*(a - 1/2).
 double half_input(const Signal& signal, double a) { return 0.5 * signal.swing * (a - 0.5); }
-
-EyeAtStep eye_at_step(const Chain& chain, int output, const Signal& signal, const LargeSignalPath& path,
-                      const std::vector<double>& levels_half, int steps) {
-  const int eyes = signal.eye_count();
-  const PulseResponse pulse = pulse_response(output_cascade(chain, output), signal, steps);
-  const PeakDistortion pda = peak_distortion(pulse, signal.modulation);
-  // Settled half-circuit levels -> 0, 1/eyes, ..., 1, piecewise linearly (sign included).
-  auto normalise = [&](double y) {
-    const bool rising = levels_half.back() > levels_half.front();
-    int e = 0;
-    while (e + 1 < eyes && (rising ? y > levels_half[static_cast<size_t>(e + 1)] : y < levels_half[static_cast<size_t>(e + 1)])) ++e;
-    const double l0 = levels_half[static_cast<size_t>(e)], l1 = levels_half[static_cast<size_t>(e + 1)];
-    return (e + (y - l0) / (l1 - l0)) / eyes;
-  };
-  auto simulate = [&](const std::vector<double>& symbols, long warm) {
-    std::vector<double> input(symbols.size());
-    for (size_t s = 0; s < symbols.size(); ++s) input[s] = half_input(signal, symbols[s]);
-    auto y = path.run(input, steps);
-    y.erase(y.begin(), y.begin() + warm * steps);
-    for (auto& v : y) v = normalise(v);
-    return y;
-  };
-  const EyeOverlay built(pda, PatternOverlay(steps, pulse.ui_count, signal, pda, simulate));
-  EyeAtStep r;
-  r.eye = prbs_eye(pulse, signal, built);
-  const long common = std::lround(r.eye.eye.best_offset_s / pulse.dt());
-  r.height_v = std::numeric_limits<double>::infinity();
-  for (int e = 0; e < eyes; ++e) {
-    const double spacing = 2.0 * std::fabs(levels_half[static_cast<size_t>(e + 1)] - levels_half[static_cast<size_t>(e)]);
-    r.height_v = std::min(r.height_v, built.envelope.height(e, common) * spacing);
-    r.eye_heights_v.push_back(r.eye.eyes[static_cast<size_t>(e)].height * spacing);
-  }
-  return r;
-}
 
 // 50 % crossing of a full-swing rising input edge, after the edge, held long either side.
 double edge_delay(const LargeSignalPath& path, const Signal& signal, long hold, int steps) {
@@ -171,7 +131,8 @@ double edge_delay(const LargeSignalPath& path, const Signal& signal, long hold, 
 
 }  // namespace
 
-LargeSignalEye large_signal_eye(const Chain& chain, int output, const Signal& signal, const LargeSignalOptions& options) {
+LargeSignalEye large_signal_eye_at(const Chain& chain, int output, const Signal& signal, int steps,
+                                   const HalfCircuitRun& run) {
   if (!(signal.swing > 0.0) || !std::isfinite(signal.swing))
     throw std::invalid_argument("large_signal_eye: the swing must be positive");
   const LargeSignalPath path(chain, output, signal);
@@ -179,41 +140,80 @@ LargeSignalEye large_signal_eye(const Chain& chain, int output, const Signal& si
   LargeSignalEye r;
   r.modulation = signal.modulation;
   r.input_swing_v = signal.swing;
+  r.steps_per_ui = steps;
+  r.step_s = signal.ui() / steps;
 
-  std::vector<double> levels_half;
-  for (int l = 0; l <= eyes; ++l) levels_half.push_back(path.dc_output(half_input(signal, static_cast<double>(l) / eyes)));
-  for (double l : levels_half) r.levels_v.push_back(2.0 * l);
+  std::vector<double> levels;  // settled, half circuit
+  for (int l = 0; l <= eyes; ++l) levels.push_back(path.dc_output(half_input(signal, static_cast<double>(l) / eyes)));
+  for (double l : levels) r.levels_v.push_back(2.0 * l);
   if (eyes == 3) {
-    const double middle = std::fabs(levels_half[2] - levels_half[1]);
-    const double outer = 0.5 * (std::fabs(levels_half[1] - levels_half[0]) + std::fabs(levels_half[3] - levels_half[2]));
+    const double middle = std::fabs(levels[2] - levels[1]);
+    const double outer = 0.5 * (std::fabs(levels[1] - levels[0]) + std::fabs(levels[3] - levels[2]));
     r.level_compression = outer / middle;
   }
-  const double ideal_v = 2.0 * std::fabs(levels_half.back() - levels_half.front()) / eyes;
+
+  const PulseResponse pulse = pulse_response(output_cascade(chain, output), signal, steps);
+  const PeakDistortion pda = peak_distortion(pulse, signal.modulation);
+  // Settled levels -> 0, 1/eyes, ..., 1, piecewise linearly (an inverting chain included).
+  const bool rising = levels.back() > levels.front();
+  auto normalise = [&](double y) {
+    int e = 0;
+    while (e + 1 < eyes && (rising ? y > levels[static_cast<size_t>(e + 1)] : y < levels[static_cast<size_t>(e + 1)])) ++e;
+    const double l0 = levels[static_cast<size_t>(e)], l1 = levels[static_cast<size_t>(e + 1)];
+    return (e + (y - l0) / (l1 - l0)) / eyes;
+  };
+  auto simulate = [&](const std::vector<double>& symbols, long warm) {
+    std::vector<double> input(symbols.size());
+    for (size_t s = 0; s < symbols.size(); ++s) input[s] = half_input(signal, symbols[s]);
+    auto y = run(input, steps);
+    if (y.size() != input.size() * static_cast<size_t>(steps))
+      throw std::logic_error("large_signal_eye_at: the run returned the wrong number of samples");
+    y.erase(y.begin(), y.begin() + warm * steps);
+    for (auto& v : y) v = normalise(v);
+    return y;
+  };
+  const EyeOverlay built(pda, PatternOverlay(steps, pulse.ui_count, signal, pda, simulate));
+  r.eye = prbs_eye(pulse, signal, built);
+  const long common = std::lround(r.eye.eye.best_offset_s / pulse.dt());
+  r.height_v = std::numeric_limits<double>::infinity();
+  for (int e = 0; e < eyes; ++e) {
+    const double spacing = 2.0 * std::fabs(levels[static_cast<size_t>(e + 1)] - levels[static_cast<size_t>(e)]);
+    r.height_v = std::min(r.height_v, built.envelope.height(e, common) * spacing);
+    r.eye_heights_v.push_back(r.eye.eyes[static_cast<size_t>(e)].height * spacing);
+  }
+  r.width_ui = r.eye.eye.width_ui;
+  r.ddj_pp_s = r.eye.ddj_pp_s;
+  return r;
+}
+
+LargeSignalEye large_signal_eye(const Chain& chain, int output, const Signal& signal, const LargeSignalOptions& options) {
+  const LargeSignalPath path(chain, output, signal);
+  const HalfCircuitRun run = [&](const std::vector<double>& input, int steps) { return path.run(input, steps); };
+  auto at = [&](int steps) { return large_signal_eye_at(chain, output, signal, steps, run); };
+  const double ideal_v =
+      2.0 * std::fabs(path.dc_output(half_input(signal, 1.0)) - path.dc_output(half_input(signal, 0.0))) / signal.eye_count();
 
   // The step: halve until the eye height moves by less than the tolerance. The two runs of
-  // each comparison are independent, so the first pair runs on two threads; each run is
-  // sequential, so the result does not depend on the thread count.
-  auto at = [&](int steps) { return eye_at_step(chain, output, signal, path, levels_half, steps); };
+  // the first comparison are independent and run on two threads; each run is sequential, so
+  // the result does not depend on the thread count.
   int steps = options.min_steps_per_ui;
   auto finer_future = std::async(std::launch::async, at, 2 * steps);
-  EyeAtStep coarse = at(steps);
-  EyeAtStep finer = finer_future.get();
+  LargeSignalEye coarse = at(steps);
+  LargeSignalEye finer = finer_future.get();
+  double change = 0.0;
+  bool converged = false;
   for (;;) {
     const double scale = std::max(std::fabs(finer.height_v), 0.05 * ideal_v);
-    r.step_change = std::fabs(coarse.height_v - finer.height_v) / scale;
-    r.converged = r.step_change < options.tolerance;
-    if (r.converged || 2 * steps >= options.max_steps_per_ui) break;
+    change = std::fabs(coarse.height_v - finer.height_v) / scale;
+    converged = change < options.tolerance;
+    if (converged || 2 * steps >= options.max_steps_per_ui) break;
     steps *= 2;
     coarse = std::move(finer);
     finer = at(2 * steps);
   }
-  r.steps_per_ui = steps;
-  r.step_s = signal.ui() / steps;
-  r.eye = std::move(coarse.eye);
-  r.height_v = coarse.height_v;
-  r.eye_heights_v = std::move(coarse.eye_heights_v);
-  r.width_ui = r.eye.eye.width_ui;
-  r.ddj_pp_s = r.eye.ddj_pp_s;
+  LargeSignalEye r = std::move(coarse);
+  r.step_change = change;
+  r.converged = converged;
 
   // Held long enough for the step response to settle: the linear pulse response's span.
   const long hold = pulse_response(output_cascade(chain, output), signal).ui_count + 2;

@@ -25,6 +25,7 @@
 // 0, 1/3, 2/3, 1 (PAM4) or 0, 1 (NRZ), piecewise linearly.
 #pragma once
 
+#include <functional>
 #include <limits>
 #include <vector>
 
@@ -106,6 +107,15 @@ struct LargeSignalEye {
   std::vector<StageCompression> compression;  // every limited stage on the path
   PrbsEye eye;                  // the measured eye in the normalised units described above
 };
+
+// The eye of one output at a fixed step from any simulation of its half circuit: `run` returns
+// the half-circuit output at t = k*UI/steps_per_ui for the half-circuit input held at input[s]
+// over symbol s, from rest (LargeSignalPath::run, or an outside simulator's transient of the
+// netlist). Fills the eye fields, levels_v, level_compression and steps_per_ui/step_s; not the
+// step search, the delays or the compression points.
+using HalfCircuitRun = std::function<std::vector<double>(const std::vector<double>& input, int steps_per_ui)>;
+LargeSignalEye large_signal_eye_at(const Chain& chain, int output, const Signal& signal, int steps_per_ui,
+                                   const HalfCircuitRun& run);
 
 // Throws std::invalid_argument for a non-positive swing and what pulse_response throws for.
 LargeSignalEye large_signal_eye(const Chain& chain, int output, const Signal& signal,
