@@ -112,7 +112,7 @@ ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) 
       cascade.append(rationals[static_cast<size_t>(s)]);
       exact.push_back(&systems[static_cast<size_t>(s)]);
     }
-    OutputSummary summary{out, summarise(cascade, exact, options), std::nullopt};
+    OutputSummary summary{out, summarise(cascade, exact, options), std::nullopt, std::nullopt};
     if (options.signal) {
       const Signal& signal = *options.signal;
       EyeSummary eye;
@@ -131,6 +131,8 @@ ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) 
       if (options.swing_given)
         eye.statistical = statistical_eye(eye.estimate.pulse, eye.estimate.prbs, signal, eye.noise.output_rms_v);
       summary.eye = std::move(eye);
+      if (options.large_signal && options.swing_given && chain.has_limited_stage())
+        summary.large_signal = large_signal_eye(chain, out, signal);
     }
     result.outputs.push_back(std::move(summary));
   }

@@ -9,6 +9,7 @@
 #include "models/chain.hpp"
 #include "models/eye.hpp"
 #include "models/eye_traces.hpp"
+#include "models/large_signal.hpp"
 #include "models/noise.hpp"
 #include "models/frequency_response.hpp"
 #include "models/step_response.hpp"
@@ -23,6 +24,8 @@ struct AnalysisOptions {
   // a bit-error estimate.
   std::optional<Signal> signal;
   bool swing_given = false;
+  // With a signal, a swing and a limited stage on the path: the large-signal eye per output.
+  bool large_signal = true;
   NoiseOptions noise;
 };
 
@@ -70,6 +73,7 @@ struct OutputSummary {
   int stage = 0;  // the stage whose output node this is
   ResponseSummary response;
   std::optional<EyeSummary> eye;
+  std::optional<LargeSignalEye> large_signal;  // DESIGN.md section 7
 };
 
 struct ChainAnalysis {

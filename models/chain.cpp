@@ -43,6 +43,12 @@ std::vector<int> Chain::path_to(int stage) const {
   return path;
 }
 
+bool Chain::has_limited_stage() const {
+  for (const auto& s : stages)
+    if (s.limit) return true;
+  return false;
+}
+
 void fill_node_capacitances(Chain& chain) {
   for (auto& s : chain.stages) s.circuit.c_node = s.c_load;
   for (const auto& s : chain.stages)

@@ -7,6 +7,7 @@
 #include <vector>
 
 #include "models/load_kinds.hpp"
+#include "models/pair_curve.hpp"
 #include "models/rational.hpp"
 
 namespace peakplan {
@@ -27,6 +28,8 @@ struct ChainStage {
   int driver = -1;       // index of the driving stage; -1 = the chain input
   bool tap = false;      // report this node even though it feeds other stages
   DesignIntent intent;
+  // The pair's output-current limit (DESIGN.md section 7); none = the stage stays linear.
+  std::optional<PairLimit> limit;
 };
 
 struct Chain {
@@ -40,6 +43,7 @@ struct Chain {
   std::vector<int> outputs() const;
   // Stage indices from the input stage to `stage`, inclusive.
   std::vector<int> path_to(int stage) const;
+  bool has_limited_stage() const;
 };
 
 // circuit.c_node = sum of c_in of every stage fed + c_load, for every stage.

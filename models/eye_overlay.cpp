@@ -1,11 +1,41 @@
 #include "models/eye_overlay.hpp"
 
 #include <limits>
+#include <stdexcept>
 
 namespace peakplan {
 
 PatternOverlay::PatternOverlay(const PulseResponse& pulse, const Signal& signal, const PeakDistortion& pda)
     : n_(pulse.steps_per_ui), m_(pda.main_index), ref_(pda.phase_index), span_(pulse.ui_count) {
+  lay_out(signal);
+  const long b1 = first_ + count_ + m_ + 2;
+  w_.assign(static_cast<size_t>((b1 - b0_) * n_), 0.0);
+  for (long b = b0_; b < b1; ++b) {
+    double* out = w_.data() + (b - b0_) * n_;
+    for (long j = 0; j < span_; ++j) {
+      const double a = symbol_[index(b - j)];
+      if (a == 0.0) continue;
+      const double* pj = pulse.p.data() + j * n_;
+      for (long k = 0; k < n_; ++k) out[k] += a * pj[k];
+    }
+  }
+}
+
+PatternOverlay::PatternOverlay(long steps_per_ui, long span, const Signal& signal, const PeakDistortion& pda,
+                               const Simulate& simulate)
+    : n_(steps_per_ui), m_(pda.main_index), ref_(pda.phase_index), span_(span) {
+  lay_out(signal);
+  const long b1 = first_ + count_ + m_ + 2;
+  const long warm = truncated_ ? b0_ : span_ + 2;
+  std::vector<double> levels;
+  levels.reserve(static_cast<size_t>(b1 - b0_ + warm));
+  for (long b = b0_ - warm; b < b1; ++b) levels.push_back(symbol_[index(b)]);
+  w_ = simulate(levels, warm);
+  if (w_.size() != static_cast<size_t>((b1 - b0_) * n_))
+    throw std::logic_error("PatternOverlay: the simulated waveform has the wrong length");
+}
+
+void PatternOverlay::lay_out(const Signal& signal) {
   const bool pam4 = signal.modulation == Modulation::pam4;
   eyes_ = pam4 ? 3 : 1;
   const std::uint64_t period = prbs_period(signal.pattern);
@@ -21,17 +51,6 @@ PatternOverlay::PatternOverlay(const PulseResponse& pulse, const Signal& signal,
   // Blocks of one UI; block b holds t in [b*UI, (b+1)*UI). Symbol k's pulse starts in block k,
   // its sampling instant is in block k + m, and its trace spans the block either side.
   b0_ = first_ + m_ - 1;
-  const long b1 = first_ + count_ + m_ + 2;
-  w_.assign(static_cast<size_t>((b1 - b0_) * n_), 0.0);
-  for (long b = b0_; b < b1; ++b) {
-    double* out = w_.data() + (b - b0_) * n_;
-    for (long j = 0; j < span_; ++j) {
-      const double a = symbol_[index(b - j)];
-      if (a == 0.0) continue;
-      const double* pj = pulse.p.data() + j * n_;
-      for (long k = 0; k < n_; ++k) out[k] += a * pj[k];
-    }
-  }
 }
 
 std::uint64_t PatternOverlay::settling_symbols() const {

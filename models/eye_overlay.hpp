@@ -17,6 +17,7 @@
 #include <cmath>
 #include <cstddef>
 #include <cstdint>
+#include <functional>
 #include <utility>
 #include <vector>
 
@@ -28,6 +29,17 @@ class PatternOverlay {
  public:
   // pda must be peak_distortion(pulse, signal.modulation): it fixes the sampling reference.
   PatternOverlay(const PulseResponse& pulse, const Signal& signal, const PeakDistortion& pda);
+  // The same layout over a waveform computed elsewhere (the large-signal simulation,
+  // models/large_signal.hpp), with `pda` of the linear pulse response as the sampling reference
+  // and `span` its length in UI. `simulate` receives the symbol levels of the blocks
+  // b0 - warm .. b1 - 1 in time order (one level per UI; wrapped for a periodic pattern, from
+  // the register's seed when truncated) and the number `warm` of leading blocks to discard, and
+  // returns the waveform (levels 0..1) over blocks b0 .. b1 - 1, steps_per_ui samples each.
+  // warm is span + 2 for a periodic pattern (the memory the pulse response spans), and every
+  // block ahead of b0 when truncated.
+  using Simulate = std::function<std::vector<double>(const std::vector<double>& levels, long warm)>;
+  PatternOverlay(long steps_per_ui, long span, const Signal& signal, const PeakDistortion& pda,
+                 const Simulate& simulate);
 
   long steps_per_ui() const { return n_; }
   int eye_count() const { return eyes_; }
@@ -47,6 +59,7 @@ class PatternOverlay {
   double sample(long g) const { return w_[static_cast<size_t>(g - b0_ * n_)]; }
 
  private:
+  void lay_out(const Signal& signal);  // everything but w_
   size_t index(long i) const { return static_cast<size_t>(truncated_ ? i : ((i % count_) + count_) % count_); }
 
   long n_, m_, ref_, span_;
@@ -82,6 +95,8 @@ struct OverlayEnvelope {
 struct EyeOverlay {
   EyeOverlay(const PulseResponse& pulse, const Signal& signal)
       : pda(peak_distortion(pulse, signal.modulation)), overlay(pulse, signal, pda), envelope(overlay) {}
+  EyeOverlay(PeakDistortion reference, PatternOverlay built)
+      : pda(std::move(reference)), overlay(std::move(built)), envelope(overlay) {}
   PeakDistortion pda;
   PatternOverlay overlay;
   OverlayEnvelope envelope;

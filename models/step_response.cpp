@@ -99,6 +99,61 @@ std::vector<double> SteppedSimulator::step(int points) const {
   return run(std::vector<double>(static_cast<size_t>(points), 1.0));
 }
 
+CubicHoldSimulator::CubicHoldSimulator(const StateSpace& model, double dt) : n_(model.order()), dt_(dt), d_(model.d) {
+  const int n = n_;
+  const double h = dt / model.time_scale;
+  Eigen::MatrixXd augmented = Eigen::MatrixXd::Zero(n + 4, n + 4);
+  augmented.topLeftCorner(n, n) = model.a * h;
+  augmented.block(0, n, n, 1) = model.b * h;
+  for (int j = 0; j < 3; ++j) augmented(n + j, n + j + 1) = 1.0;
+  const Eigen::MatrixXd e = augmented.exp();
+  // G_j: the state after one step from rest for the input tau^j/j!, tau in [0, 1].
+  const Eigen::MatrixXd g = e.topRightCorner(n, 4);
+  // The Lagrange cubic through tau = -1, 0, 1, 2 (values u_1, u0, u1, u2) has at tau = 0
+  //   u = u0,  du = -u_1/3 - u0/2 + u1 - u2/6,  d2u = u_1 - 2 u0 + u1,  d3u = -u_1 + 3 u0 - 3 u1 + u2;
+  // lagrange[m][j] is the weight of sample m (u_1, u0, u1, u2) in derivative j.
+  const double lagrange[4][4] = {{0.0, -1.0 / 3.0, 1.0, -1.0},
+                                 {1.0, -0.5, -2.0, 3.0},
+                                 {0.0, 1.0, 1.0, -3.0},
+                                 {0.0, -1.0 / 6.0, 0.0, 1.0}};
+  phi_.resize(static_cast<size_t>(n * n));
+  for (int r = 0; r < n; ++r)
+    for (int c = 0; c < n; ++c) phi_[static_cast<size_t>(r * n + c)] = e(r, c);
+  w_.assign(static_cast<size_t>(4 * n), 0.0);
+  for (int m = 0; m < 4; ++m)
+    for (int j = 0; j < 4; ++j)
+      for (int r = 0; r < n; ++r) w_[static_cast<size_t>(m * n + r)] += lagrange[m][j] * g(r, j);
+  c_.assign(model.c.data(), model.c.data() + n);
+}
+
+std::vector<double> CubicHoldSimulator::run(const std::vector<double>& u) const {
+  const size_t count = u.size();
+  std::vector<double> y(count);
+  if (count == 0) return y;
+  const int n = n_;
+  std::vector<double> x(static_cast<size_t>(n), 0.0), next(static_cast<size_t>(n));
+  const double* phi = phi_.data();
+  const double* w0 = w_.data();
+  const double* w1 = w0 + n;
+  const double* w2 = w1 + n;
+  const double* w3 = w2 + n;
+  const size_t last = count - 1;
+  for (size_t k = 0; k < count; ++k) {
+    double out = d_ * u[k];
+    for (int r = 0; r < n; ++r) out += c_[static_cast<size_t>(r)] * x[static_cast<size_t>(r)];
+    y[k] = out;
+    const double um = u[k > 0 ? k - 1 : 0], u0 = u[k], u1 = u[std::min(k + 1, last)], u2 = u[std::min(k + 2, last)];
+    for (int r = 0; r < n; ++r) {
+      double acc = w0[r] * um + w1[r] * u0 + w2[r] * u1 + w3[r] * u2;
+      const double* row = phi + r * n;
+      for (int c = 0; c < n; ++c) acc += row[c] * x[static_cast<size_t>(c)];
+      next[static_cast<size_t>(r)] = acc;
+    }
+    x.swap(next);
+  }
+  return y;
+}
+
 TimeAxis choose_time_axis(const Cascade& cascade, double bandwidth_hz) {
   double slowest = std::numeric_limits<double>::infinity();
   double fastest = 0.0;

@@ -43,6 +43,31 @@ class SteppedSimulator {
   Eigen::VectorXd gamma_;
 };
 
+// Exact response to an input that between samples k and k+1 is the cubic through the samples
+// k-1, k, k+1, k+2 (a smooth waveform known at t = k*dt, such as a pair's output current
+// computed from the previous stage's sampled output; models/large_signal.hpp). The cubic hold
+// generalises the held-input discretisation: the matrix exponential of the augmented matrix
+// [[A h, B h, 0, 0, 0], [0, 0, 1, 0, 0], [0, 0, 0, 1, 0], [0, 0, 0, 0, 1], [0, 0, 0, 0, 0]]
+// (h = dt in model time) gives the exact responses G_j to the inputs tau^j/j! over one step,
+// and the four-point Lagrange cubic weights them. It reproduces every polynomial input of
+// degree <= 3 exactly, so its error for a smooth input is O(dt^4). Ends: the first and last
+// samples are repeated outward.
+class CubicHoldSimulator {
+ public:
+  CubicHoldSimulator(const StateSpace& model, double dt);
+  double dt() const { return dt_; }
+  int order() const { return n_; }
+  // y[k] = output at t = k*dt; starts at rest.
+  std::vector<double> run(const std::vector<double>& u) const;
+
+ private:
+  int n_ = 0;
+  double dt_ = 0.0, d_ = 0.0;
+  std::vector<double> phi_;  // n x n, row major
+  std::vector<double> w_;    // 4 x n: weights of u[k-1], u[k], u[k+1], u[k+2]
+  std::vector<double> c_;
+};
+
 struct StepResponse {
   double dt = 0.0;
   std::vector<double> y;  // divided by the DC gain: settles at 1

@@ -29,7 +29,8 @@ const Keys kTechnologyKeys{"ft", "c_out_ratio", "inductor_q", "max_inductance", 
                            "min_cb", "max_gm", "gm_over_id", "current_budget", "gamma",
                            "temperature"};
 const Keys kStageKeys{"id", "kind", "gm", "rd", "c_in", "c_out", "c_load", "r_load",
-                      "feeds", "count", "tap"};
+                      "feeds", "count", "tap", "tail_current", "pair"};
+const Keys kPairs{"bipolar", "mos"};
 const Keys kModulations{"nrz", "pam4"};
 const Keys kPatterns{"prbs7", "prbs9", "prbs15", "prbs23", "prbs31"};
 const Keys kObjectives{"flattest", "widest", "leanest"};
@@ -405,6 +406,25 @@ void check_design_conflicts(Reader& reader, const StageSpec& stage, const std::s
                                  " design; give one or the other");
 }
 
+// tail_current (a fixed current, > 0) and pair; the gm bound needs gm and the temperature,
+// so resolve_chain checks it.
+void read_limit(Reader& reader, const toml::table& t, const std::string& who, StageSpec& stage) {
+  if (const auto* n = t.get("tail_current")) {
+    Adjustable a;
+    a.where = position(n->source());
+    if (const auto v = reader.bounded(*n, Dimension::current, who + "tail_current", true)) {
+      a.value = *v;
+      stage.values["tail_current"] = a;
+    }
+  }
+  if (const auto* n = t.get("pair")) {
+    stage.pair_where = position(n->source());
+    if (const auto w = reader.word(*n, kPairs, who + "pair")) stage.pair = *w;
+    if (!t.get("tail_current"))
+      reader.error(*n, who + "pair needs tail_current (the pair's tail current, e.g. tail_current = \"6 mA\")");
+  }
+}
+
 void read_stage(Reader& reader, const toml::table& t, size_t index, ChainSpec& spec) {
   StageSpec stage;
   stage.where = position(t.source());
@@ -441,6 +461,7 @@ void read_stage(Reader& reader, const toml::table& t, size_t index, ChainSpec& s
   element("c_out", Dimension::capacitance, false);
   element("c_load", Dimension::capacitance, false);
   element("r_load", Dimension::resistance, true);
+  read_limit(reader, t, who, stage);
   for (const auto& key : {"gm", "rd"})
     if (!t.get(key))
       reader.error(stage.where, who + "missing " + key + " (" + describe(stage_key_dimension(key)) +

@@ -37,6 +37,10 @@ struct StageSpec {
   SourcePosition feeds_where;
   Adjustable count;  // default fixed 1
   bool tap = false;
+  // Limiting (DESIGN.md section 7): tail_current is values["tail_current"] (fixed, A); pair
+  // is "bipolar" or "mos", empty when not given (bipolar when tail_current is).
+  std::string pair;
+  SourcePosition pair_where;
 
   const Adjustable* find(std::string_view key) const;
   bool kind_is_fixed() const { return kinds.size() == 1; }

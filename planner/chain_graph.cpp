@@ -228,6 +228,16 @@ std::optional<Chain> resolve_chain(const ChainSpec& spec, Diagnostics& diagnosti
     c.c_out = value("c_out", 0.0);
     c_load[i] = value("c_load", 0.0);
     c.r_load = value("r_load", std::numeric_limits<double>::infinity());
+    if (const auto* tail = s.find("tail_current"); tail && c.gm > 0.0) {
+      const double bound = max_pair_gm(tail->value, spec.technology.temperature);
+      if (c.gm > bound)
+        diagnostics.error(tail->where, fmt::format("{}tail_current {} cannot give gm = {}: a {} pair's half-circuit "
+                                                   "gm is at most I_T/(2 V_T) = {} at {:g} K; expected at least {}",
+                                                   who, format_si(tail->value, "A", 4), format_si(c.gm, "S", 4),
+                                                   s.pair.empty() ? "bipolar" : s.pair, format_si(bound, "S", 4),
+                                                   spec.technology.temperature,
+                                                   format_si(tail->value * c.gm / bound, "A", 4)));
+    }
     const bool designed_coil = s.zeta || !s.response.empty();
     switch (c.kind) {
       case LoadKind::plain: break;
@@ -300,6 +310,8 @@ Chain assemble_chain(const ChainSpec& spec, const std::vector<GraphStage>& graph
     stage.c_load = c_load[g.spec];
     stage.driver = g.driver;
     stage.tap = spec.stages[g.spec].tap;
+    if (const auto* tail = spec.stages[g.spec].find("tail_current"))
+      stage.limit = PairLimit{tail->value, pair_kind_from_name(spec.stages[g.spec].pair).value_or(PairKind::bipolar)};
     chain.stages.push_back(std::move(stage));
   }
   fill_node_capacitances(chain);

@@ -78,6 +78,9 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
     out += number_line("c_in", stage.c_in, "F") + number_line("c_out", c.c_out, "F");
     if (stage.c_load > 0.0) out += number_line("c_load", stage.c_load, "F");
     if (std::isfinite(c.r_load)) out += number_line("r_load", c.r_load, "ohm");
+    if (stage.limit)
+      out += number_line("tail_current", stage.limit->tail_current, "A") +
+             "pair = " + toml_basic_string(to_string(stage.limit->pair)) + "\n";
     switch (planned.kind) {
       case LoadKind::plain: break;
       case LoadKind::shunt:

@@ -193,6 +193,8 @@ void fill_metrics(SweepRow& row, const Chain& chain, const ChainSpec& spec) {
   row.group_delay_ripple_s = f.group_delay_ripple_s;
   row.overshoot_pct = main.response.step.overshoot_pct;
   if (main.eye) row.eye_height = main.eye->estimate.prbs.eye.height;
+  if (const auto& ls = main.large_signal)
+    row.large_signal = SweepRow::LargeSignal{ls->height_v, ls->width_ui, ls->ddj_pp_s, ls->delay_shift_s};
 }
 
 }  // namespace
@@ -209,12 +211,18 @@ std::optional<SweepResult> run_sweep(const SweepRequest& request, Diagnostics& d
   const auto stop = axis_end(*text, *sets, *axis, axis->stop, "STOP", key, diagnostics);
   if (!stop) return std::nullopt;
   const bool whole = axis->base.key == "count";
+  if (request.log && !(*start * *stop > 0.0)) {
+    diagnostics.error({0, 0, axis->base.origin},
+                      fmt::format("--log needs START and STOP nonzero and of one sign, saw {:g} and {:g}", *start, *stop));
+    return std::nullopt;
+  }
 
   SweepResult result;
   result.target = axis->base.target;
   result.key = axis->base.key;
   result.unit = key.unit;
   result.replan = request.replan;
+  result.log = request.log;
 
   // What each point overrides: the file with --set, or the plan of it when values are open
   // and held (the planned file already carries the --set values).
@@ -234,7 +242,9 @@ std::optional<SweepResult> run_sweep(const SweepRequest& request, Diagnostics& d
 
   for (int i = 0; i < axis->points; ++i) {
     const double t = static_cast<double>(i) / (axis->points - 1);
-    const double value = i + 1 == axis->points ? *stop : *start + (*stop - *start) * t;
+    const double value = i + 1 == axis->points ? *stop
+                         : request.log          ? *start * std::pow(*stop / *start, t)
+                                                : *start + (*stop - *start) * t;
     if (whole && std::fabs(value - std::round(value)) > 1e-9) {
       diagnostics.error({0, 0, axis->base.origin},
                         fmt::format("count takes whole numbers, but point {} of the sweep is {:g}", i + 1, value));
@@ -263,6 +273,7 @@ std::optional<SweepResult> run_sweep(const SweepRequest& request, Diagnostics& d
       if (!chain) return std::nullopt;
       fill_metrics(row, *chain, *spec);
     }
+    result.has_large_signal = result.has_large_signal || row.large_signal.has_value();
     result.rows.push_back(std::move(row));
   }
   return result;

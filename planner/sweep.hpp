@@ -1,4 +1,5 @@
-// peakplan sweep: the chain's main-output metrics against one value, stepped linearly.
+// peakplan sweep: the chain's main-output metrics against one value, stepped linearly (or
+// geometrically with --log: START and STOP nonzero and of one sign).
 //
 //   --vary ID.KEY=START:STOP:N   2 <= N <= kMaxSweepPoints points from START to STOP inclusive; START and STOP
 //                                as the chain file would write the key (80ohm, "0.2 nH", 5%)
@@ -28,6 +29,7 @@ struct SweepRequest {
   std::vector<std::string> sets;  // --set texts, applied before the varied value
   std::string vary;               // "ID.KEY=START:STOP:N"
   bool replan = false;
+  bool log = false;  // geometric spacing
   PlanOptions plan_options;
 };
 
@@ -54,6 +56,12 @@ struct SweepRow {
   double overshoot_pct = 0.0;
   double group_delay_ripple_s = 0.0;
   std::optional<double> eye_height;  // PRBS eye height (fraction of ideal) when [signal]
+  // The main output's large-signal eye (DESIGN.md section 7) when the chain has a limited stage
+  // and [signal] a swing: differential volts, UI, seconds.
+  struct LargeSignal {
+    double height_v = 0.0, width_ui = 0.0, ddj_pp_s = 0.0, delay_shift_s = 0.0;
+  };
+  std::optional<LargeSignal> large_signal;
   std::optional<Plan::Termination> status;  // with replanning
   std::vector<ChosenValue> chosen;          // with replanning, one per SweepResult::open
 };
@@ -67,6 +75,8 @@ struct SweepResult {
   // plan of the file (with --set), whose status this is.
   std::optional<Plan::Termination> held_plan;
   bool has_signal = false;
+  bool has_large_signal = false;  // some row has large_signal
+  bool log = false;
   std::vector<OpenValue> open;
   std::vector<SweepRow> rows;
 };

@@ -79,12 +79,47 @@ nlohmann::json noise_json(const NoiseSummary& n) {
           {"input_density_v_rthz", number(n.equivalent_input_density)}};
 }
 
+// DESIGN.md section 7: the clipped waveform's eye, in differential volts for the [signal]
+// swing taken as the differential peak-to-peak input.
+nlohmann::json large_signal_json(const Chain& chain, const LargeSignalEye& ls) {
+  auto list = [](const std::vector<double>& xs) {
+    auto a = nlohmann::json::array();
+    for (double x : xs) a.push_back(number(x));
+    return a;
+  };
+  nlohmann::json j{{"input_swing_v", number(ls.input_swing_v)},
+                   {"height_v", number(ls.height_v)},
+                   {"width_ui", number(ls.width_ui)},
+                   {"ddj_pp_s", number(ls.ddj_pp_s)},
+                   {"levels_v", list(ls.levels_v)},
+                   {"delay_s", number(ls.delay_s)},
+                   {"linear_delay_s", number(ls.linear_delay_s)},
+                   {"delay_shift_s", number(ls.delay_shift_s)},
+                   {"step_s", number(ls.step_s)},
+                   {"steps_per_ui", ls.steps_per_ui},
+                   {"step_change", number(ls.step_change)},
+                   {"step_converged", ls.converged}};
+  if (ls.modulation == Modulation::pam4) {
+    j["eye_heights_v"] = list(ls.eye_heights_v);
+    j["level_compression"] = number(ls.level_compression);
+  }
+  auto compression = nlohmann::json::array();
+  for (const auto& c : ls.compression)
+    compression.push_back({{"stage", chain.stages[static_cast<size_t>(c.stage)].id}, {"compression_input_v", number(c.input_v)}});
+  j["stages"] = std::move(compression);
+  return j;
+}
+
 }  // namespace
 
 nlohmann::json stage_values_json(const ChainStage& stage) {
   const auto& c = stage.circuit;
   nlohmann::json v{{"gm", c.gm}, {"rd", c.rd}, {"c_in", stage.c_in}, {"c_out", c.c_out},
                    {"c_load", stage.c_load}, {"c_node", c.c_node}, {"c_output_node", output_node_capacitance(c)}, {"r_load", number(c.r_load)}};
+  if (stage.limit) {
+    v["tail_current"] = stage.limit->tail_current;
+    v["pair"] = std::string(to_string(stage.limit->pair));
+  }
   switch (c.kind) {
     case LoadKind::plain: break;
     case LoadKind::shunt:
@@ -117,6 +152,7 @@ nlohmann::json analysis_json(const Chain& chain, const ChainAnalysis& analysis, 
       o["eye"] = eye_json(*out.eye, *options.signal);
       o["noise"] = noise_json(out.eye->noise);
     }
+    if (out.large_signal) o["large_signal"] = large_signal_json(chain, *out.large_signal);
     if (options.include_response && !out.response.sampled.frequency_hz.empty()) {
       o["response"] = {{"frequency_hz", out.response.sampled.frequency_hz},
                        {"magnitude_db", out.response.sampled.magnitude_db()},

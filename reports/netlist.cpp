@@ -55,29 +55,45 @@ class SubcktWriter {
   std::ostringstream& out_;
 };
 
+// The gm cell from `in` into `node`: a linear G element, or the pair curve as a B source.
+std::string gm_cell(const StageCircuit& s, const std::optional<PairLimit>& limit, const std::string& node) {
+  if (!limit) return "Gm " + node + " 0 in 0 " + spice_number(s.gm) + "\n";
+  // Plain exponents in expressions: no scale suffix to misread.
+  auto plain = [](double v) {
+    char text[40];
+    std::snprintf(text, sizeof text, "%.12g", v);
+    return std::string(text);
+  };
+  const std::string it = plain(limit->tail_current);
+  const std::string x = "(" + plain(s.gm) + "*v(in)/" + it + ")";
+  if (limit->pair == PairKind::bipolar) return "Bm " + node + " 0 I=" + it + "/2*tanh(2*" + x + ")\n";
+  return "Bm " + node + " 0 I=abs" + x + " < 0.7071067812 ? " + it + "*" + x + "*sqrt(max(1-" + x + "*" + x +
+         ",0)) : " + it + "/2*sgn" + x + "\n";
+}
+
 // Mirrors stamp_plain, stamp_shunt, stamp_series and stamp_tcoil in models/load_<kind>.cpp.
-void write_load(std::ostringstream& out, const StageCircuit& s) {
+void write_load(std::ostringstream& out, const StageCircuit& s, const std::optional<PairLimit>& limit) {
   SubcktWriter w(out);
   switch (s.kind) {
     case LoadKind::plain:
-      out << "Gm out 0 in 0 " << spice_number(s.gm) << '\n';
+      out << gm_cell(s, limit, "out");
       w.resistor("Rd", "out", "0", s.rd);
       w.capacitor("Cout", "out", "0", s.c_out);
       break;
     case LoadKind::shunt:
-      out << "Gm out 0 in 0 " << spice_number(s.gm) << '\n';
+      out << gm_cell(s, limit, "out");
       w.resistor("Rd", "out", "rd_l", s.rd);
       w.inductor("L", "rd_l", "0", s.l, s.r_l);
       w.capacitor("Cout", "out", "0", s.c_out);
       break;
     case LoadKind::series:
-      out << "Gm drain 0 in 0 " << spice_number(s.gm) << '\n';
+      out << gm_cell(s, limit, "drain");
       w.resistor("Rd", "drain", "0", s.rd);
       w.capacitor("Cout", "drain", "0", s.c_out);
       w.inductor("L", "drain", "out", s.l, s.r_l);
       break;
     case LoadKind::tcoil: {
-      out << "Gm drain 0 in 0 " << spice_number(s.gm) << '\n';
+      out << gm_cell(s, limit, "drain");
       w.capacitor("Cout", "drain", "0", s.c_out);
       // Both halves run drain -> tap -> rd_end, first node = dotted end, so K's sign is the
       // models' sign: positive k adds 2k*sqrt(L1*L2) to the end-to-end inductance.
@@ -132,6 +148,19 @@ bool safe_prefix(const std::string& p) {
   });
 }
 
+// Held symbols as PWL points, each edge a ramp of `rise` centred on its nominal time; SPICE's
+// continuation lines keep the card readable.
+std::string symbol_pwl(const NetlistOptions::SymbolDrive& d, double rise) {
+  std::string text = "0 " + spice_number(d.levels_v.empty() ? 0.0 : d.levels_v.front());
+  for (size_t s = 1; s < d.levels_v.size(); ++s) {
+    if (d.levels_v[s] == d.levels_v[s - 1]) continue;
+    const double t = static_cast<double>(s) * d.ui_s;
+    text += "\n+ " + spice_number(t - rise / 2) + " " + spice_number(d.levels_v[s - 1]) + " " +
+            spice_number(t + rise / 2) + " " + spice_number(d.levels_v[s]);
+  }
+  return text;
+}
+
 struct Analyses {
   double ac_start, ac_stop, tran_step, tran_stop, rise;
   int per_decade;
@@ -154,6 +183,7 @@ Analyses choose_analyses(const Chain& chain, const NetlistOptions& o) {
   const TimeAxis axis = choose_time_axis(cascade, bw);
   a.tran_step = std::isnan(o.tran_step_s) ? axis.dt : o.tran_step_s;
   a.tran_stop = std::isnan(o.tran_stop_s) ? axis.dt * (axis.points - 1) : o.tran_stop_s;
+  if (o.drive && std::isnan(o.tran_stop_s)) a.tran_stop = o.drive->ui_s * static_cast<double>(o.drive->levels_v.size());
   a.rise = std::isnan(o.step_rise_s) ? a.tran_step / 10.0 : o.step_rise_s;
   if (!(a.ac_start > 0.0 && a.ac_stop > a.ac_start && a.per_decade > 0))
     throw std::invalid_argument("write_spice_netlist: the .ac range needs 0 < start < stop and "
@@ -253,16 +283,25 @@ std::string write_spice_netlist(const Chain& chain, const NetlistOptions& option
     out << ".subckt " << subckt_name(i) << " in out\n";
     SubcktWriter w(out);
     w.capacitor("Cin", "in", "0", s.c_in);
-    write_load(out, s.circuit);
+    if (s.limit)
+      out << "* limited: " << to_string(s.limit->pair) << " pair, tail current " << spice_number(s.limit->tail_current)
+          << " A\n";
+    write_load(out, s.circuit, s.limit);
     w.capacitor("Cload", "out", "0", s.c_load);
     w.resistor("Rload", "out", "0", s.circuit.r_load);
     out << ".ends\n\n";
   }
 
-  out << "* source: 1 V AC, and a 0 -> 1 V step for .tran\n";
   const bool through_resistor = resistor_present(chain.r_source);
-  const std::string pulse = "PULSE(0 1 0 " + card(a.rise) + " " + card(a.rise) + " " +
-                            card(4.0 * a.tran_stop) + " " + card(8.0 * a.tran_stop) + ")";
+  std::string pulse = "PULSE(0 1 0 " + card(a.rise) + " " + card(a.rise) + " " +
+                      card(4.0 * a.tran_stop) + " " + card(8.0 * a.tran_stop) + ")";
+  if (options.drive) {
+    out << "* source: 1 V AC, and " << options.drive->levels_v.size() << " held symbols of "
+        << card(options.drive->ui_s) << "s (half-circuit volts) for .tran\n";
+    pulse = "PWL(" + symbol_pwl(*options.drive, a.rise) + ")";
+  } else {
+    out << "* source: 1 V AC, and a 0 -> 1 V step for .tran\n";
+  }
   out << "Vin " << (through_resistor ? "src" : "in") << " 0 DC 0 AC 1 " << pulse << '\n';
   if (through_resistor) out << "Rsource src in " << spice_number(chain.r_source) << '\n';
   out << '\n';

@@ -12,6 +12,10 @@
 //     SPICE's dots sit on the drain side of each half and positive k makes the halves aid.
 //   - the source: Vin with "DC 0 AC 1 PULSE(0 1 ...)" behind Rsource, or on the input directly
 //     when r_source is 0.
+//   - a stage with a tail current (DESIGN.md section 7): its gm cell is a behavioural current
+//     source B with the models' pair curve (models/pair_curve.hpp) of x = gm*v(in)/I_T:
+//     I = I_T/2*tanh(2x) (bipolar) or I = |x| < 1/sqrt2 ? I_T*x*sqrt(1 - x^2) : I_T/2*sgn(x)
+//     (MOS); its slope at v(in) = 0 is gm, so .ac is the small-signal response.
 //   - .ac and .tran cards matched to the main output's bandwidth, .print lines for the main
 //     output (AC magnitude in dB and phase, and the step), and .end.
 // Stage ids may hold any bytes: nodes and subcircuits get safe names (index + sanitised id)
@@ -27,6 +31,7 @@
 #pragma once
 
 #include <limits>
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -47,6 +52,16 @@ struct NetlistOptions {
   double tran_stop_s = unset;  // default: the duration the models use (delay and slowest decay)
   double step_rise_s = unset;  // PULSE rise time; default: tran step / 10, so the step is ideal
                                // to within a shift of half of it
+
+  // The .tran source as a sequence of held symbols (half-circuit volts, one per UI, edges of
+  // step_rise_s as PWL ramps centred on the nominal edge times) instead of the 0 -> 1 V step:
+  // the drive for a chain with limited stages, whose response depends on the amplitude. The
+  // .tran card then covers every symbol unless tran_stop_s is given.
+  struct SymbolDrive {
+    double ui_s = 0.0;
+    std::vector<double> levels_v;
+  };
+  std::optional<SymbolDrive> drive;
 
   bool batch_control = false;
   std::string data_prefix = "peakplan";  // wrdata path prefix; letters, digits and _ . / + -

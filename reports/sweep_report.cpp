@@ -36,8 +36,11 @@ std::string chosen_text(const ChosenValue& v, const OpenValue& o) {
 }
 
 std::string heading(const SweepResult& s) {
-  std::string out = fmt::format("sweep of {} over {} points, chain: {}\n", name_of(s.target, s.key), s.rows.size(),
-                                s.chain_name);
+  std::string out = fmt::format("sweep of {} over {} points{}, chain: {}\n", name_of(s.target, s.key), s.rows.size(),
+                                s.log ? " (log spacing)" : "", s.chain_name);
+  if (s.has_large_signal)
+    out += "clipped: the large-signal eye of the main output, differential volts; the swing is the differential "
+           "peak-to-peak input\n";
   if (s.replan)
     out += "each point re-planned with the varied value fixed\n";
   else if (s.held_plan)
@@ -59,6 +62,8 @@ std::string sweep_text(const SweepResult& s) {
   std::string head = fmt::format("  {:>{}} {:>8} {:>10} {:>8} {:>10} {:>9}", name_of(s.target, s.key), first, "gain dB",
                                  "bandwidth", "peak dB", "overshoot", "ripple");
   if (s.has_signal) head += fmt::format(" {:>7}", "eye h");
+  if (s.has_large_signal)
+    head += fmt::format(" {:>10} {:>9} {:>9} {:>11}", "clipped h", "width", "DDJ pp", "delay shift");
   if (s.replan) {
     head += fmt::format("  {:<8}", "status");
     for (size_t i = 0; i < s.open.size(); ++i) head += fmt::format(" {:>{}}", name_of(s.open[i].stage, s.open[i].key), widths[i]);
@@ -69,6 +74,13 @@ std::string sweep_text(const SweepResult& s) {
                                    fixed(r.gain_db, "{:.2f}"), shown(r.bandwidth_hz, "Hz"), fixed(r.peaking_db, "{:.2f}"),
                                    fixed(r.overshoot_pct, "{:.2f} %"), shown(r.group_delay_ripple_s, "s"));
     if (s.has_signal) line += fmt::format(" {:>7}", r.eye_height ? fixed(*r.eye_height, "{:.3f}") : "-");
+    if (s.has_large_signal) {
+      if (const auto& ls = r.large_signal)
+        line += fmt::format(" {:>10} {:>6.3f} UI {:>9} {:>11}", shown(ls->height_v, "V"), ls->width_ui,
+                            shown(ls->ddj_pp_s, "s"), shown(ls->delay_shift_s, "s"));
+      else
+        line += fmt::format(" {:>10} {:>9} {:>9} {:>11}", "-", "-", "-", "-");
+    }
     if (s.replan) {
       line += fmt::format("  {:<8}", r.status ? status_name(*r.status) : "-");
       for (size_t i = 0; i < s.open.size(); ++i)
@@ -82,6 +94,7 @@ std::string sweep_text(const SweepResult& s) {
 std::string sweep_csv(const SweepResult& s) {
   std::string out = name_of(s.target, s.key) + ",dc_gain_db,bandwidth_hz,peaking_db,overshoot_pct,group_delay_ripple_s";
   if (s.has_signal) out += ",prbs_height";
+  if (s.has_large_signal) out += ",large_signal_height_v,large_signal_width_ui,large_signal_ddj_pp_s,delay_shift_s";
   if (s.replan) {
     out += ",status";
     for (const auto& o : s.open) out += "," + name_of(o.stage, o.key);
@@ -91,6 +104,13 @@ std::string sweep_csv(const SweepResult& s) {
     out += fmt::format("{},{},{},{},{},{}", csv_number(r.value), csv_number(r.gain_db), csv_number(r.bandwidth_hz),
                        csv_number(r.peaking_db), csv_number(r.overshoot_pct), csv_number(r.group_delay_ripple_s));
     if (s.has_signal) out += "," + (r.eye_height ? csv_number(*r.eye_height) : std::string());
+    if (s.has_large_signal) {
+      if (const auto& ls = r.large_signal)
+        out += fmt::format(",{},{},{},{}", csv_number(ls->height_v), csv_number(ls->width_ui), csv_number(ls->ddj_pp_s),
+                           csv_number(ls->delay_shift_s));
+      else
+        out += ",,,,";
+    }
     if (s.replan) {
       out += "," + (r.status ? status_name(*r.status) : std::string());
       for (const auto& v : r.chosen) out += "," + (v.text.empty() ? csv_number(v.number) : v.text);
@@ -105,6 +125,7 @@ nlohmann::json sweep_json(const SweepResult& s) {
   doc["chain"] = s.chain_name;
   doc["vary"] = {{"id", s.target}, {"key", s.key}, {"unit", s.unit}, {"points", s.rows.size()}};
   doc["replan"] = s.replan;
+  doc["log"] = s.log;
   doc["held_plan"] = s.held_plan ? nlohmann::json(status_name(*s.held_plan)) : nlohmann::json(nullptr);
   doc["open"] = nlohmann::json::array();
   for (const auto& o : s.open) doc["open"].push_back({{"id", o.stage}, {"key", o.key}, {"unit", o.unit}});
@@ -117,6 +138,11 @@ nlohmann::json sweep_json(const SweepResult& s) {
                        {"overshoot_pct", number(r.overshoot_pct)},
                        {"group_delay_ripple_s", number(r.group_delay_ripple_s)}};
     if (s.has_signal) row["prbs_height"] = r.eye_height ? number(*r.eye_height) : nlohmann::json(nullptr);
+    if (const auto& ls = r.large_signal)
+      row["large_signal"] = {{"height_v", number(ls->height_v)},
+                             {"width_ui", number(ls->width_ui)},
+                             {"ddj_pp_s", number(ls->ddj_pp_s)},
+                             {"delay_shift_s", number(ls->delay_shift_s)}};
     if (r.status) row["status"] = status_name(*r.status);
     if (s.replan) {
       row["chosen"] = nlohmann::json::object();

@@ -89,6 +89,44 @@ std::string analysis_text(const Chain& chain, const ChainAnalysis& analysis) {
       out += fmt::format("  note: the pattern is longer than the simulation bound; {} symbols were overlaid\n",
                          p.symbols_overlaid);
   }
+  out += large_signal_text(chain, analysis);
+  return out;
+}
+
+std::string large_signal_text(const Chain& chain, const ChainAnalysis& analysis) {
+  std::string out;
+  auto id = [&](int s) { return chain.stages[static_cast<size_t>(s)].id; };
+  bool header = false;
+  for (const auto& o : analysis.outputs) {
+    if (!o.large_signal) continue;
+    const auto& ls = *o.large_signal;
+    if (!header) {
+      out += fmt::format("\nlarge signal (limited stages clip; the swing {} is the differential peak-to-peak input, "
+                         "volts are differential at the output)\n", format_si(ls.input_swing_v, "V"));
+      out += fmt::format("  {:<10} {:>10} {:>9} {:>9} {:>11}  {}\n", "node", "height", "width", "DDJ pp",
+                         "delay shift", "settled levels");
+      header = true;
+    }
+    std::string levels;
+    for (double l : ls.levels_v) levels += (levels.empty() ? "" : ", ") + format_si(l, "V");
+    out += fmt::format("  {:<10} {:>10} {:>6.3f} UI {:>9} {:>11}  {}\n", id(o.stage), format_si(ls.height_v, "V"),
+                       ls.width_ui, format_si(ls.ddj_pp_s, "s"), format_si(ls.delay_shift_s, "s"), levels);
+    if (ls.modulation == Modulation::pam4) {
+      std::string eyes;
+      for (double h : ls.eye_heights_v) eyes += (eyes.empty() ? "" : ", ") + format_si(h, "V");
+      out += fmt::format("  {:<10} eyes (lower first) {}; outer/middle level spacing {:.3f}{}\n", "", eyes,
+                         ls.level_compression,
+                         ls.level_compression < 0.999 ? ": the limiting stages squeeze the outer eyes" : "");
+    }
+    std::string comp;
+    for (const auto& c : ls.compression)
+      comp += (comp.empty() ? "" : ", ") + id(c.stage) + " " +
+              (std::isfinite(c.input_v) ? format_si(c.input_v, "V") : std::string("never (limited ahead)"));
+    out += fmt::format("  {:<10} 1 dB compression at input swing: {}\n", "", comp);
+    out += fmt::format("  {:<10} step {} ({} per UI; halving it moves the height {:.3f} %{})\n", "",
+                       format_si(ls.step_s, "s"), ls.steps_per_ui, 100.0 * ls.step_change,
+                       ls.converged ? "" : ", above the tolerance: the finest step allowed");
+  }
   return out;
 }
 

@@ -201,6 +201,19 @@ const std::vector<Fault>& faults() {
       {"not_utf8.toml", "a byte that is not UTF-8 is reported at the byte", 3, 12, {"byte 0xFF is not UTF-8 text"}},
       {"not_a_number_count.toml", "count = inf is not a whole number of copies", 7, 9,
        {"stage 'g': count must be a whole number of copies >= 1", "saw inf"}},
+      {"limiting_tail_current_zero.toml", "a zero tail current is rejected at its value", 7, 16,
+       {"stage 'la1': tail_current must be positive", "saw \"0 mA\""}},
+      {"limiting_tail_current_negative.toml", "a negative tail current is rejected at its value", 7, 16,
+       {"stage 'la1': tail_current must be positive", "saw \"-4 mA\""}},
+      {"limiting_tail_current_not_current.toml", "a tail current in volts names the expected current", 7, 16,
+       {"stage 'la1': tail_current", "expected a current"}},
+      {"limiting_pair_misspelt.toml", "pair \"bipolr\" suggests bipolar", 8, 8,
+       {"stage 'la1': pair: unknown value \"bipolr\"", "did you mean \"bipolar\"?"}},
+      {"limiting_pair_without_tail.toml", "a pair without tail_current asks for it", 7, 8,
+       {"stage 'la1': pair needs tail_current"}},
+      {"limiting_mos_gm_beyond_tail.toml", "a MOS pair cannot give more gm than I_T/(2 V_T)", 8, 16,
+       {"stage 'la1': tail_current 1.000 mA cannot give gm = 40.00 mS", "at most I_T/(2 V_T) = 19.34 mS",
+        "expected at least 2.068 mA"}},
   };
   return table;
 }

@@ -1,4 +1,4 @@
-// peakplan sweep CHAIN.toml --vary ID.KEY=START:STOP:N [--replan] [--format text|csv|json] [--set ...]
+// peakplan sweep CHAIN.toml --vary ID.KEY=START:STOP:N [--log] [--replan] [--format text|csv|json] [--set ...]
 #include <iostream>
 #include <memory>
 
@@ -38,6 +38,7 @@ Command add_sweep_command(CLI::App& app) {
   cmd->add_option("chain", args->request.chain, "chain file (TOML), or - for standard input")->required();
   cmd->add_option("--vary", args->request.vary, "ID.KEY=START:STOP:N, e.g. a1.rd=80ohm:160ohm:5")->required();
   cmd->add_flag("--replan", args->request.replan, "re-plan the open values at every point");
+  cmd->add_flag("--log", args->request.log, "space the points geometrically (START and STOP of one sign)");
   cmd->add_option("--format", args->format, "text, csv or json")->check(CLI::IsMember({"text", "csv", "json"}));
   cmd->add_option("--set", args->request.sets, "override ID.KEY=VALUE (repeatable)")->allow_extra_args(false);
   args->request.plan_options = stopping_plan_options();
