@@ -11,6 +11,7 @@
 
 #include "planner/overrides.hpp"
 #include "planner/plausible_range.hpp"
+#include "planner/toml_reading.hpp"
 #include "planner/variation_file.hpp"
 
 namespace peakplan {
@@ -42,36 +43,6 @@ Dimension stage_key_dimension(std::string_view key) {
   return Dimension::capacitance;  // c_in, c_out, c_load
 }
 
-SourcePosition position(const toml::source_region& region) {
-  return source_position(static_cast<int>(region.begin.line), static_cast<int>(region.begin.column),
-                         region.path.get());
-}
-
-std::string quoted_list(const Keys& keys) {
-  std::string out;
-  for (size_t i = 0; i < keys.size(); ++i) out += (i ? ", " : "") + std::string(keys[i]);
-  return out;
-}
-
-std::string shown(const toml::node& node) {
-  std::ostringstream out;
-  if (node.is_string())
-    out << '"' << node.as_string()->get() << '"';
-  else if (node.is_table())
-    out << "a table";
-  else if (node.is_array())
-    out << "an array";
-  else if (const auto* i = node.as_integer())
-    out << i->get();
-  else if (const auto* f = node.as_floating_point())
-    out << f->get();
-  else if (const auto* b = node.as_boolean())
-    out << (b->get() ? "true" : "false");
-  else
-    out << "a date or time";
-  return out.str();
-}
-
 // What to write instead of a bare number for a dB or % key (DESIGN.md section 3): the number
 // with its unit, and for a percentage the reading as a fraction too, since both are common.
 std::string unit_string_hint(double x, Dimension dim) {
@@ -91,17 +62,10 @@ class Reader {
   }
   void error(SourcePosition where, std::string message) { diag_.error(where, std::move(message)); }
 
-  // Reports every key of `table` not in `allowed`, suggesting the closest allowed one.
   void check_keys(const toml::table& table, const Keys& allowed, const std::string& context) {
-    for (auto&& [key, node] : table) {
-      if (std::find(allowed.begin(), allowed.end(), key.str()) != allowed.end()) continue;
-      std::string message = context + "unknown key '" + std::string(key.str()) + "'";
-      const auto suggestion = closest_match(key.str(), allowed);
-      message += suggestion.empty() ? "; expected one of: " + quoted_list(allowed)
-                                    : "; did you mean '" + suggestion + "'?";
-      diag_.error(position(key.source()), message);
-    }
+    check_known_keys(diag_, table, allowed, context);
   }
+
 
   std::optional<double> quantity(const toml::node& node, Dimension dim, const std::string& what) {
     std::optional<double> value;

@@ -8,6 +8,7 @@
 
 #include "models/units.hpp"
 #include "planner/toml_text.hpp"
+#include "planner/toml_reading.hpp"
 
 namespace peakplan {
 namespace {
@@ -21,36 +22,6 @@ const Keys kSpreadKeys{"global", "local"};
 const Keys kDistributions{"gaussian", "uniform"};
 const Keys kCornerModes{"extremes", "none"};
 constexpr int kMaxSamples = 1'000'000;
-
-SourcePosition position(const toml::source_region& region) {
-  return source_position(static_cast<int>(region.begin.line), static_cast<int>(region.begin.column),
-                         region.path.get());
-}
-
-std::string listed(const Keys& keys) {
-  std::string out;
-  for (size_t i = 0; i < keys.size(); ++i) out += (i ? ", " : "") + std::string(keys[i]);
-  return out;
-}
-
-std::string shown(const toml::node& node) {
-  std::ostringstream out;
-  if (node.is_string())
-    out << '"' << node.as_string()->get() << '"';
-  else if (node.is_table())
-    out << "a table";
-  else if (node.is_array())
-    out << "an array";
-  else if (const auto* i = node.as_integer())
-    out << i->get();
-  else if (const auto* f = node.as_floating_point())
-    out << f->get();
-  else if (const auto* b = node.as_boolean())
-    out << (b->get() ? "true" : "false");
-  else
-    out << "a date or time";
-  return out.str();
-}
 
 // "10 %" for a bare 0.1, "5 %" for a bare 5: the percentage a user most likely meant.
 std::string percent_suggestion(double x, bool sign) {
@@ -67,15 +38,9 @@ class VariationReader {
   size_t errors() const { return diag_.list().size() + diag_.dropped(); }
 
   void check_keys(const toml::table& table, const Keys& allowed, const std::string& context) {
-    for (auto&& [key, node] : table) {
-      if (std::find(allowed.begin(), allowed.end(), key.str()) != allowed.end()) continue;
-      const auto suggestion = closest_match(key.str(), allowed);
-      diag_.error(position(key.source()),
-                  context + "unknown key '" + std::string(key.str()) + "'" +
-                      (suggestion.empty() ? "; expected one of: " + listed(allowed)
-                                          : "; did you mean '" + suggestion + "'?"));
-    }
+    check_known_keys(diag_, table, allowed, context);
   }
+
 
   // A relative amount written as a percentage string ("10 %", "-12 %"). A bare number is
   // ambiguous (0.1 % or 10 %?) and is an error showing the string to write.
@@ -277,7 +242,7 @@ std::optional<VariationSpec> read_variation(const toml::table& root, Diagnostics
       spec.variation.distribution = value == "gaussian" ? Distribution::gaussian : Distribution::uniform;
     } else {
       const auto suggestion = n->is_string() ? closest_match(value, kDistributions) : std::string();
-      reader.error(*n, "[variation] distribution: expected one of " + listed(kDistributions) + ", saw " + shown(*n) +
+      reader.error(*n, "[variation] distribution: expected one of " + quoted_list(kDistributions) + ", saw " + shown(*n) +
                            (suggestion.empty() ? "" : " (did you mean \"" + suggestion + "\"?)"));
     }
   }
@@ -306,7 +271,7 @@ std::optional<VariationSpec> read_variation(const toml::table& root, Diagnostics
       spec.extremes = value == "extremes";
     } else {
       const auto suggestion = n->is_string() ? closest_match(value, kCornerModes) : std::string();
-      reader.error(*n, "[variation] corners: expected one of " + listed(kCornerModes) + ", saw " + shown(*n) +
+      reader.error(*n, "[variation] corners: expected one of " + quoted_list(kCornerModes) + ", saw " + shown(*n) +
                            (suggestion.empty() ? "" : " (did you mean \"" + suggestion + "\"?)") +
                            "; named corners go in [[variation.corner]] tables");
     }
