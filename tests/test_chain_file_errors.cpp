@@ -150,6 +150,8 @@ const std::vector<Fault>& faults() {
       {"not_utf8.toml", "a byte that is not UTF-8 is reported at the byte", 3, 12, {"byte 0xFF is not UTF-8 text"}},
       {"not_a_number_count.toml", "count = inf is not a whole number of copies", 7, 9,
        {"stage 'g': count must be a whole number of copies >= 1", "saw inf"}},
+      {"combinations_over_limit.toml", "six stages of any kind (4096 combinations) are reported at the sixth kind", 29, 8,
+       {"stage 's6': the candidate kinds and counts open so far make 4096 combinations", "limit of 1024"}},
   };
   return table;
 }
