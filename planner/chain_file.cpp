@@ -529,10 +529,24 @@ void read_stage(Reader& reader, const toml::table& t, size_t index, ChainSpec& s
   spec.stages.push_back(std::move(stage));
 }
 
-// The copies of the whole chain (kMaxStageCopies), reported at the stage that passes the limit.
+// The copies of the whole chain (kMaxStageCopies) and the planner's combinations
+// (kMaxCombinations), each reported at the stage that passes its limit.
 void check_stage_copies(Reader& reader, const ChainSpec& spec) {
-  int64_t copies = 0;
+  int64_t copies = 0, combinations = 1;
+  bool combinations_reported = false;
   for (const auto& s : spec.stages) {
+    const int64_t counts = s.count.mode == Adjustable::Mode::range ? static_cast<int64_t>(s.count.max - s.count.min) + 1
+                           : s.count.is_fixed()                     ? 1
+                                                                    : 8;
+    combinations *= std::max<int64_t>(1, static_cast<int64_t>(s.kinds.size())) * counts;
+    if (combinations > kMaxCombinations && !combinations_reported) {
+      reader.error(s.count.is_fixed() ? (s.kind_where.line > 0 ? s.kind_where : s.where) : s.count.where,
+                   "stage '" + s.id + "': the candidate kinds and counts open so far make " +
+                       std::to_string(combinations) + " combinations for the planner, over the limit of " +
+                       std::to_string(kMaxCombinations) + "; fix some kinds or counts");
+      combinations_reported = true;
+    }
+    combinations = std::min(combinations, kMaxCombinations + 1);  // no overflow over 256 stages
     copies += static_cast<int64_t>(s.count.mode == Adjustable::Mode::range ? s.count.max
                                    : s.count.is_fixed()                     ? s.count.value
                                                                             : 1.0);

@@ -94,10 +94,13 @@ struct ChainSpec {
 
 // Bounds on the work a chain file may ask for (each an error at the place it is passed): the
 // number of [[stage]] tables, the copies one `count` makes (a fixed count or a range's max),
-// and the copies of the whole chain (every fixed count, every range's max, "auto" as 1).
+// the copies of the whole chain (every fixed count, every range's max, "auto" as 1), and the
+// combinations of candidate kinds and counts the planner would search one by one (the product
+// over stages of kinds x counts; count = "auto" is 1..8, planner/plan_problem.cpp).
 inline constexpr size_t kMaxStageTables = 256;
 inline constexpr int64_t kMaxCount = 64;
 inline constexpr int64_t kMaxStageCopies = 256;
+inline constexpr int64_t kMaxCombinations = 1024;
 
 // Parses and validates one chain file. `display_name` is the name errors carry (the path as
 // the user gave it). Returns nullopt when there were errors; they are in `diagnostics`.

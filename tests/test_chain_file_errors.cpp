@@ -214,6 +214,8 @@ const std::vector<Fault>& faults() {
       {"limiting_mos_gm_beyond_tail.toml", "a MOS pair cannot give more gm than I_T/(2 V_T)", 8, 16,
        {"stage 'la1': tail_current 1.000 mA cannot give gm = 40.00 mS", "at most I_T/(2 V_T) = 19.34 mS",
         "expected at least 2.068 mA"}},
+      {"combinations_over_limit.toml", "six stages of any kind (4096 combinations) are reported at the sixth kind", 29, 8,
+       {"stage 's6': the candidate kinds and counts open so far make 4096 combinations", "limit of 1024"}},
   };
   return table;
 }
