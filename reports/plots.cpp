@@ -286,7 +286,7 @@ PlotFile eye_plot(const Chain& chain, const ChainAnalysis& analysis) {
   const double pad = 0.08 * (hi - lo);
   Chart chart("eye", "PRBS eye at the main output",
               fmt::format("{}: {}, {} {} {}; {} of {} symbols drawn, 1 UI = {}", chain.name,
-                          stage_id(chain, main.stage), engineering(bit_rate, "b/s"), pam4 ? "PAM4" : "NRZ",
+                          stage_id(chain, main.stage), engineering(bit_rate, "b/s", 6), pam4 ? "PAM4" : "NRZ",
                           to_string(tr.pattern), tr.traces.size(), tr.symbols_overlaid,
                           engineering(ui, "s")),
               AxisSpec{"Time from the sampling instant", AxisUnit{"UI", false}, Scale::linear, -1.0, 1.0},
