@@ -26,7 +26,7 @@ std::vector<ReportFile> build_report(const ReportSource& source, const Chain& ch
     if (plan->before_chain && plan->before_analysis)
       before = build_budget(spec, *plan->before_chain, *plan->before_analysis);
     status = HtmlPlanStatus{plan->plan->termination == Plan::Termination::met, plan->plan->message,
-                            {plan_metrics_view(budget, before), plan_values_view(spec, *plan->plan)}};
+                            {plan_metrics_view(budget, before, plan->plan->checks), plan_values_view(spec, *plan->plan)}};
     markdown += std::string("## Plan status\n\n") + (status->met ? "met: " : "NOT met: ") + status->message + "\n\n" +
                 tables_markdown(status->tables);
   }
