@@ -1,6 +1,8 @@
 #include "models/analysis.hpp"
 
+#include <algorithm>
 #include <cmath>
+#include <limits>
 #include <numbers>
 
 #include "models/eye_overlay.hpp"
@@ -18,7 +20,7 @@ ResponseSummary summarise_rational_only(const Cascade& cascade, const AnalysisOp
 }  // namespace
 
 ResponseSummary summarise(const Cascade& cascade, const std::vector<const NodalSystem*>& exact,
-                          const AnalysisOptions& options) {
+                          const AnalysisOptions& options, std::optional<std::pair<double, double>> span) {
   ResponseSummary r;
   r.frequency = frequency_metrics(cascade, options.ripple_band_hz);
   r.poles = cascade.poles();
@@ -28,7 +30,7 @@ ResponseSummary summarise(const Cascade& cascade, const std::vector<const NodalS
   r.step = step_metrics(wave);
   if (options.keep_waveforms) {
     r.step_wave = std::move(wave);
-    const auto [f_lo, f_hi] = natural_span(cascade, 1.0);
+    const auto [f_lo, f_hi] = span ? *span : natural_span(cascade, 1.0);
     const auto grid = FrequencyGrid::log(f_lo, f_hi, std::max(2, options.points));
     r.sampled = exact.empty() ? sample_rational(cascade, grid) : sample_nodal(exact, grid);
   }
@@ -56,10 +58,34 @@ ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) 
     rationals.push_back(systems.back().rational());
   }
 
+  NodalSystem source_system;
+  const bool driven_through_source =
+      chain.r_source > 0.0 && chain.stages[static_cast<size_t>(chain.input_stage())].c_in > 0.0;
+  if (driven_through_source) {
+    const int in = source_system.add_node("in");
+    source_system.add_source(in, chain.r_source);
+    source_system.add_capacitor(in, NodalSystem::ground,
+                                chain.stages[static_cast<size_t>(chain.input_stage())].c_in);
+    source_system.set_output(in);
+  }
+  // One span for every sampled response: the union of the stages' and the source's natural
+  // spans, which holds every cascade's poles and zeros.
+  std::optional<std::pair<double, double>> span;
+  if (options.keep_waveforms) {
+    std::pair<double, double> all{std::numeric_limits<double>::infinity(), 0.0};
+    auto include = [&](const Rational& r) {
+      const auto [lo, hi] = natural_span(Cascade({r}), 1.0);
+      all = {std::min(all.first, lo), std::max(all.second, hi)};
+    };
+    for (const auto& r : rationals) include(r);
+    if (driven_through_source) include(source_system.rational());
+    if (all.first < all.second) span = all;
+  }
+
   for (size_t i = 0; i < chain.stages.size(); ++i) {
     StageSummary stage;
     stage.stage = static_cast<int>(i);
-    stage.alone = summarise(Cascade({rationals[i]}), {&systems[i]}, options);
+    stage.alone = summarise(Cascade({rationals[i]}), {&systems[i]}, options, span);
     const auto& s = chain.stages[i];
     if (s.intent.kind == DesignIntent::Kind::zeta && s.circuit.kind == LoadKind::tcoil) {
       AnalysisOptions bare;
@@ -84,16 +110,6 @@ ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) 
     result.stages.push_back(std::move(stage));
   }
 
-  NodalSystem source_system;
-  const bool driven_through_source =
-      chain.r_source > 0.0 && chain.stages[static_cast<size_t>(chain.input_stage())].c_in > 0.0;
-  if (driven_through_source) {
-    const int in = source_system.add_node("in");
-    source_system.add_source(in, chain.r_source);
-    source_system.add_capacitor(in, NodalSystem::ground,
-                                chain.stages[static_cast<size_t>(chain.input_stage())].c_in);
-    source_system.set_output(in);
-  }
   for (size_t i = 0; i < chain.stages.size(); ++i) {
     Cascade cascade;
     if (driven_through_source) cascade.append(source_system.rational());
@@ -112,7 +128,7 @@ ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) 
       cascade.append(rationals[static_cast<size_t>(s)]);
       exact.push_back(&systems[static_cast<size_t>(s)]);
     }
-    OutputSummary summary{out, summarise(cascade, exact, options), std::nullopt, std::nullopt};
+    OutputSummary summary{out, summarise(cascade, exact, options, span), std::nullopt, std::nullopt};
     if (options.signal) {
       const Signal& signal = *options.signal;
       EyeSummary eye;

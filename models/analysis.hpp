@@ -81,8 +81,12 @@ struct ChainAnalysis {
   std::vector<OutputSummary> outputs; // main output last
 };
 
+// `span` (Hz, lo and hi) is where the kept frequency response is sampled; by default the
+// cascade's own natural span. analyze_chain gives every response of a chain one span, so that
+// plots overlay them from edge to edge.
 ResponseSummary summarise(const Cascade& cascade, const std::vector<const NodalSystem*>& exact,
-                          const AnalysisOptions& options);
+                          const AnalysisOptions& options,
+                          std::optional<std::pair<double, double>> span = std::nullopt);
 ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options = {});
 
 // Max |Z_in / Rd - 1| of a stage's load seen from the drain without c_out, up to f_max.

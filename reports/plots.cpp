@@ -116,7 +116,7 @@ PlotFile magnitude_plot(const Chain& chain, const ChainAnalysis& analysis) {
               AxisSpec{"Frequency", kHz, Scale::log, f_lo, f_hi}, AxisSpec{"Gain", kDb, Scale::linear, y_lo, y_hi});
   for (size_t i = 0; i < analysis.stages.size(); ++i) {
     const auto& s = analysis.stages[i].alone.sampled;
-    chart.line(s.frequency_hz, s.magnitude_db(), stroke(svg::theme::series_colour(i), 1.6),
+    chart.line(s.frequency_hz, s.magnitude_db(), stroke(svg::theme::series_colour(i), 1.6, std::string(svg::theme::series_dash(i))),
                stage_label(chain, analysis.stages[i].stage) + " alone");
   }
   for (size_t k = 0; k + 1 < analysis.outputs.size(); ++k) {
@@ -184,7 +184,7 @@ PlotFile group_delay_plot(const Chain& chain, const ChainAnalysis& analysis) {
   }
   for (size_t i = 0; i < analysis.stages.size(); ++i) {
     const auto& st = analysis.stages[i].alone.sampled;
-    chart.line(st.frequency_hz, st.group_delay_s, stroke(svg::theme::series_colour(i), 1.3),
+    chart.line(st.frequency_hz, st.group_delay_s, stroke(svg::theme::series_colour(i), 1.3, std::string(svg::theme::series_dash(i))),
                stage_label(chain, analysis.stages[i].stage) + " alone");
   }
   for (size_t k = 0; k + 1 < analysis.outputs.size(); ++k) {

@@ -481,3 +481,23 @@ TEST_CASE("report: display rules: no -0.00, missing values without a unit, Q and
   CHECK(show_eye_height(-0.2) == "closed");
   CHECK(show_eye_height(0.929) == "0.929");
 }
+
+TEST_CASE("report: the demo report shipped in docs/demo-report is what the tool writes today") {
+  // The README links to it as the tool's output: it must not drift from the code. After a
+  // change that moves it, regenerate it with the command in the README.
+  // Run as the README does, from the repository with a relative path (the page shows it).
+  TempDir dir("peakplan_report");
+  const auto run = run_cli({"report", "chains/demo_postamp.toml", "--out", (dir.path / "out").string()}, kSource.string());
+  REQUIRE_MESSAGE(run.status == 0, run.err);
+  const fs::path shipped = kSource / "docs" / "demo-report";
+  std::set<std::string> written, kept;
+  for (const auto& e : fs::directory_iterator(dir.path / "out"))
+    if (e.path().filename().string()[0] != '.') written.insert(e.path().filename().string());
+  for (const auto& e : fs::directory_iterator(shipped)) kept.insert(e.path().filename().string());
+  CHECK(written == kept);
+  for (const auto& name : written) {
+    CAPTURE(name);
+    CHECK_MESSAGE(read_file(dir.path / "out" / name) == read_file(shipped / name),
+                  "docs/demo-report/" << name << " differs: regenerate it (README, \"the whole generated report\")");
+  }
+}
