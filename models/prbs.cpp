@@ -1,16 +1,18 @@
 #include "models/prbs.hpp"
 
+#include <bit>
 #include <stdexcept>
 
 namespace peakplan {
 
 PrbsPolynomial prbs_polynomial(PrbsKind kind) {
   switch (kind) {
-    case PrbsKind::prbs7: return {7, 6};
-    case PrbsKind::prbs9: return {9, 5};
-    case PrbsKind::prbs15: return {15, 14};
-    case PrbsKind::prbs23: return {23, 18};
-    case PrbsKind::prbs31: return {31, 28};
+    case PrbsKind::prbs7: return {7, {7, 6}};
+    case PrbsKind::prbs9: return {9, {9, 5}};
+    case PrbsKind::prbs13: return {13, {13, 12, 2, 1}};
+    case PrbsKind::prbs15: return {15, {15, 14}};
+    case PrbsKind::prbs23: return {23, {23, 18}};
+    case PrbsKind::prbs31: return {31, {31, 28}};
   }
   throw std::logic_error("prbs_polynomial: unknown kind");
 }
@@ -20,8 +22,8 @@ std::uint64_t prbs_period(PrbsKind kind) {
 }
 
 std::optional<PrbsKind> prbs_from_name(std::string_view name) {
-  for (PrbsKind k : {PrbsKind::prbs7, PrbsKind::prbs9, PrbsKind::prbs15, PrbsKind::prbs23,
-                     PrbsKind::prbs31})
+  for (PrbsKind k : {PrbsKind::prbs7, PrbsKind::prbs9, PrbsKind::prbs13, PrbsKind::prbs15,
+                     PrbsKind::prbs23, PrbsKind::prbs31})
     if (to_string(k) == name) return k;
   return std::nullopt;
 }
@@ -30,6 +32,7 @@ std::string_view to_string(PrbsKind kind) {
   switch (kind) {
     case PrbsKind::prbs7: return "prbs7";
     case PrbsKind::prbs9: return "prbs9";
+    case PrbsKind::prbs13: return "prbs13";
     case PrbsKind::prbs15: return "prbs15";
     case PrbsKind::prbs23: return "prbs23";
     case PrbsKind::prbs31: return "prbs31";
@@ -41,12 +44,12 @@ PrbsGenerator::PrbsGenerator(PrbsKind kind) {
   const auto poly = prbs_polynomial(kind);
   mask_ = static_cast<std::uint32_t>((std::uint64_t{1} << poly.order) - 1);
   state_ = mask_;
-  high_ = poly.order - 1;
-  tap_ = poly.tap - 1;
+  taps_ = 0;
+  for (int k : poly.powers) taps_ |= std::uint32_t{1} << (k - 1);
 }
 
 int PrbsGenerator::next() {
-  const std::uint32_t bit = ((state_ >> high_) ^ (state_ >> tap_)) & 1u;
+  const auto bit = static_cast<std::uint32_t>(std::popcount(state_ & taps_) & 1);
   state_ = ((state_ << 1) | bit) & mask_;
   return static_cast<int>(bit);
 }

@@ -2,7 +2,10 @@
 //
 // PRBSn is the maximal-length sequence of x^n + x^t + 1 from an n-bit register seeded with all
 // ones: each step computes b(n-1) XOR b(t-1), shifts it in at b0 and outputs it. Its period is
-// 2^n - 1 bits and it contains every n-bit word except all zeros once per period.
+// 2^n - 1 bits and it contains every n-bit word except all zeros once per period. PRBS13, the
+// usual PAM4 test pattern, has no primitive trinomial and uses x^13 + x^12 + x^2 + x + 1 (the
+// polynomial of IEEE 802.3 for PRBS13, from memory; that it is primitive is checked by the
+// period test): the new bit is b12 XOR b11 XOR b1 XOR b0.
 #pragma once
 
 #include <cstddef>
@@ -13,11 +16,11 @@
 
 namespace peakplan {
 
-enum class PrbsKind { prbs7, prbs9, prbs15, prbs23, prbs31 };
+enum class PrbsKind { prbs7, prbs9, prbs13, prbs15, prbs23, prbs31 };
 
 struct PrbsPolynomial {
-  int order;  // n of x^n + x^t + 1
-  int tap;    // t
+  int order;                // n, the highest power
+  std::vector<int> powers;  // every power but 0 with a nonzero coefficient, n first: {7, 6}
 };
 PrbsPolynomial prbs_polynomial(PrbsKind kind);
 // 2^n - 1.
@@ -34,7 +37,7 @@ class PrbsGenerator {
  private:
   std::uint32_t state_;
   std::uint32_t mask_;
-  int high_, tap_;  // bit indices n-1 and t-1
+  std::uint32_t taps_;  // bit k-1 set for each power k: the feedback is their parity
 };
 
 // The first `count` bits of the sequence.

@@ -33,7 +33,7 @@ const Keys kStageKeys{"id", "kind", "gm", "rd", "c_in", "c_out", "c_load", "r_lo
                       "feeds", "count", "tap", "tail_current", "pair"};
 const Keys kPairs{"bipolar", "mos"};
 const Keys kModulations{"nrz", "pam4"};
-const Keys kPatterns{"prbs7", "prbs9", "prbs15", "prbs23", "prbs31"};
+const Keys kPatterns{"prbs7", "prbs9", "prbs13", "prbs13q", "prbs15", "prbs23", "prbs31"};
 const Keys kObjectives{"flattest", "widest", "leanest"};
 const Keys kResponses{"butterworth", "bessel", "critical"};
 
@@ -212,7 +212,14 @@ void read_signal(Reader& reader, const toml::table& root, ChainSpec& spec) {
     if (auto w = reader.word(*n, kModulations, "[signal] modulation")) signal.modulation = *w;
   if (in_baud && signal.modulation == "pam4") signal.bit_rate *= 2.0;  // two bits per PAM4 symbol
   if (const auto* n = t->get("pattern"))
-    if (auto w = reader.word(*n, kPatterns, "[signal] pattern")) signal.pattern = *w;
+    if (auto w = reader.word(*n, kPatterns, "[signal] pattern")) {
+      // PRBS13Q is PRBS13 taken two bits at a time into Gray-coded PAM4 symbols, which is what
+      // pattern = "prbs13" gives under PAM4: the same symbols, and a PAM4 pattern only.
+      if (*w == "prbs13q" && signal.modulation != "pam4")
+        reader.error(*n, "[signal] pattern \"prbs13q\" is a PAM4 pattern: set modulation = \"pam4\", or use "
+                         "\"prbs13\" for NRZ");
+      signal.pattern = *w == "prbs13q" ? "prbs13" : *w;
+    }
   if (const auto* n = t->get("input_rise"))
     signal.input_rise = reader.bounded(*n, Dimension::time, "[signal] input_rise", false);
   if (const auto* n = t->get("swing"))

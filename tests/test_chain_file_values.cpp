@@ -40,3 +40,13 @@ TEST_CASE("chain values: a symbol rate in baud is bits per symbol times the rate
   const auto nrz = spec_of("[signal]\nbit_rate = \"25.78125 GBd\"\n");
   CHECK(nrz.signal->bit_rate == doctest::Approx(25.78125e9).epsilon(1e-15));
 }
+
+TEST_CASE("chain values: PRBS13, and PRBS13Q for PAM4, the usual PAM4 test patterns, are accepted") {
+  const auto nrz = spec_of("[signal]\nbit_rate = \"53.125 Gb/s\"\npattern = \"prbs13\"\n");
+  CHECK(nrz.signal->pattern == "prbs13");
+  // PRBS13Q is PRBS13's bits paired into Gray-coded PAM4 symbols, which is what prbs13 under
+  // PAM4 is here: the two names read the same.
+  const auto q = spec_of("[signal]\nbit_rate = \"53.125 GBd\"\nmodulation = \"pam4\"\npattern = \"PRBS13Q\"\n");
+  CHECK(q.signal->pattern == "prbs13");
+  CHECK(q.signal->modulation == "pam4");
+}
