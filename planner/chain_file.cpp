@@ -182,6 +182,26 @@ void read_input(Reader& reader, const toml::table& root, ChainSpec& spec) {
     spec.input_noise_density = reader.bounded(*n, Dimension::noise_density, "[input] noise_density", false);
 }
 
+// The input swing in the half circuit the stages describe. "20 mV" and "20 mVpp" are that
+// half circuit's peak-to-peak swing; "40 mVppd" is a differential peak-to-peak swing: each side
+// of a balanced pair swings half of it, so the half circuit sees 20 mV.
+std::optional<double> read_swing(Reader& reader, const toml::node& node) {
+  const std::string text = node.is_string() ? node.as_string()->get() : std::string();
+  const bool differential = text.ends_with("ppd");
+  const bool peak_to_peak = !differential && text.ends_with("pp");
+  if (!differential && !peak_to_peak) return reader.bounded(node, Dimension::voltage, "[signal] swing", true);
+  const std::string volts = text.substr(0, text.size() - (differential ? 3 : 2));
+  const auto parsed = parse_quantity(volts, Dimension::voltage);
+  const std::string why = !parsed.value        ? parsed.error + " (a peak-to-peak voltage: \"20 mVpp\", or \"40 mVppd\" differential)"
+                          : *parsed.value <= 0 ? "must be positive, saw \"" + text + "\""
+                                               : implausibility(*parsed.value * (differential ? 0.5 : 1.0), Dimension::voltage);
+  if (!why.empty()) {
+    reader.error(node, "[signal] swing: " + why);
+    return std::nullopt;
+  }
+  return *parsed.value * (differential ? 0.5 : 1.0);
+}
+
 void read_signal(Reader& reader, const toml::table& root, ChainSpec& spec) {
   const auto* t = sub_table(reader, root, "signal");
   if (!t) return;
@@ -222,8 +242,7 @@ void read_signal(Reader& reader, const toml::table& root, ChainSpec& spec) {
     }
   if (const auto* n = t->get("input_rise"))
     signal.input_rise = reader.bounded(*n, Dimension::time, "[signal] input_rise", false);
-  if (const auto* n = t->get("swing"))
-    signal.swing = reader.bounded(*n, Dimension::voltage, "[signal] swing", true);
+  if (const auto* n = t->get("swing")) signal.swing = read_swing(reader, *n);
   if (const auto* n = t->get("target_ber")) {
     const auto v = reader.quantity(*n, Dimension::dimensionless, "[signal] target_ber");
     if (v && (*v <= 0.0 || *v >= 0.5))

@@ -50,3 +50,18 @@ TEST_CASE("chain values: PRBS13, and PRBS13Q for PAM4, the usual PAM4 test patte
   CHECK(q.signal->pattern == "prbs13");
   CHECK(q.signal->modulation == "pam4");
 }
+
+TEST_CASE("chain values: a swing in Vpp is the half circuit's, in Vppd the differential one, halved") {
+  // derived: a balanced pair driven by 40 mV peak-to-peak differential swings 20 mV on each side,
+  // and the stages are described by that half circuit.
+  CHECK(*spec_of("[signal]\nbit_rate = \"25 Gb/s\"\nswing = \"20 mV\"\n").signal->swing == doctest::Approx(0.020));
+  CHECK(*spec_of("[signal]\nbit_rate = \"25 Gb/s\"\nswing = \"20 mVpp\"\n").signal->swing == doctest::Approx(0.020));
+  CHECK(*spec_of("[signal]\nbit_rate = \"25 Gb/s\"\nswing = \"40 mVppd\"\n").signal->swing == doctest::Approx(0.020));
+  CHECK(*spec_of("[signal]\nbit_rate = \"25 Gb/s\"\nswing = \"0.8 Vppd\"\n").signal->swing == doctest::Approx(0.4));
+  peakplan::Diagnostics d("values.toml");
+  CHECK_FALSE(peakplan::parse_chain_spec("[signal]\nbit_rate = \"25 Gb/s\"\nswing = \"40 mApp\"\n[[stage]]\nid = \"a\"\n"
+                                         "kind = \"plain\"\ngm = \"40 mS\"\nrd = \"100 ohm\"\n", d));
+  REQUIRE_FALSE(d.list().empty());
+  CHECK(d.list().front().format().find("[signal] swing") != std::string::npos);
+  CHECK(d.list().front().format().find("3:9") != std::string::npos);
+}
