@@ -145,7 +145,7 @@ ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) 
       const ChainNoise noise(chain, out, options.noise);
       eye.noise = summarise_noise(noise);
       if (options.swing_given)
-        eye.statistical = statistical_eye(eye.estimate.pulse, eye.estimate.prbs, signal, eye.noise.output_rms_v);
+        eye.statistical = statistical_eye(eye.estimate.pulse, eye.estimate.prbs, signal, eye.noise.differential_rms_v);
       summary.eye = std::move(eye);
       if (options.large_signal && options.swing_given && chain.has_limited_stage())
         summary.large_signal = large_signal_eye(chain, out, signal);

@@ -151,6 +151,7 @@ NoiseSummary summarise_noise(const ChainNoise& noise) {
     total = integrate_psd(psd, f_lo, f_hi);
   }
   r.output_rms_v = std::sqrt(total);
+  r.differential_rms_v = std::sqrt(2.0) * r.output_rms_v;
   r.integration_limit_hz = f_hi;
   r.noise_bandwidth_hz = noise_bandwidth(noise.cascade());
   r.equivalent_input_density = r.output_rms_v / (std::fabs(noise.dc_gain()) * std::sqrt(r.noise_bandwidth_hz));

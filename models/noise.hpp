@@ -81,7 +81,10 @@ std::vector<NoisePoint> noise_spectrum(const ChainNoise& noise, const FrequencyG
 struct NoiseSummary {
   // sqrt of the output PSD integrated over (0, inf); +inf when it is not band-limited (a white
   // input density through a chain with a direct path).
-  double output_rms_v = 0.0;
+  double output_rms_v = 0.0;  // of one half circuit, the circuit the stages describe
+  // The differential output's: the two halves' noise is uncorrelated, so sqrt(2) x output_rms_v.
+  // It is the noise beside the differential swing and eye in Q and BER.
+  double differential_rms_v = 0.0;
   double noise_bandwidth_hz = 0.0;  // integral of |H/H(0)|^2 df
   // The white source density that would give the same output rms: output_rms / (|H(0)| sqrt(NBW)).
   double equivalent_input_density = 0.0;

@@ -75,6 +75,7 @@ nlohmann::json eye_json(const EyeSummary& eye, const Signal& signal) {
 
 nlohmann::json noise_json(const NoiseSummary& n) {
   return {{"output_rms_v", number(n.output_rms_v)},
+          {"differential_rms_v", number(n.differential_rms_v)},
           {"noise_bandwidth_hz", number(n.noise_bandwidth_hz)},
           {"input_density_v_rthz", number(n.equivalent_input_density)}};
 }

@@ -173,3 +173,29 @@ TEST_CASE("noise: an output that is not a stage is rejected") {
   const Chain chain = one_stage(plain(0.02, 200.0, 25e-15), 0.0);
   CHECK_THROWS_AS(ChainNoise(chain, 3), std::logic_error);
 }
+
+TEST_CASE("noise: Q sets the differential eye against the differential noise, sqrt(2) x one half circuit's") {
+  // derived: the chain file's swing and eye heights are differential (docs/chain-format.md), the
+  // stages are half circuits, and the two halves' noise is uncorrelated, so the differential
+  // output noise is sqrt(2) x the half circuit's and Q = eye_d / (2 sqrt(2) sigma_half).
+  // Plain stage: gm 20 mS, Rd 100 ohm, 60 fF total (the half circuit's kT/C noise, about 0.26 mV).
+  const Chain chain = one_stage(plain(20e-3, 100.0, 10e-15), 50e-15);
+  AnalysisOptions options;
+  Signal signal;
+  signal.bit_rate = 10e9;
+  signal.swing = 0.01;
+  options.signal = signal;
+  options.swing_given = true;
+  const auto analysis = analyze_chain(chain, options);
+  const auto& eye = *analysis.outputs.back().eye;
+  const double half = eye.noise.output_rms_v;
+  CHECK(eye.noise.differential_rms_v == doctest::Approx(std::sqrt(2.0) * half).epsilon(1e-15));
+  // derived (kT/C, DESIGN.md section 2 by equipartition, with the gm cell's 4kT gamma gm on
+  // top): the half circuit's noise is at least sqrt(kT/C) of its 60 fF.
+  CHECK(half >= std::sqrt(boltzmann * 300.0 / 60e-15) * 0.999);
+  REQUIRE(eye.statistical);
+  const auto& st = *eye.statistical;
+  CHECK(st.noise_rms_v == doctest::Approx(eye.noise.differential_rms_v).epsilon(1e-15));
+  const double inner_v = eye.estimate.prbs.eye.height * st.ideal_eye_v;
+  CHECK(st.q == doctest::Approx(inner_v / (2.0 * std::sqrt(2.0) * half)).epsilon(1e-12));
+}
