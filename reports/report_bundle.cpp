@@ -53,6 +53,7 @@ std::vector<ReportFile> build_report(const ReportSource& source, const Chain& ch
 
   NetlistOptions netlist;
   netlist.bandwidth_hz = analysis.outputs.back().response.frequency.bandwidth_hz;
+  if (const auto signal = analysis_options(spec).signal) netlist.edge_tau_s = netlist_edge_tau(*signal);
   files.push_back({"chain.cir", write_spice_netlist(chain, netlist)});
   return files;
 }
