@@ -20,7 +20,8 @@ ResponseSummary summarise_rational_only(const Cascade& cascade, const AnalysisOp
 }  // namespace
 
 ResponseSummary summarise(const Cascade& cascade, const std::vector<const NodalSystem*>& exact,
-                          const AnalysisOptions& options, std::optional<std::pair<double, double>> span) {
+                          const AnalysisOptions& options, std::optional<std::pair<double, double>> span,
+                          const SampledResponse* presampled) {
   ResponseSummary r;
   r.frequency = frequency_metrics(cascade, options.ripple_band_hz);
   r.poles = cascade.poles();
@@ -32,7 +33,10 @@ ResponseSummary summarise(const Cascade& cascade, const std::vector<const NodalS
     r.step_wave = std::move(wave);
     const auto [f_lo, f_hi] = span ? *span : natural_span(cascade, 1.0);
     const auto grid = FrequencyGrid::log(f_lo, f_hi, std::max(2, options.points));
-    r.sampled = exact.empty() ? sample_rational(cascade, grid) : sample_nodal(exact, grid);
+    if (presampled && presampled->frequency_hz == grid.hz())
+      r.sampled = *presampled;
+    else
+      r.sampled = exact.empty() ? sample_rational(cascade, grid) : sample_nodal(exact, grid);
   }
   return r;
 }
@@ -81,6 +85,9 @@ ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) 
     if (driven_through_source) include(source_system.rational());
     if (all.first < all.second) span = all;
   }
+  std::optional<SampledResponse> source_sampled;
+  if (driven_through_source && span)
+    source_sampled = sample_nodal({&source_system}, FrequencyGrid::log(span->first, span->second, std::max(2, options.points)));
 
   for (size_t i = 0; i < chain.stages.size(); ++i) {
     StageSummary stage;
@@ -124,11 +131,17 @@ ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) 
       cascade.append(source_system.rational());
       exact.push_back(&source_system);
     }
+    // The stages alone were sampled on the same grid: their product is the cascade's sample.
+    std::vector<const SampledResponse*> samples;
+    if (driven_through_source && options.keep_waveforms) samples.push_back(&*source_sampled);
     for (int s : chain.path_to(out)) {
       cascade.append(rationals[static_cast<size_t>(s)]);
       exact.push_back(&systems[static_cast<size_t>(s)]);
+      samples.push_back(&result.stages[static_cast<size_t>(s)].alone.sampled);
     }
-    OutputSummary summary{out, summarise(cascade, exact, options, span), std::nullopt, std::nullopt};
+    const auto presampled = options.keep_waveforms && span ? std::optional(in_series(samples)) : std::nullopt;
+    OutputSummary summary{out, summarise(cascade, exact, options, span, presampled ? &*presampled : nullptr),
+                          std::nullopt, std::nullopt};
     if (options.signal) {
       const Signal& signal = *options.signal;
       EyeSummary eye;

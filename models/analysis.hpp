@@ -83,10 +83,12 @@ struct ChainAnalysis {
 
 // `span` (Hz, lo and hi) is where the kept frequency response is sampled; by default the
 // cascade's own natural span. analyze_chain gives every response of a chain one span, so that
-// plots overlay them from edge to edge.
+// plots overlay them from edge to edge. `presampled`, when given, is that sampled response
+// already (the product of the blocks' own samples on the same grid), and nothing is solved again.
 ResponseSummary summarise(const Cascade& cascade, const std::vector<const NodalSystem*>& exact,
                           const AnalysisOptions& options,
-                          std::optional<std::pair<double, double>> span = std::nullopt);
+                          std::optional<std::pair<double, double>> span = std::nullopt,
+                          const SampledResponse* presampled = nullptr);
 ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options = {});
 
 // Max |Z_in / Rd - 1| of a stage's load seen from the drain without c_out, up to f_max.
