@@ -6,6 +6,7 @@
 #include <numbers>
 
 #include "models/eye_overlay.hpp"
+#include "models/parallel.hpp"
 #include "models/peaking_design.hpp"
 
 namespace peakplan {
@@ -89,7 +90,10 @@ ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) 
   if (driven_through_source && span)
     source_sampled = sample_nodal({&source_system}, FrequencyGrid::log(span->first, span->second, std::max(2, options.points)));
 
-  for (size_t i = 0; i < chain.stages.size(); ++i) {
+  // Every stage alone is independent of the others: in parallel, each into its own slot, so the
+  // result does not depend on the thread count.
+  result.stages.resize(chain.stages.size());
+  parallel_for(chain.stages.size(), options.threads, [&](size_t i) {
     StageSummary stage;
     stage.stage = static_cast<int>(i);
     stage.alone = summarise(Cascade({rationals[i]}), {&systems[i]}, options, span);
@@ -114,8 +118,8 @@ ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) 
           input_impedance_error(s.circuit, 3.0 * check.ideal_bandwidth_hz);
       stage.design_check = check;
     }
-    result.stages.push_back(std::move(stage));
-  }
+    result.stages[i] = std::move(stage);
+  });
 
   for (size_t i = 0; i < chain.stages.size(); ++i) {
     Cascade cascade;
@@ -140,23 +144,30 @@ ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) 
       samples.push_back(&result.stages[static_cast<size_t>(s)].alone.sampled);
     }
     const auto presampled = options.keep_waveforms && span ? std::optional(in_series(samples)) : std::nullopt;
-    OutputSummary summary{out, summarise(cascade, exact, options, span, presampled ? &*presampled : nullptr),
-                          std::nullopt, std::nullopt};
+    OutputSummary summary{out, {}, std::nullopt, std::nullopt};
+    EyeSummary eye;
+    // Three independent parts, each into its own slot: the response, the eye and the noise.
+    parallel_for(options.signal ? 3 : 1, options.threads, [&](size_t part) {
+      if (part == 0) {
+        summary.response = summarise(cascade, exact, options, span, presampled ? &*presampled : nullptr);
+      } else if (part == 1) {
+        const Signal& signal = *options.signal;
+        if (options.keep_waveforms) {
+          // Measure and draw the eye from one overlay.
+          eye.estimate.pulse = pulse_response(cascade, signal);
+          const EyeOverlay built(eye.estimate.pulse, signal);
+          eye.estimate.pda = built.pda;
+          eye.estimate.prbs = prbs_eye(eye.estimate.pulse, signal, built);
+          eye.traces = eye_traces(eye.estimate.pulse, eye.estimate.prbs, signal, built);
+        } else {
+          eye.estimate = estimate_eye(cascade, signal);
+        }
+      } else {
+        eye.noise = summarise_noise(ChainNoise(chain, out, options.noise));
+      }
+    });
     if (options.signal) {
       const Signal& signal = *options.signal;
-      EyeSummary eye;
-      if (options.keep_waveforms) {
-        // Measure and draw the eye from one overlay.
-        eye.estimate.pulse = pulse_response(cascade, signal);
-        const EyeOverlay built(eye.estimate.pulse, signal);
-        eye.estimate.pda = built.pda;
-        eye.estimate.prbs = prbs_eye(eye.estimate.pulse, signal, built);
-        eye.traces = eye_traces(eye.estimate.pulse, eye.estimate.prbs, signal, built);
-      } else {
-        eye.estimate = estimate_eye(cascade, signal);
-      }
-      const ChainNoise noise(chain, out, options.noise);
-      eye.noise = summarise_noise(noise);
       if (options.swing_given)
         eye.statistical = statistical_eye(eye.estimate.pulse, eye.estimate.prbs, signal, eye.noise.differential_rms_v);
       summary.eye = std::move(eye);

@@ -27,6 +27,9 @@ struct AnalysisOptions {
   // With a signal, a swing and a limited stage on the path: the large-signal eye per output.
   bool large_signal = true;
   NoiseOptions noise;
+  // Threads for the independent parts (the stages alone, an output's eye beside its noise); the
+  // results are the same for every count. 1 inside loops that are parallel already.
+  int threads = 1;
 };
 
 struct EyeSummary {

@@ -37,7 +37,8 @@ int run_analyze(const AnalyzeArgs& args) {
     std::cerr << diagnostics.format();
     return bad_input;
   }
-  const auto options = analysis_options(*spec, args.points);
+  auto options = analysis_options(*spec, args.points);
+  options.threads = default_thread_count();
   const auto analysis = analyze_chain(*chain, options);
   std::optional<VariationResult> variation;
   if (spec->variation) {

@@ -60,9 +60,11 @@ void full_analysis_prbs7(benchmark::State& state) {
   signal.swing = 0.02;
   options.signal = signal;
   options.swing_given = true;
+  options.threads = static_cast<int>(state.range(0));
   for (auto _ : state) benchmark::DoNotOptimize(peakplan::analyze_chain(chain, options));
 }
-BENCHMARK(full_analysis_prbs7)->Unit(benchmark::kMillisecond);
+// Argument: threads (analyze uses every core).
+BENCHMARK(full_analysis_prbs7)->Arg(1)->Arg(2)->Unit(benchmark::kMillisecond)->UseRealTime();
 
 // The eye and its noise without a swing: no Q, BER or eye at the BER (the statistical eye).
 void full_analysis_prbs7_no_swing(benchmark::State& state) {
