@@ -172,7 +172,12 @@ NoiseSummary summarise_noise(const ChainNoise& noise) {
   auto [f_lo, f_hi] = natural_span(noise.cascade(), 3.0);
   // A generator may see a mode the signal path cancels; if the PSD still falls slowly at the
   // end of the span, the span grows (up to six decades) before the tail is trusted.
-  const auto psd = [&](double f) { return noise.output_psd(f); };
+  const double fr = noise.options().receiver_bandwidth_hz;
+  const auto psd = [&](double f) {
+    const double psd_out = noise.output_psd(f);
+    return fr > 0.0 ? psd_out / (1.0 + (f / fr) * (f / fr)) : psd_out;
+  };
+  r.receiver_bandwidth_hz = fr;
   double total = integrate_psd(psd, f_lo, f_hi);
   for (int extra = 0; extra < 6 && !std::isfinite(total); ++extra) {
     f_hi *= 10.0;

@@ -23,7 +23,7 @@ const Keys kTopKeys{"chain", "input", "signal", "target", "limits", "technology"
                  "variation"};
 const Keys kChainKeys{"name"};
 const Keys kInputKeys{"r_source", "noise_density"};
-const Keys kSignalKeys{"bit_rate", "modulation", "pattern", "input_rise", "swing", "target_ber"};
+const Keys kSignalKeys{"bit_rate", "modulation", "pattern", "input_rise", "swing", "target_ber", "receiver_bandwidth"};
 const Keys kTargetKeys{"gain", "bandwidth", "gain_bandwidth", "objective", "plan_for"};
 const Keys kLimitsKeys{"overshoot", "peaking", "group_delay_ripple", "ripple_band"};
 const Keys kTechnologyKeys{"ft", "c_out_ratio", "inductor_q", "max_inductance", "k_range",
@@ -241,6 +241,8 @@ void read_signal(Reader& reader, const toml::table& root, ChainSpec& spec) {
   if (const auto* n = t->get("input_rise"))
     signal.input_rise = reader.bounded(*n, Dimension::time, "[signal] input_rise", false);
   if (const auto* n = t->get("swing")) signal.swing = read_swing(reader, *n);
+  if (const auto* n = t->get("receiver_bandwidth"))
+    signal.receiver_bandwidth = reader.bounded(*n, Dimension::frequency, "[signal] receiver_bandwidth", true);
   if (const auto* n = t->get("target_ber")) {
     const auto v = reader.quantity(*n, Dimension::dimensionless, "[signal] target_ber");
     if (v && (*v <= 0.0 || *v >= 0.5))

@@ -76,6 +76,7 @@ nlohmann::json eye_json(const EyeSummary& eye, const Signal& signal) {
 nlohmann::json noise_json(const NoiseSummary& n) {
   return {{"output_rms_v", number(n.output_rms_v)},
           {"differential_rms_v", number(n.differential_rms_v)},
+          {"receiver_bandwidth_hz", n.receiver_bandwidth_hz > 0.0 ? number(n.receiver_bandwidth_hz) : nlohmann::json(nullptr)},
           {"noise_bandwidth_hz", number(n.noise_bandwidth_hz)},
           {"input_density_v_rthz", number(n.equivalent_input_density)}};
 }

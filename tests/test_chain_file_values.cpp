@@ -65,3 +65,9 @@ TEST_CASE("chain values: a swing may be written in mVpp or mVppd; it is the diff
   CHECK(d.list().front().format().find("[signal] swing") != std::string::npos);
   CHECK(d.list().front().format().find("3:9") != std::string::npos);
 }
+
+TEST_CASE("chain values: [signal] receiver_bandwidth is a frequency") {
+  const auto spec = spec_of("[signal]\nbit_rate = \"56 Gb/s\"\nreceiver_bandwidth = \"42 GHz\"\n");
+  REQUIRE(spec.signal->receiver_bandwidth);
+  CHECK(*spec.signal->receiver_bandwidth == doctest::Approx(42e9));
+}

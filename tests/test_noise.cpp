@@ -199,3 +199,22 @@ TEST_CASE("noise: Q sets the differential eye against the differential noise, sq
   const double inner_v = eye.estimate.prbs.eye.height * st.ideal_eye_v;
   CHECK(st.q == doctest::Approx(inner_v / (2.0 * std::sqrt(2.0) * half)).epsilon(1e-12));
 }
+
+TEST_CASE("noise: a receiver bandwidth limits the noise behind Q as a first-order filter") {
+  // derived: a plain stage's output noise is S0 |1/(1 + j f/fc)|^2 with S0 = 4kT (1/Rd + gamma
+  // gm) Rd^2 and fc = 1/(2 pi Rd C); behind the receiver's 1/(1 + (f/fr)^2) the mean square is
+  // S0 int df / ((1 + f^2/fc^2)(1 + f^2/fr^2)) = S0 (pi/2) fc fr / (fc + fr).
+  const double gm = 20e-3, rd = 100.0, c = 60e-15, fr = 5e9;
+  const Chain chain = one_stage(plain(gm, rd, 10e-15), 50e-15);
+  NoiseOptions options;
+  options.receiver_bandwidth_hz = fr;
+  const auto limited = summarise_noise(ChainNoise(chain, 0, options));
+  const double fc = 1.0 / (2.0 * kPi * rd * c);
+  const double s0 = 4.0 * boltzmann * 300.0 * (1.0 / rd + gm) * rd * rd;
+  CHECK(limited.output_rms_v * limited.output_rms_v ==
+        doctest::Approx(s0 * kPi / 2.0 * fc * fr / (fc + fr)).epsilon(kQuadrature));
+  CHECK(limited.receiver_bandwidth_hz == fr);
+  // Without it, the chain's own kT/C-like total: S0 (pi/2) fc.
+  const auto open = summarise_noise(ChainNoise(chain, 0, NoiseOptions{}));
+  CHECK(open.output_rms_v * open.output_rms_v == doctest::Approx(s0 * kPi / 2.0 * fc).epsilon(kQuadrature));
+}
