@@ -6,7 +6,8 @@
 // (exact for a linear chain), summed in blocks of one UI with cursors j ascending and zero
 // symbols skipped. Patterns whose period fits max_overlay_symbols are their exact periodic
 // steady state (circular superposition); longer ones are truncated to max_overlay_symbols
-// symbols, started from the register's seed after pulse.ui_count + 2 symbols of history.
+// symbols, started half a period into the sequence (prbs_typical_start), after pulse.ui_count + 2
+// symbols of history.
 //
 // Sample positions: symbol i (0 .. count-1) is the i-th overlaid symbol; its sampling instant is
 // pda.sample_time_s after the start of its pulse, and its trace spans offsets o = -n .. n
@@ -33,7 +34,7 @@ class PatternOverlay {
   // models/large_signal.hpp), with `pda` of the linear pulse response as the sampling reference
   // and `span` its length in UI. `simulate` receives the symbol levels of the blocks
   // b0 - warm .. b1 - 1 in time order (one level per UI; wrapped for a periodic pattern, from
-  // the register's seed when truncated) and the number `warm` of leading blocks to discard, and
+  // half a period in when truncated) and the number `warm` of leading blocks to discard, and
   // returns the waveform (levels 0..1) over blocks b0 .. b1 - 1, steps_per_ui samples each.
   // warm is span + 2 for a periodic pattern (the memory the pulse response spans), and every
   // block ahead of b0 when truncated.

@@ -54,8 +54,39 @@ int PrbsGenerator::next() {
   return static_cast<int>(bit);
 }
 
-std::vector<std::uint8_t> prbs_bits(PrbsKind kind, std::size_t count) {
+void PrbsGenerator::jump(std::uint64_t steps) {
+  // Column j of the step matrix is the state one step after the unit state e_j; a matrix is
+  // kept as its columns (bit masks), and applying it XORs the columns of the set bits.
+  const int n = std::popcount(mask_);
+  using Matrix = std::vector<std::uint32_t>;
+  auto apply = [&](const Matrix& m, std::uint32_t v) {
+    std::uint32_t out = 0;
+    for (int j = 0; j < n; ++j)
+      if ((v >> j) & 1u) out ^= m[static_cast<size_t>(j)];
+    return out;
+  };
+  auto times = [&](const Matrix& a, const Matrix& b) {  // a * b, column by column
+    Matrix c(static_cast<size_t>(n));
+    for (int j = 0; j < n; ++j) c[static_cast<size_t>(j)] = apply(a, b[static_cast<size_t>(j)]);
+    return c;
+  };
+  Matrix step(static_cast<size_t>(n));
+  for (int j = 0; j < n; ++j) {
+    const std::uint32_t e = std::uint32_t{1} << j;
+    const auto bit = static_cast<std::uint32_t>(std::popcount(e & taps_) & 1);
+    step[static_cast<size_t>(j)] = ((e << 1) | bit) & mask_;
+  }
+  for (; steps > 0; steps >>= 1) {
+    if (steps & 1u) state_ = apply(step, state_);
+    step = times(step, step);
+  }
+}
+
+std::uint64_t prbs_typical_start(PrbsKind kind) { return prbs_period(kind) / 2; }
+
+std::vector<std::uint8_t> prbs_bits(PrbsKind kind, std::size_t count, std::uint64_t start) {
   PrbsGenerator gen(kind);
+  gen.jump(start);
   std::vector<std::uint8_t> bits(count);
   for (auto& b : bits) b = static_cast<std::uint8_t>(gen.next());
   return bits;

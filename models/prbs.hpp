@@ -32,6 +32,9 @@ class PrbsGenerator {
  public:
   explicit PrbsGenerator(PrbsKind kind);
   int next();  // 0 or 1
+  // Advances the register by `steps` bits at once (the step is linear over GF(2): its matrix
+  // raised to `steps` by repeated squaring), as if next() had been called that many times.
+  void jump(std::uint64_t steps);
   std::uint32_t state() const { return state_; }
 
  private:
@@ -40,8 +43,11 @@ class PrbsGenerator {
   std::uint32_t taps_;  // bit k-1 set for each power k: the feedback is their parity
 };
 
-// The first `count` bits of the sequence.
-std::vector<std::uint8_t> prbs_bits(PrbsKind kind, std::size_t count);
+// `count` bits of the sequence from bit `start` (0: right after the all-ones seed).
+std::vector<std::uint8_t> prbs_bits(PrbsKind kind, std::size_t count, std::uint64_t start = 0);
+// Where a stretch of a pattern too long to overlay whole starts: half a period in, far from the
+// seed's run of zeros (x^31 + x^28 + 1 begins with 28 of them), so the stretch is a typical one.
+std::uint64_t prbs_typical_start(PrbsKind kind);
 
 // NRZ levels: bit 0 -> 0, bit 1 -> 1.
 std::vector<double> nrz_levels(const std::vector<std::uint8_t>& bits);

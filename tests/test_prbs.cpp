@@ -158,3 +158,27 @@ TEST_CASE("prbs: PAM4 from prbs7 uses each level a quarter of the time") {
   CHECK(count[2] == 32);
   CHECK(count[3] == 32);
 }
+
+TEST_CASE("prbs: jumping ahead equals stepping, and a stretch of a long pattern starts half a period in") {
+  // derived: the register's step is linear over GF(2), so k steps are its matrix to the k.
+  for (const auto kind : {PrbsKind::prbs9, PrbsKind::prbs13, PrbsKind::prbs23}) {
+    PrbsGenerator stepped(kind), jumped(kind);
+    for (int i = 0; i < 100003; ++i) stepped.next();
+    jumped.jump(100003);
+    CHECK(jumped.state() == stepped.state());
+    PrbsGenerator around(kind);
+    const auto seed = around.state();
+    around.jump(prbs_period(kind));  // a whole period returns to the seed
+    CHECK(around.state() == seed);
+  }
+  CHECK(prbs_typical_start(PrbsKind::prbs31) == (prbs_period(PrbsKind::prbs31) / 2));
+  // x^31 + x^28 + 1 from all ones begins with 28 zeros (s[j] = 1 ^ 1 until the first zero
+  // reaches b27); half a period in, a stretch has no run that long among its first 4096 bits
+  // (a run of 28 zeros appears once per period of 2^31 - 1 bits: the run postulate).
+  const auto start = prbs_bits(PrbsKind::prbs31, 28);
+  CHECK(std::all_of(start.begin(), start.end(), [](auto b) { return b == 0; }));
+  const auto typical = prbs_bits(PrbsKind::prbs31, 4096, prbs_typical_start(PrbsKind::prbs31));
+  int run = 0, longest = 0;
+  for (auto b : typical) longest = std::max(longest, run = b == 0 ? run + 1 : 0);
+  CHECK(longest < 28);
+}
