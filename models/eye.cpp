@@ -167,6 +167,17 @@ PrbsEye prbs_eye(const PulseResponse& pulse, const Signal& signal, const EyeOver
     };
   };
   r.eye = opening(worst(eye_height), worst(eye_margin));
+  {
+    const int best = static_cast<int>(std::lround(r.eye.best_offset_s / pulse.dt()));
+    std::vector<double> thresholds;
+    for (int e = 0; e < eyes; ++e) thresholds.push_back(envelope.centre(e, best));
+    auto margin = [&](int o) {  // where every eye is open at its own centred threshold
+      double v = std::numeric_limits<double>::infinity();
+      for (int e = 0; e < eyes; ++e) v = std::min(v, envelope.margin_to(e, o, thresholds[static_cast<size_t>(e)]));
+      return v;
+    };
+    r.width_centred_ui = margin(best) > 0.0 ? open_span(margin, best, -n, n) / n : 0.0;
+  }
   for (int e = 0; e < eyes; ++e)
     if (r.eyes[static_cast<size_t>(e)].height < r.eyes[static_cast<size_t>(r.worst_eye)].height) r.worst_eye = e;
   r.sample_time_s = pda.sample_time_s + r.eye.best_offset_s;

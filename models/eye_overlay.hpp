@@ -85,10 +85,13 @@ struct OverlayEnvelope {
   // Eye e's inner opening and its margin to the eye's decision threshold (2e + 1) / (2 eyes),
   // both as fractions of the ideal eye (1/eyes of the swing), at offset o.
   double height(int e, long o) const { return eyes * (lo[slot(e + 1, o)] - hi[slot(e, o)]); }
-  double margin(int e, long o) const {
-    const double threshold = (2.0 * e + 1.0) / (2.0 * eyes);
+  double margin(int e, long o) const { return margin_to(e, o, (2.0 * e + 1.0) / (2.0 * eyes)); }
+  // The same margin to any threshold (levels 0..1).
+  double margin_to(int e, long o, double threshold) const {
     return eyes * std::min(lo[slot(e + 1, o)] - threshold, threshold - hi[slot(e, o)]);
   }
+  // The middle of eye e's opening at offset o: an adaptive slicer's threshold.
+  double centre(int e, long o) const { return 0.5 * (lo[slot(e + 1, o)] + hi[slot(e, o)]); }
 };
 
 // The overlay of one pulse response and its envelope: what prbs_eye measures and eye_traces

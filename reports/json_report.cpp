@@ -51,6 +51,7 @@ nlohmann::json eye_json(const EyeSummary& eye, const Signal& signal) {
                    {"sample_time_s", number(pda.sample_time_s)},
                    {"prbs_height", number(prbs.eye.height)},
                    {"prbs_width_ui", number(prbs.eye.width_ui)},
+                   {"prbs_width_centred_ui", number(prbs.width_centred_ui)},
                    {"open_span_ui", number(prbs.eye.open_span_ui)},
                    {"prbs_sample_time_s", number(prbs.sample_time_s)},
                    {"ddj_pp_s", number(prbs.ddj_pp_s)},

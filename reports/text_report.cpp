@@ -85,6 +85,10 @@ std::string analysis_text(const Chain& chain, const ChainAnalysis& analysis) {
                        format_si(e.noise.noise_bandwidth_hz, "Hz"),
                        e.statistical ? show_q(e.statistical->q) : "-",
                        e.statistical ? show_ber(e.statistical->ber) : "-");
+    if (p.modulation == Modulation::pam4)
+      out += fmt::format("  note: PAM4 width {:.3f} UI at the nominal thresholds (1/6, 1/2, 5/6), {:.3f} UI at thresholds "
+                         "centred in each eye; Q and BER use the threshold-free statistical eye\n",
+                         p.eye.width_ui, p.width_centred_ui);
     if (p.pattern_truncated)
       out += fmt::format("  note: the pattern is longer than the simulation bound; {} symbols were overlaid\n",
                          p.symbols_overlaid);
