@@ -55,6 +55,7 @@ double input_impedance_error(const StageCircuit& stage, double f_max_hz) {
 
 ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) {
   ChainAnalysis result;
+  result.signal = options.signal;
   std::vector<NodalSystem> systems;
   std::vector<Rational> rationals;
   systems.reserve(chain.stages.size());

@@ -82,6 +82,7 @@ struct OutputSummary {
 struct ChainAnalysis {
   std::vector<StageSummary> stages;   // file order
   std::vector<OutputSummary> outputs; // main output last
+  std::optional<Signal> signal;       // what the eyes were computed for (AnalysisOptions::signal)
 };
 
 // `span` (Hz, lo and hi) is where the kept frequency response is sampled; by default the

@@ -151,8 +151,8 @@ nlohmann::json analysis_json(const Chain& chain, const ChainAnalysis& analysis, 
     nlohmann::json o;
     o["node"] = chain.stages[static_cast<size_t>(out.stage)].id;
     put_metrics(o, out.response);
-    if (out.eye && options.signal) {
-      o["eye"] = eye_json(*out.eye, *options.signal);
+    if (out.eye && analysis.signal) {
+      o["eye"] = eye_json(*out.eye, *analysis.signal);
       o["noise"] = noise_json(out.eye->noise);
     }
     if (out.large_signal) o["large_signal"] = large_signal_json(chain, *out.large_signal);

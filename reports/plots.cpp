@@ -274,7 +274,7 @@ PlotFile eye_plot(const Chain& chain, const ChainAnalysis& analysis) {
   const auto& prbs = eye.estimate.prbs;
   const bool pam4 = tr.modulation == Modulation::pam4;
   const double ui = tr.ui_s;
-  const double bit_rate = (pam4 ? 2.0 : 1.0) / ui;
+  const double bit_rate = analysis.signal ? analysis.signal->bit_rate : (pam4 ? 2.0 : 1.0) / ui;
   const double ideal_v = eye.statistical ? eye.statistical->ideal_eye_v : std::numeric_limits<double>::quiet_NaN();
 
   double lo = 0.0, hi = 1.0;

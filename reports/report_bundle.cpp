@@ -35,7 +35,7 @@ std::vector<ReportFile> build_report(const ReportSource& source, const Chain& ch
   files.push_back({"budget.md", std::move(markdown)});
   files.push_back({"budget.csv", budget_csv(budget)});
   const auto json = plan ? plan_json(spec, *plan->plan, analysis)
-                         : analysis_json(chain, analysis, {true, analysis_options(spec).signal});
+                         : analysis_json(chain, analysis);
   files.push_back({"result.json", json.dump(2) + "\n"});
 
   auto plots = chain_plots(chain, analysis);
@@ -53,7 +53,7 @@ std::vector<ReportFile> build_report(const ReportSource& source, const Chain& ch
 
   NetlistOptions netlist;
   netlist.bandwidth_hz = analysis.outputs.back().response.frequency.bandwidth_hz;
-  if (const auto signal = analysis_options(spec).signal) netlist.edge_tau_s = netlist_edge_tau(*signal);
+  if (analysis.signal) netlist.edge_tau_s = netlist_edge_tau(*analysis.signal);
   files.push_back({"chain.cir", write_spice_netlist(chain, netlist)});
   return files;
 }

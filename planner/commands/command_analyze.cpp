@@ -53,7 +53,7 @@ int run_analyze(const AnalyzeArgs& args) {
     variation = analyze_variation(*spec, *chain, run);
   }
   if (args.json) {
-    auto doc = analysis_json(*chain, analysis, {true, options.signal});
+    auto doc = analysis_json(*chain, analysis);
     if (variation) doc["variation"] = variation_json(*variation);
     print(doc.dump(2) + "\n");
   } else {
