@@ -68,6 +68,10 @@ struct LimitsSpec {
   std::optional<double> peaking_db;
   std::optional<double> group_delay_ripple;  // s
   std::optional<double> ripple_band;         // Hz
+  // The deepest in-band dip allowed, dB (a positive depth). Unset: plans use kDefaultSagDb and
+  // analyses check none. 3 dB or more allows any shape the first-crossing bandwidth allows.
+  std::optional<double> sag_db;
+  static constexpr double kDefaultSagDb = 1.0;
 };
 
 struct SignalSpec {
