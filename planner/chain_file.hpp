@@ -72,6 +72,10 @@ struct LimitsSpec {
   // analyses check none. 3 dB or more allows any shape the first-crossing bandwidth allows.
   std::optional<double> sag_db;
   static constexpr double kDefaultSagDb = 1.0;
+  // The least DC gain any planned stage may have, dB (negative allows a loss). Unset: plans use
+  // kDefaultMinStageGainDb (no planned loss), analyses check none.
+  std::optional<double> min_stage_gain_db;
+  static constexpr double kDefaultMinStageGainDb = 0.0;
 };
 
 struct SignalSpec {

@@ -371,3 +371,43 @@ TEST_CASE("planner: progress is reported as the search runs, in order, up to the
   CHECK(seen.back().stage != "design space");
   CHECK(seen.back().evaluations + 1 == plan->evaluations);
 }
+
+TEST_CASE("planner: no planned stage is a loss unless [limits] min_stage_gain allows it") {
+  // derived: for the widest bandwidth at 0 dB overall, the slow stage (200 fF) would rather lose
+  // gain and the fast one (10 fF) make it up, since a smaller Rd widens the slow pole; the 0 dB
+  // default floor forbids the loss, and a -40 dB floor allows it.
+  const std::string chain = R"(
+[target]
+objective = "widest"
+gain = "0 dB"
+[limits]
+FLOOR
+[[stage]]
+id = "a"
+kind = "plain"
+gm = "40 mS"
+rd = "auto"
+c_load = "200 fF"
+[[stage]]
+id = "b"
+kind = "plain"
+gm = "40 mS"
+rd = "auto"
+c_load = "10 fF"
+)";
+  auto with = [&](const std::string& floor) {
+    std::string text = chain;
+    text.replace(text.find("FLOOR"), 5, floor);
+    return plan_from(text);
+  };
+  const auto held = with("");
+  CHECK(held.termination == Plan::Termination::met);
+  for (const auto& s : held.chain.stages) CHECK(s.circuit.gm * s.circuit.rd >= 1.0 - 1e-4);
+  bool checked = false;
+  for (const auto& c : held.checks)
+    if (c.name == "min_stage_gain") checked = c.limit == 0.0 && c.met;
+  CHECK(checked);
+  const auto loose = with("min_stage_gain = \"-40 dB\"");
+  CHECK(loose.chain.stages[0].circuit.gm * loose.chain.stages[0].circuit.rd < 0.9);
+  CHECK(main_metrics(loose.chain).bandwidth_hz > main_metrics(held.chain).bandwidth_hz);
+}
