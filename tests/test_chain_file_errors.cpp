@@ -214,6 +214,11 @@ const std::vector<Fault>& faults() {
       {"limiting_mos_gm_beyond_tail.toml", "a MOS pair cannot give more gm than I_T/(2 V_T)", 8, 16,
        {"stage 'la1': tail_current 1.000 mA cannot give gm = 40.00 mS", "at most I_T/(2 V_T) = 19.34 mS",
         "expected at least 2.068 mA"}},
+      // Normalised designs decades outside any peaking design (found by fuzzing, tests/fuzz/).
+      {"shunt_m_implausible.toml", "m = 1e12 is outside the plausible range of a peaking design", 8, 5,
+       {"stage 'a1': m = 1e+12 is outside the plausible range 0.01 .. 10"}},
+      {"tcoil_zeta_implausible.toml", "zeta = 1e-9 is outside the plausible range of a peaking design", 8, 8,
+       {"stage 'a1': zeta = 1e-09 is outside the plausible range 0.1 .. 10"}},
       {"combinations_over_limit.toml", "six stages of any kind (4096 combinations) are reported at the sixth kind", 29, 8,
        {"stage 's6': the candidate kinds and counts open so far make 4096 combinations", "limit of 1024"}},
   };
