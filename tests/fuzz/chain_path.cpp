@@ -26,9 +26,10 @@ PathResult analyze_chain_text(std::string_view text, const std::vector<std::stri
     return result;
   }
   // As command_analyze.cpp does it, 201 points.
-  const auto options = analysis_options(*spec, 201);
+  auto options = analysis_options(*spec, 201);
+  options.threads = 1;  // the results are the same for any thread count; a fuzz run has one
   const auto analysis = analyze_chain(*chain, options);
-  auto doc = analysis_json(*chain, analysis, {true, options.signal});
+  auto doc = analysis_json(*chain, analysis);
   if (spec->variation) {
     VariationRunOptions run;
     run.samples = std::min(spec->variation->samples, kFuzzSamples);
