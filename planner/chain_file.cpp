@@ -475,7 +475,15 @@ void read_stage(Reader& reader, const toml::table& t, size_t index, ChainSpec& s
       if (!n || !seen.insert(p.key).second) continue;
       if (p.key == "m" || p.key == "zeta") {
         stage.design_where = position(n->source());
-        const auto v = reader.bounded(*n, Dimension::dimensionless, who + std::string(p.key), true);
+        auto v = reader.bounded(*n, Dimension::dimensionless, who + std::string(p.key), true);
+        // Decades past any peaking design: m = 1e12 makes an inductor of hundreds of henries,
+        // zeta = 1e-9 a coupling of -1 and infinite halves; the models cannot solve either.
+        const double lo = p.key == "m" ? kMinDesignM : kMinDesignZeta, hi = p.key == "m" ? kMaxDesignM : kMaxDesignZeta;
+        if (v && !(*v >= lo && *v <= hi)) {
+          reader.error(*n, fmt::format("{}{} = {} is outside the plausible range {:g} .. {:g} of a peaking design",
+                                       who, p.key, shown(*n), lo, hi));
+          v.reset();
+        }
         (p.key == "m" ? stage.m : stage.zeta) = v;
         if (!v) stage.values[std::string(p.key)] = {};  // remembered as seen, to report once
         continue;

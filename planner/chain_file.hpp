@@ -111,6 +111,11 @@ inline constexpr int64_t kMaxCount = 64;
 inline constexpr int64_t kMaxStageCopies = 256;
 inline constexpr int64_t kMaxCombinations = 1024;
 
+// Plausible ranges of the normalised designs (docs/chain-format.md): shunt and series peaking
+// use m of 0.2 .. 0.7 and T-coils zeta of 0.5 .. 1.5; the bounds are decades wider.
+inline constexpr double kMinDesignM = 0.01, kMaxDesignM = 10.0;
+inline constexpr double kMinDesignZeta = 0.1, kMaxDesignZeta = 10.0;
+
 // Parses and validates one chain file. `display_name` is the name errors carry (the path as
 // the user gave it). Returns nullopt when there were errors; they are in `diagnostics`.
 std::optional<ChainSpec> load_chain_spec(const std::string& path, Diagnostics& diagnostics);
