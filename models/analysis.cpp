@@ -99,14 +99,14 @@ ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) 
     stage.stage = static_cast<int>(i);
     stage.alone = summarise(Cascade({rationals[i]}), {&systems[i]}, options, span);
     const auto& s = chain.stages[i];
-    if (s.intent.kind == DesignIntent::Kind::zeta && s.circuit.kind == LoadKind::tcoil) {
+    const auto& info = load_kind_info(s.circuit.kind);
+    if (s.intent.kind != DesignIntent::Kind::none && info.ideal_response) {
       AnalysisOptions bare;
       bare.points = 2;
       bare.ripple_band_hz = options.ripple_band_hz;
       bare.keep_waveforms = false;
       const auto ideal = summarise_rational_only(
-          Cascade({tcoil_ideal_response(s.circuit.gm, s.circuit.rd, s.circuit.c_node, s.circuit.k,
-                                        s.circuit.c_out)}),
+          Cascade({info.ideal_response(s.circuit)}),
           bare);
       DesignCheck check;
       check.label = s.intent.label;

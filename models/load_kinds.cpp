@@ -6,6 +6,7 @@
 namespace peakplan {
 namespace {
 
+// The table: one entry per kind, in the order kinds are listed to users.
 const std::array<const LoadKindInfo*, 4> kKinds{&plain_load, &shunt_load, &series_load,
                                                 &tcoil_load};
 
@@ -18,7 +19,11 @@ const LoadKindInfo& load_kind_info(LoadKind kind) {
 }
 
 std::span<const LoadKindInfo> all_load_kinds() {
-  static const std::array<LoadKindInfo, 4> copy{plain_load, shunt_load, series_load, tcoil_load};
+  static const auto copy = [] {
+    std::array<LoadKindInfo, kKinds.size()> a{};
+    for (size_t i = 0; i < kKinds.size(); ++i) a[i] = *kKinds[i];
+    return a;
+  }();
   return copy;
 }
 
@@ -29,6 +34,18 @@ std::optional<LoadKind> load_kind_from_name(std::string_view name) {
 }
 
 std::string_view to_string(LoadKind kind) { return load_kind_info(kind).name; }
+
+const LoadParameter* find_parameter(const LoadKindInfo& info, std::string_view key) {
+  for (const auto& p : info.parameters)
+    if (p.key == key) return &p;
+  return nullptr;
+}
+
+const LoadParameter* loss_of(const LoadKindInfo& info, std::string_view coil_key) {
+  for (const auto& p : info.parameters)
+    if (p.role == ParameterRole::loss && p.loss_of == coil_key) return &p;
+  return nullptr;
+}
 
 double output_node_capacitance(const StageCircuit& stage) {
   return stage.c_node + (load_kind_info(stage.kind).drain_is_output ? stage.c_out : 0.0);

@@ -23,8 +23,26 @@ int stamp_plain(const StageCircuit& s, NodalSystem& sys) {
   return drain;
 }
 
+void netlist_plain(const StageCircuit& s, ElementSink& w) {
+  w.gm_cell("out");
+  w.resistor("Rd", "out", "0", s.rd);
+  w.capacitor("Cout", "out", "0", s.c_out);
+}
+
+double dc_resistance_plain(const StageCircuit& s) { return s.rd; }
+
 }  // namespace
 
-const LoadKindInfo plain_load{LoadKind::plain, "plain", "resistor load Rd", {}, stamp_plain, /*drain_is_output=*/true};
+const LoadKindInfo plain_load{
+    .kind = LoadKind::plain,
+    .name = "plain",
+    .summary = "resistor load Rd",
+    .parameters = {},
+    .stamp = stamp_plain,
+    .drain_is_output = true,
+    .netlist_comment = "plain: Rd from the drain (= out) to the supply",
+    .netlist = netlist_plain,
+    .dc_resistance = dc_resistance_plain,
+};
 
 }  // namespace peakplan

@@ -13,15 +13,21 @@
 #include <array>
 
 #include "models/load_kinds.hpp"
+#include "models/peaking_design.hpp"
 
 namespace peakplan {
 namespace {
 
 constexpr std::array kParameters{
-    LoadParameter{"l", Dimension::inductance, "series inductor from the drain to the output"},
-    LoadParameter{"r_l", Dimension::resistance, "series resistance of the inductor"},
-    LoadParameter{"m", Dimension::dimensionless,
-                  "design factor L/(Rd^2 C), C = c_out + output-node capacitance; sets l"},
+    LoadParameter{.key = "l", .dimension = Dimension::inductance,
+                  .description = "series inductor from the drain to the output", .role = ParameterRole::element,
+                  .field = &StageCircuit::l, .label = "L", .plan_lo = 1e-12, .plan_hi = 2e-9,
+                  .technology = TechnologyBound::inductance},
+    LoadParameter{.key = "r_l", .dimension = Dimension::resistance, .description = "series resistance of the inductor",
+                  .role = ParameterRole::loss, .field = &StageCircuit::r_l, .loss_of = "l"},
+    LoadParameter{.key = "m", .dimension = Dimension::dimensionless,
+                  .description = "design factor L/(Rd^2 C), C = c_out + output-node capacitance; sets l",
+                  .role = ParameterRole::design},
 };
 
 int stamp_series(const StageCircuit& s, NodalSystem& sys) {
@@ -36,10 +42,41 @@ int stamp_series(const StageCircuit& s, NodalSystem& sys) {
   return out;
 }
 
+void netlist_series(const StageCircuit& s, ElementSink& w) {
+  w.gm_cell("drain");
+  w.resistor("Rd", "drain", "0", s.rd);
+  w.capacitor("Cout", "drain", "0", s.c_out);
+  w.inductor("L", "drain", "out", s.l, s.r_l);
+}
+
+double dc_resistance_series(const StageCircuit& s) { return s.rd; }
+
+std::string missing_series(const KeyGiven& given, bool designed) {
+  if (designed || given("l")) return {};
+  return "a series stage needs l (an inductance) or m (its design factor L/(Rd^2 C))";
+}
+
+double design_capacitance_series(const StageCircuit& s) { return s.c_out + s.c_node; }
+void design_series(StageCircuit& s, double m) { s.l = inductance_for_m(m, s.rd, design_capacitance_series(s)); }
+
 }  // namespace
 
-const LoadKindInfo series_load{LoadKind::series, "series",
-                               "Rd on the drain, series inductor to the output", kParameters,
-                               stamp_series};
+const LoadKindInfo series_load{
+    .kind = LoadKind::series,
+    .name = "series",
+    .summary = "Rd on the drain, series inductor to the output",
+    .parameters = kParameters,
+    .stamp = stamp_series,
+    .netlist_comment = "series: Rd on the drain, L from the drain to out",
+    .netlist = netlist_series,
+    .dc_resistance = dc_resistance_series,
+    .missing = missing_series,
+    .design = DesignFactor::m,
+    .design_lo = 0.05,
+    .design_hi = 1.5,
+    .design_seed = 0.5,
+    .apply_design = design_series,
+    .design_capacitance = design_capacitance_series,
+};
 
 }  // namespace peakplan

@@ -83,17 +83,17 @@ Chain apply_variation(const Chain& nominal, const VariationDraw& draw) {
     stage.c_in *= f_c;
     stage.c_load *= f_c;
     c.c_out *= f_c;
-    c.cb *= f_c;
-    c.c_w *= f_c;
-    c.l *= f_l;
-    c.l1 *= f_l;
-    c.l2 *= f_l;
     c.rd *= f_r;
     c.r_load *= f_r;  // an open load (infinity) stays open
-    c.r_l *= f_r;
-    c.r_l1 *= f_r;
-    c.r_l2 *= f_r;
-    c.k += o[index(VariationClass::coupling)];
+    // The kind's own elements by their dimension; the coupling factor moves by an offset.
+    for (const auto& p : load_kind_info(c.kind).parameters) {
+      if (!p.field || p.role == ParameterRole::alias) continue;
+      double& x = c.*p.field;
+      if (p.technology == TechnologyBound::coupling) x += o[index(VariationClass::coupling)];
+      else if (p.dimension == Dimension::capacitance) x *= f_c;
+      else if (p.dimension == Dimension::inductance) x *= f_l;
+      else if (p.dimension == Dimension::resistance) x *= f_r;
+    }
   }
   fill_node_capacitances(chain);
   return chain;

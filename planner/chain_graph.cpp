@@ -5,6 +5,7 @@
 #include <cmath>
 #include <fmt/format.h>
 #include <map>
+#include <set>
 
 #include "models/frequency_response.hpp"
 #include "models/peaking_design.hpp"
@@ -158,40 +159,53 @@ void apply_designs(Chain& chain, const ChainSpec& spec, const std::vector<GraphS
     } else {
       first = static_cast<int>(i);
     }
-    if (s.m && (c.kind == LoadKind::shunt || c.kind == LoadKind::series)) {
-      c.l = inductance_for_m(*s.m, c.rd, c.c_out + c.c_node);
-      stage.intent = {DesignIntent::Kind::m, *s.m, fmt::format("m = {:.4g}", *s.m)};
+    const auto& info = load_kind_info(c.kind);
+    if (const auto factor = design_factor(s, info)) {
+      info.apply_design(c, *factor);
+      if (info.design == DesignFactor::m)
+        stage.intent = {DesignIntent::Kind::m, *factor, fmt::format("m = {:.4g}", *factor)};
+      else
+        stage.intent = {DesignIntent::Kind::zeta, *factor,
+                        s.response.empty() ? fmt::format("zeta = {:.4g}", *factor)
+                                           : fmt::format("{} (zeta = {:.4g})", s.response, *factor)};
     }
-    if (c.kind == LoadKind::tcoil && (s.zeta || !s.response.empty())) {
-      const double zeta = s.zeta ? *s.zeta : *zeta_for_response(s.response);
-      const auto d = tcoil_for_zeta(zeta, c.rd, c.c_node);
-      c.l1 = c.l2 = d.l_half;
-      c.k = d.k;
-      c.cb = d.cb;
-      stage.intent = {DesignIntent::Kind::zeta, zeta,
-                      s.response.empty() ? fmt::format("zeta = {:.4g}", zeta)
-                                         : fmt::format("{} (zeta = {:.4g})", s.response, zeta)};
-    }
-    // Losses from the technology's Q at the stage's own bandwidth (found with lossless coils).
+    // Losses from the technology's Q at the stage's own bandwidth (found with lossless coils),
+    // for every coil whose loss the file leaves out (directly or through a shorthand).
     const auto& q = spec.technology.inductor_q;
-    const bool has_l = s.find("r_l") != nullptr;
-    const bool needs_loss = q && ((c.kind == LoadKind::shunt || c.kind == LoadKind::series)
-                                      ? !has_l
-                                      : c.kind == LoadKind::tcoil && !has_l &&
-                                            (!s.find("r_l1") || !s.find("r_l2")));
-    if (needs_loss) {
-      ScanResolution edge_only = scan;
-      edge_only.bandwidth_only = true;
-      const auto bw = frequency_metrics(Cascade({build_stage_system(c).rational()}), not_found, edge_only).bandwidth_hz;
-      if (std::isfinite(bw)) {
-        if (c.kind == LoadKind::tcoil) {
-          if (!s.find("r_l1")) c.r_l1 = loss_resistance(c.l1, *q, bw);
-          if (!s.find("r_l2")) c.r_l2 = loss_resistance(c.l2, *q, bw);
-        } else {
-          c.r_l = loss_resistance(c.l, *q, bw);
-        }
-      }
-    }
+    if (!q) continue;
+    std::vector<const LoadParameter*> open_losses;
+    for (const auto& p : info.parameters)
+      if (p.role == ParameterRole::loss && !s.find(p.key) && (p.fallback_key.empty() || !s.find(p.fallback_key)))
+        open_losses.push_back(&p);
+    if (open_losses.empty()) continue;
+    ScanResolution edge_only = scan;
+    edge_only.bandwidth_only = true;
+    const auto bw = frequency_metrics(Cascade({build_stage_system(c).rational()}), not_found, edge_only).bandwidth_hz;
+    if (!std::isfinite(bw)) continue;
+    for (const auto* p : open_losses)
+      c.*(p->field) = loss_resistance(c.*(find_parameter(info, p->loss_of)->field), *q, bw);
+  }
+}
+
+bool gives_design(const StageSpec& stage) { return stage.m || stage.zeta || !stage.response.empty(); }
+
+std::optional<double> design_factor(const StageSpec& stage, const LoadKindInfo& kind) {
+  switch (kind.design) {
+    case DesignFactor::none: return std::nullopt;
+    case DesignFactor::m: return stage.m;
+    case DesignFactor::zeta:
+      if (stage.zeta) return stage.zeta;
+      if (!stage.response.empty()) return zeta_for_response(stage.response);
+      return std::nullopt;
+  }
+  return std::nullopt;
+}
+
+void read_kind_values(StageCircuit& c, const std::function<double(std::string_view, double)>& value) {
+  for (const auto& p : load_kind_info(c.kind).parameters) {
+    if (!p.field) continue;
+    const double fallback = p.fallback_key.empty() ? p.fallback : value(p.fallback_key, p.fallback);
+    c.*(p.field) = value(p.key, fallback);
   }
 }
 
@@ -212,11 +226,13 @@ std::optional<Chain> resolve_chain(const ChainSpec& spec, Diagnostics& diagnosti
     }
     auto& c = circuits[i];
     c.kind = s.kinds.front();
+    std::set<std::string, std::less<>> reported;  // a shorthand key is read for several elements
     auto value = [&](std::string_view key, double fallback) {
       const auto* a = s.find(key);
       if (!a) return fallback;
       if (!a->is_fixed()) {
-        diagnostics.error(a->where, who + std::string(key) + " is " +
+        if (reported.insert(std::string(key)).second)
+          diagnostics.error(a->where, who + std::string(key) + " is " +
                                         (a->mode == Adjustable::Mode::automatic ? "\"auto\"" : "a range") +
                                         "; analyze needs a value (peakplan plan chooses it)");
         return fallback;
@@ -253,42 +269,17 @@ std::optional<Chain> resolve_chain(const ChainSpec& spec, Diagnostics& diagnosti
                                       20.0 * std::log10(gain), kMinStageGain, kMaxStageGain,
                                       20.0 * std::log10(kMinStageGain), 20.0 * std::log10(kMaxStageGain)));
     }
-    const bool designed_coil = s.zeta || !s.response.empty();
-    switch (c.kind) {
-      case LoadKind::plain: break;
-      case LoadKind::shunt:
-      case LoadKind::series:
-        if (!s.m && !s.find("l"))
-          diagnostics.error(s.where, who + "a " + std::string(to_string(c.kind)) +
-                                         " stage needs l (an inductance) or m (its design factor L/(Rd^2 C))");
-        c.l = value("l", 0.0);
-        c.r_l = value("r_l", 0.0);
-        break;
-      case LoadKind::tcoil: {
-        std::string missing;  // one error naming every missing key, not one per key
-        for (const auto* key : {"l1", "l2", "k", "cb"}) {
-          if (!designed_coil && !s.find(key) && std::string_view(key) != "cb")
-            missing += (missing.empty() ? "" : ", ") + std::string(key);
-        }
-        if (!missing.empty())
-          diagnostics.error(s.where, who + "a tcoil stage needs l1, l2 and k (and usually cb), or a "
-                                           "design: zeta = 0.707 or response = \"butterworth\"; missing " +
-                                           missing);
-        c.l1 = value("l1", 0.0);
-        c.l2 = value("l2", 0.0);
-        c.k = value("k", 0.0);
-        c.cb = value("cb", 0.0);
-        c.c_w = value("c_w", 0.0);
-        const double r_l = value("r_l", 0.0);
-        c.r_l1 = value("r_l1", r_l);
-        c.r_l2 = value("r_l2", r_l);
-        if (s.zeta && !(*s.zeta > 0.0))
-          diagnostics.error(s.design_where, who + "zeta must be positive");
-        break;
-      }
-    }
-    if ((s.m || designed_coil) && s.kinds.front() == LoadKind::plain)
-      diagnostics.error(s.design_where, who + "a plain stage has no peaking design");
+    const auto& info = load_kind_info(c.kind);
+    const auto factor = design_factor(s, info);
+    const auto missing = info.missing ? info.missing([&](std::string_view key) { return s.find(key) != nullptr; },
+                                                     factor.has_value())
+                                      : std::string();
+    if (!missing.empty()) diagnostics.error(s.where, who + missing);
+    read_kind_values(c, value);
+    if (info.design == DesignFactor::zeta && s.zeta && !(*s.zeta > 0.0))
+      diagnostics.error(s.design_where, who + "zeta must be positive");
+    if (gives_design(s) && info.design == DesignFactor::none)
+      diagnostics.error(s.design_where, who + "a " + std::string(info.name) + " stage has no peaking design");
   }
   if (!diagnostics.empty()) return std::nullopt;
 
@@ -297,9 +288,8 @@ std::optional<Chain> resolve_chain(const ChainSpec& spec, Diagnostics& diagnosti
   for (size_t i = 0; i < chain.stages.size(); ++i) {
     const auto& s = spec.stages[(*graph)[i].spec];
     const auto& c = chain.stages[i].circuit;
-    const bool designed = (s.m && c.kind != LoadKind::plain) || (c.kind == LoadKind::tcoil && (s.zeta || !s.response.empty()));
-    const double c_design = c.kind == LoadKind::tcoil ? c.c_node : c.c_node + c.c_out;
-    if (designed && !(c_design > 0.0))
+    const auto& info = load_kind_info(c.kind);
+    if (design_factor(s, info) && !(info.design_capacitance(c) > 0.0))
       diagnostics.error(s.design_where, fmt::format("stage '{}': its design needs capacitance on the output "
                                                     "node (c_in of the stage it feeds, or c_load), found none",
                                                     chain.stages[i].id));

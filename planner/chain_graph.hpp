@@ -3,6 +3,7 @@
 // one driver per stage and every stage reachable; then resolved into a models Chain.
 #pragma once
 
+#include <functional>
 #include <optional>
 #include <string>
 #include <vector>
@@ -48,6 +49,14 @@ Chain assemble_chain(const ChainSpec& spec, const std::vector<GraphStage>& graph
 // search may pass a coarser one.
 void apply_designs(Chain& chain, const ChainSpec& spec, const std::vector<GraphStage>& graph,
                    const ScanResolution& scan = {});
+
+// The normalised design the file gives a stage for a kind (m, or zeta or a named response),
+// when the kind has that design; nullopt otherwise.
+std::optional<double> design_factor(const StageSpec& stage, const LoadKindInfo& kind);
+// Whether the file gave the stage any normalised design (m, zeta or response).
+bool gives_design(const StageSpec& stage);
+// The element values of a kind from `value(key, fallback)`, in table order.
+void read_kind_values(StageCircuit& circuit, const std::function<double(std::string_view, double)>& value);
 
 }  // namespace peakplan
 

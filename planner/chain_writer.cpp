@@ -83,16 +83,12 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
     if (stage.limit)
       out += number_line("tail_current", stage.limit->tail_current, "A") +
              "pair = " + toml_basic_string(to_string(stage.limit->pair)) + "\n";
-    switch (planned.kind) {
-      case LoadKind::plain: break;
-      case LoadKind::shunt:
-      case LoadKind::series: out += number_line("l", c.l, "H") + number_line("r_l", c.r_l, "ohm"); break;
-      case LoadKind::tcoil:
-        out += number_line("l1", c.l1, "H") + number_line("l2", c.l2, "H") + "k = " + toml_number(c.k) + "\n";
-        out += number_line("cb", c.cb, "F");
-        if (c.c_w > 0.0) out += number_line("c_w", c.c_w, "F");
-        out += number_line("r_l1", c.r_l1, "ohm") + number_line("r_l2", c.r_l2, "ohm");
-        break;
+    for (const auto& p : load_kind_info(planned.kind).parameters) {
+      if (!p.field || p.role == ParameterRole::alias || p.role == ParameterRole::design) continue;
+      const double v = c.*(p.field);
+      if (p.omit_when_zero && !(v > 0.0)) continue;
+      out += p.dimension == Dimension::dimensionless ? std::string(p.key) + " = " + toml_number(v) + "\n"
+                                                     : number_line(p.key, v, unit_symbol(p.dimension));
     }
     if (s.feeds) {
       out += "feeds = [";

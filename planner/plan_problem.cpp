@@ -15,27 +15,35 @@ namespace {
 
 constexpr double kTwoPi = 2.0 * std::numbers::pi;
 
-// The default search bounds of a key when the file says "auto" and the technology is silent.
-std::pair<double, double> default_bounds(std::string_view key, const TechnologySpec& tech) {
-  const double l_max = tech.max_inductance.value_or(2e-9);
+// The default search bounds of gm and rd when the file says "auto".
+std::pair<double, double> device_bounds(std::string_view key, const TechnologySpec& tech) {
   if (key == "gm") {
     double gm_max = tech.max_gm.value_or(0.2);
     // A current budget caps every single device too.
     if (tech.current_budget && tech.gm_over_id) gm_max = std::min(gm_max, *tech.current_budget * *tech.gm_over_id);
     return {std::min(1e-3, 0.5 * gm_max), gm_max};
   }
-  if (key == "rd") return {10.0, 2000.0};
-  if (key == "l" || key == "l1" || key == "l2") return {1e-12, l_max};
-  if (key == "k") return {tech.k_min.value_or(0.0), tech.k_max.value_or(0.9)};
-  if (key == "cb") return {std::max(tech.min_cb.value_or(0.05e-15), 0.05e-15), 200e-15};
-  return {0.0, 1.0};
+  return {10.0, 2000.0};  // rd
 }
 
-const std::vector<std::string_view>& plannable_keys(LoadKind kind) {
-  static const std::vector<std::string_view> plain{"gm", "rd"};
-  static const std::vector<std::string_view> peaked{"gm", "rd", "l"};
-  static const std::vector<std::string_view> tcoil{"gm", "rd", "l1", "l2", "k", "cb"};
-  return kind == LoadKind::tcoil ? tcoil : kind == LoadKind::plain ? plain : peaked;
+// A kind parameter's default bounds: its table's, narrowed or widened by [technology].
+std::pair<double, double> parameter_bounds(const LoadParameter& p, const TechnologySpec& tech) {
+  switch (p.technology) {
+    case TechnologyBound::none: break;
+    case TechnologyBound::inductance: return {p.plan_lo, tech.max_inductance.value_or(p.plan_hi)};
+    case TechnologyBound::coupling: return {tech.k_min.value_or(p.plan_lo), tech.k_max.value_or(p.plan_hi)};
+    case TechnologyBound::bridge_capacitance:
+      return {std::max(tech.min_cb.value_or(p.plan_lo), p.plan_lo), p.plan_hi};
+  }
+  return {p.plan_lo, p.plan_hi};
+}
+
+// The keys the planner may choose for a kind: gm, rd and the kind's main elements.
+std::vector<const LoadParameter*> plannable_elements(LoadKind kind) {
+  std::vector<const LoadParameter*> out;
+  for (const auto& p : load_kind_info(kind).parameters)
+    if (p.role == ParameterRole::element) out.push_back(&p);
+  return out;
 }
 
 // Two decades beyond the outermost roots at 30 points per decade: the scan includes every root's
@@ -80,30 +88,34 @@ std::vector<Combination> combinations(const ChainSpec& spec) {
 Problem::Problem(const ChainSpec& spec, Combination combo, std::vector<GraphStage> graph)
     : spec_(spec), combo_(std::move(combo)), graph_(std::move(graph)) {
   for (size_t i = 0; i < spec.stages.size(); ++i) {
-    for (auto key : plannable_keys(combo_.kinds[i])) {
-      const auto* a = spec.stages[i].find(key);
-      const bool designed = (key == "l" && spec.stages[i].m) ||
-                            (key != "gm" && key != "rd" && combo_.kinds[i] == LoadKind::tcoil &&
-                             (spec.stages[i].zeta || !spec.stages[i].response.empty()));
-      if (designed) continue;
+    const auto& stage = spec.stages[i];
+    const auto& info = load_kind_info(combo_.kinds[i]);
+    const bool designed = design_factor(stage, info).has_value();
+    auto consider = [&](std::string_view key, std::pair<double, double> bounds, bool linear, bool device) {
+      const auto* a = stage.find(key);
       // A value the file leaves out entirely is free when the kind was left to the planner.
-      const bool free = (a && !a->is_fixed()) ||
-                        (!a && !spec.stages[i].kind_is_fixed() && key != "gm" && key != "rd");
-      if (!free) continue;
-      auto [lo, hi] = default_bounds(key, spec.technology);
+      const bool free = (a && !a->is_fixed()) || (!a && !stage.kind_is_fixed() && !device);
+      if (!free) return;
+      auto [lo, hi] = bounds;
       if (a && a->mode == Adjustable::Mode::range) {
         lo = a->min;
         hi = a->max;
       }
-      const bool log_scale = key != "k" && lo > 0.0;
-      variables_.push_back({i, std::string(key), lo, hi, log_scale});
-    }
+      variables_.push_back({i, std::string(key), lo, hi, !linear && lo > 0.0});
+    };
+    consider("gm", device_bounds("gm", spec.technology), false, true);
+    consider("rd", device_bounds("rd", spec.technology), false, true);
+    // Elements a normalised design sets are not searched on their own.
+    if (!designed)
+      for (const auto* p : plannable_elements(info.kind))
+        consider(p->key, parameter_bounds(*p, spec.technology), p->linear_scale, false);
   }
 
   // The design space: only the axes some open value hangs on.
   auto any = [&](auto predicate) { return std::any_of(variables_.begin(), variables_.end(), predicate); };
   auto add = [&](Axis axis, double lo, double hi) {
     design_.push_back(axis);
+    design_kind_.push_back(LoadKind::plain);
     design_lo_.push_back(lo);
     design_hi_.push_back(hi);
   };
@@ -118,13 +130,16 @@ Problem::Problem(const ChainSpec& spec, Combination combo, std::vector<GraphStag
     }
   if (sized > 0) add(Axis::size, std::log(gm_lo), std::log(gm_hi));
   if (sized > 1) add(Axis::taper, -2.5, 2.5);
-  auto peaked = [&](LoadKind kind) {
-    return any([&](const Variable& v) { return v.key == "l" && combo_.kinds[v.spec] == kind; });
-  };
-  if (peaked(LoadKind::shunt)) add(Axis::m_shunt, 0.05, 1.2);
-  if (peaked(LoadKind::series)) add(Axis::m_series, 0.05, 1.5);
-  if (any([&](const Variable& v) { return combo_.kinds[v.spec] == LoadKind::tcoil && v.key != "gm" && v.key != "rd"; }))
-    add(Axis::zeta, 0.52, 1.3);
+  // One design axis per kind that has a normalised design and open elements, in table order.
+  for (const auto& info : all_load_kinds()) {
+    if (info.design == DesignFactor::none) continue;
+    const bool open = any([&](const Variable& v) {
+      return combo_.kinds[v.spec] == info.kind && v.key != "gm" && v.key != "rd";
+    });
+    if (!open) continue;
+    add(Axis::design, info.design_lo, info.design_hi);
+    design_kind_.back() = info.kind;
+  }
 
   if (spec.target.plan_for == "corners" && spec.variation) {
     corner_threads_ = default_thread_count();
@@ -166,16 +181,7 @@ Chain Problem::assemble(const std::vector<double>& u) const {
     }
     c_load[i] = value(u, i, "c_load", 0.0);
     c.r_load = value(u, i, "r_load", std::numeric_limits<double>::infinity());
-    c.l = value(u, i, "l", 0.0);
-    c.r_l = value(u, i, "r_l", 0.0);
-    c.l1 = value(u, i, "l1", 0.0);
-    c.l2 = value(u, i, "l2", 0.0);
-    c.k = value(u, i, "k", 0.0);
-    c.cb = value(u, i, "cb", 0.0);
-    c.c_w = value(u, i, "c_w", 0.0);
-    const double r_l = value(u, i, "r_l", 0.0);
-    c.r_l1 = value(u, i, "r_l1", r_l);
-    c.r_l2 = value(u, i, "r_l2", r_l);
+    read_kind_values(c, [&](std::string_view key, double fallback) { return value(u, i, key, fallback); });
   }
   return assemble_chain(spec_, graph_, circuits, c_in, c_load);
 }
@@ -257,9 +263,7 @@ std::vector<double> Problem::design_seed() const {
       case Axis::stage_gain: z[d] = std::log(from_db(stage_db)); break;
       case Axis::size: z[d] = 0.5 * (design_lo_[d] + design_hi_[d]); break;
       case Axis::taper: z[d] = 0.0; break;
-      case Axis::m_shunt: z[d] = std::sqrt(2.0) - 1.0; break;  // maximally flat (Shekhar et al.)
-      case Axis::m_series: z[d] = 0.5; break;
-      case Axis::zeta: z[d] = 0.78; break;  // between Butterworth and Bessel
+      case Axis::design: z[d] = load_kind_info(design_kind_[d]).design_seed; break;
     }
     z[d] = std::clamp(z[d], design_lo_[d], design_hi_[d]);
   }
@@ -268,15 +272,18 @@ std::vector<double> Problem::design_seed() const {
 
 std::vector<double> Problem::expand(const std::vector<double>& z) const {
   double stage_gain = 2.0, log_size = std::log(0.02), taper = 0.0;
-  double m_shunt = std::sqrt(2.0) - 1.0, m_series = 0.5, zeta = 0.78;
+  // Each kind's design factor: its axis when it has one, else the table's seed.
+  auto factor = [&](LoadKind kind) {
+    for (size_t d = 0; d < design_.size(); ++d)
+      if (design_[d] == Axis::design && design_kind_[d] == kind) return z[d];
+    return load_kind_info(kind).design_seed;
+  };
   for (size_t d = 0; d < design_.size(); ++d) {
     switch (design_[d]) {
       case Axis::stage_gain: stage_gain = std::exp(z[d]); break;
       case Axis::size: log_size = z[d]; break;
       case Axis::taper: taper = z[d]; break;
-      case Axis::m_shunt: m_shunt = z[d]; break;
-      case Axis::m_series: m_series = z[d]; break;
-      case Axis::zeta: zeta = z[d]; break;
+      case Axis::design: break;
     }
   }
   std::vector<double> u(variables_.size());
@@ -305,13 +312,13 @@ std::vector<double> Problem::expand(const std::vector<double>& z) const {
     const auto& var = variables_[v];
     const auto stage = std::find_if(graph_.begin(), graph_.end(), [&](const GraphStage& g) { return g.spec == var.spec; });
     const auto& c = chain.stages[static_cast<size_t>(stage - graph_.begin())].circuit;
-    if (var.key == "l") set(v, inductance_for_m(c.kind == LoadKind::series ? m_series : m_shunt, c.rd, c.c_out + c.c_node));
-    if (c.kind == LoadKind::tcoil && c.c_node > 0.0 && var.key != "gm" && var.key != "rd") {
-      const auto d = tcoil_for_zeta(zeta, c.rd, c.c_node);
-      if (var.key == "l1" || var.key == "l2") set(v, d.l_half);
-      if (var.key == "k") set(v, d.k);
-      if (var.key == "cb") set(v, d.cb);
-    }
+    const auto& info = load_kind_info(c.kind);
+    const auto* p = find_parameter(info, var.key);
+    if (!p || p->role != ParameterRole::element || info.design == DesignFactor::none) continue;
+    if (!(info.design_capacitance(c) > 0.0)) continue;
+    StageCircuit designed = c;
+    info.apply_design(designed, factor(c.kind));
+    set(v, designed.*(p->field));
   }
   return u;
 }

@@ -80,7 +80,8 @@ class Problem {
   std::vector<double> expand(const std::vector<double>& z) const;
 
  private:
-  enum class Axis { stage_gain, size, taper, m_shunt, m_series, zeta };
+  // design: the normalised design factor of one kind (design_kind_ says which).
+  enum class Axis { stage_gain, size, taper, design };
   double value(const std::vector<double>& u, size_t stage, std::string_view key, double fallback) const;
   // The chain with element values and node capacitances only (no designs, no Q losses).
   Chain assemble(const std::vector<double>& u) const;
@@ -92,6 +93,7 @@ class Problem {
   std::vector<GraphStage> graph_;
   std::vector<Variable> variables_;
   std::vector<Axis> design_;
+  std::vector<LoadKind> design_kind_;  // per design axis; meaningful for Axis::design
   std::vector<double> design_lo_, design_hi_;
   std::vector<Corner> corners_;
   int corner_threads_ = 1;  // default_thread_count(): the results do not depend on it

@@ -18,15 +18,7 @@ double stage_value(const ChainStage& stage, std::string_view key) {
   if (key == "c_out") return c.c_out;
   if (key == "c_load") return stage.c_load;
   if (key == "r_load") return c.r_load;
-  if (key == "l") return c.l;
-  if (key == "r_l") return c.kind == LoadKind::tcoil ? c.r_l1 : c.r_l;
-  if (key == "l1") return c.l1;
-  if (key == "l2") return c.l2;
-  if (key == "k") return c.k;
-  if (key == "cb") return c.cb;
-  if (key == "c_w") return c.c_w;
-  if (key == "r_l1") return c.r_l1;
-  if (key == "r_l2") return c.r_l2;
+  if (const auto* p = find_parameter(info, key); p && p->field) return c.*(p->field);
   return nan;
 }
 

@@ -284,8 +284,11 @@ std::optional<VariationSpec> read_variation(const toml::table& root, Diagnostics
 void check_variation(const VariationSpec& spec, const Chain& chain, Diagnostics& diagnostics) {
   const auto ci = static_cast<size_t>(VariationClass::coupling);
   for (const auto& stage : chain.stages) {
-    if (stage.circuit.kind != LoadKind::tcoil) continue;
-    const double k = stage.circuit.k;
+    const LoadParameter* coupling = nullptr;
+    for (const auto& p : load_kind_info(stage.circuit.kind).parameters)
+      if (p.technology == TechnologyBound::coupling) coupling = &p;
+    if (!coupling) continue;
+    const double k = stage.circuit.*(coupling->field);
     if (spec.given[ci]) {
       const auto& s = spec.variation.spread(VariationClass::coupling);
       const double reach = (spec.variation.distribution == Distribution::uniform ? 1.0 : 2.0) * (s.global + s.local);

@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <cmath>
 #include <fmt/format.h>
+#include <stdexcept>
 
 #include "models/units.hpp"
 #include "planner/stage_value.hpp"
@@ -43,16 +44,40 @@ std::string show_check(const PlanCheck& c, double x) {
   return scaled(x, u.scale, u.decimals) + " " + u.unit;
 }
 
+// How a budget shows an element of each dimension: its scale, unit and decimals.
+struct ElementUnit {
+  double scale;
+  std::string_view unit;  // empty: a plain number
+  int decimals;
+};
+ElementUnit element_unit(Dimension d) {
+  if (d == Dimension::inductance) return {kPh, "pH", 1};
+  if (d == Dimension::capacitance) return {kFf, "fF", 2};
+  if (d == Dimension::resistance) return {1.0, "ohm", 1};
+  return {1.0, "", 3};
+}
+
+// Every main element of every kind, once, in table order: the CSV's element columns.
+std::vector<const LoadParameter*> element_columns() {
+  std::vector<const LoadParameter*> out;
+  for (const auto& info : all_load_kinds())
+    for (const auto& p : info.parameters)
+      if (p.role == ParameterRole::element &&
+          std::none_of(out.begin(), out.end(), [&](const LoadParameter* q) { return q->key == p.key; }))
+        out.push_back(&p);
+  return out;
+}
+
 std::string elements_text(const BudgetRow& r) {
-  switch (r.kind) {
-    case LoadKind::plain: return "-";
-    case LoadKind::shunt:
-    case LoadKind::series: return "L " + scaled(r.l, kPh, 1) + " pH";
-    case LoadKind::tcoil:
-      return fmt::format("L1 {} pH, L2 {} pH, k {}, Cb {} fF", scaled(r.l1, kPh, 1), scaled(r.l2, kPh, 1),
-                         show_number(r.k, 3), scaled(r.cb, kFf, 2));
+  const auto& info = load_kind_info(r.kind);
+  std::string out;
+  for (const auto& [key, value] : r.elements) {
+    const auto& p = *find_parameter(info, key);
+    const auto u = element_unit(p.dimension);
+    out += (out.empty() ? "" : ", ") + std::string(p.label) + " " +
+           (u.unit.empty() ? show_number(value, u.decimals) : scaled(value, u.scale, u.decimals) + " " + std::string(u.unit));
   }
-  return "-";
+  return out.empty() ? "-" : out;
 }
 
 std::string md_cell(const std::string& text) {
@@ -112,6 +137,12 @@ std::string kinds_written(const std::vector<LoadKind>& kinds) {
 
 }  // namespace
 
+double BudgetRow::element(std::string_view key) const {
+  for (const auto& [k, v] : elements)
+    if (k == key) return v;
+  return not_found;
+}
+
 std::string show_number(double value, int decimals) {
   if (!std::isfinite(value)) return std::isnan(value) ? "n/a" : (value > 0 ? "inf" : "-inf");
   // Avoid "-0.00" for values that round to zero.
@@ -157,13 +188,8 @@ Budget build_budget(const ChainSpec& spec, const Chain& chain, const ChainAnalys
     r.kind = c.kind;
     r.gm = c.gm;
     r.rd = c.rd;
-    if (c.kind == LoadKind::shunt || c.kind == LoadKind::series) r.l = c.l;
-    if (c.kind == LoadKind::tcoil) {
-      r.l1 = c.l1;
-      r.l2 = c.l2;
-      r.k = c.k;
-      r.cb = c.cb;
-    }
+    for (const auto& p : load_kind_info(c.kind).parameters)
+      if (p.role == ParameterRole::element) r.elements.emplace_back(p.key, c.*(p.field));
     r.c_node = output_node_capacitance(c);  // every capacitance on the node, c_out included
     const auto& f = s.alone.frequency;
     r.gain_db = to_db(f.dc_gain);
@@ -296,13 +322,26 @@ std::string budget_markdown(const Budget& b) {
 }
 
 std::string budget_csv(const Budget& b) {
-  static const std::vector<std::string> columns{
-      "row",           "id",           "kind",        "gm_mS",          "rd_ohm",
-      "l_pH",          "l1_pH",        "l2_pH",       "k",              "cb_fF",
-      "c_node_fF",     "gain_dB",      "bandwidth_GHz", "peaking_dB",   "group_delay_ps",
-      "cumulative_gain_dB", "cumulative_bandwidth_GHz", "delay_share_pct", "current_mA",
-      "group_delay_ripple_ps", "overshoot_pct", "check_unit", "check_value", "check_limit",
-      "check_margin", "check_met"};
+  // The element columns come from the kind table: every kind's main elements, once each.
+  static const std::vector<const LoadParameter*> element_keys = element_columns();
+  static const std::vector<std::string> columns = [] {
+    std::vector<std::string> c{"row", "id", "kind", "gm_mS", "rd_ohm"};
+    for (const auto* p : element_keys) {
+      const auto u = element_unit(p->dimension);
+      c.push_back(std::string(p->key) + (u.unit.empty() ? "" : "_" + std::string(u.unit)));
+    }
+    for (const char* name : {"c_node_fF", "gain_dB", "bandwidth_GHz", "peaking_dB", "group_delay_ps",
+                             "cumulative_gain_dB", "cumulative_bandwidth_GHz", "delay_share_pct", "current_mA",
+                             "group_delay_ripple_ps", "overshoot_pct", "check_unit", "check_value", "check_limit",
+                             "check_margin", "check_met"})
+      c.emplace_back(name);
+    return c;
+  }();
+  auto col = [](std::string_view name) {
+    const auto it = std::find(columns.begin(), columns.end(), name);
+    if (it == columns.end()) throw std::logic_error("budget_csv: no column " + std::string(name));
+    return static_cast<size_t>(it - columns.begin());
+  };
   auto line = [](const std::vector<std::string>& fields) {
     std::string out;
     for (size_t i = 0; i < fields.size(); ++i) out += (i ? "," : "") + fields[i];
@@ -310,38 +349,28 @@ std::string budget_csv(const Budget& b) {
   };
   std::string out = line(columns);
   for (const auto& r : b.rows) {
-    std::vector<std::string> f{"stage",
-                               csv_field(r.id),
-                               std::string(to_string(r.kind)),
-                               csv_number(r.gm, kMs),
-                               csv_number(r.rd),
-                               csv_number(r.l, kPh),
-                               csv_number(r.l1, kPh),
-                               csv_number(r.l2, kPh),
-                               csv_number(r.k),
-                               csv_number(r.cb, kFf),
-                               csv_number(r.c_node, kFf),
-                               csv_number(r.gain_db),
-                               csv_number(r.bandwidth_hz, kGhz),
-                               csv_number(r.peaking_db),
-                               csv_number(r.group_delay_s, kPs),
-                               csv_number(r.cumulative_gain_db),
-                               csv_number(r.cumulative_bandwidth_hz, kGhz),
-                               r.on_main_path ? csv_number(r.delay_share_pct) : "off_main_path",
-                               csv_number(r.current_a, kMa)};
+    std::vector<std::string> f{"stage", csv_field(r.id), std::string(to_string(r.kind)), csv_number(r.gm, kMs),
+                               csv_number(r.rd)};
+    for (const auto* p : element_keys) f.push_back(csv_number(r.element(p->key), element_unit(p->dimension).scale));
+    for (auto&& x : {csv_number(r.c_node, kFf), csv_number(r.gain_db), csv_number(r.bandwidth_hz, kGhz),
+                     csv_number(r.peaking_db), csv_number(r.group_delay_s, kPs), csv_number(r.cumulative_gain_db),
+                     csv_number(r.cumulative_bandwidth_hz, kGhz),
+                     r.on_main_path ? csv_number(r.delay_share_pct) : std::string("off_main_path"),
+                     csv_number(r.current_a, kMa)})
+      f.push_back(x);
     f.resize(columns.size());
     out += line(f);
   }
   const auto& t = b.totals;
   std::vector<std::string> total{"total", csv_field(t.node), "", csv_number(t.total_gm, kMs)};
   total.resize(columns.size());
-  total[11] = csv_number(t.gain_db);
-  total[12] = csv_number(t.bandwidth_hz, kGhz);
-  total[13] = csv_number(t.peaking_db);
-  total[14] = csv_number(t.group_delay_s, kPs);
-  total[18] = csv_number(t.total_current_a, kMa);
-  total[19] = csv_number(t.group_delay_ripple_s, kPs);
-  total[20] = csv_number(t.overshoot_pct);
+  total[col("gain_dB")] = csv_number(t.gain_db);
+  total[col("bandwidth_GHz")] = csv_number(t.bandwidth_hz, kGhz);
+  total[col("peaking_dB")] = csv_number(t.peaking_db);
+  total[col("group_delay_ps")] = csv_number(t.group_delay_s, kPs);
+  total[col("current_mA")] = csv_number(t.total_current_a, kMa);
+  total[col("group_delay_ripple_ps")] = csv_number(t.group_delay_ripple_s, kPs);
+  total[col("overshoot_pct")] = csv_number(t.overshoot_pct);
   out += line(total);
   for (const auto& c : b.checks) {
     const auto u = check_unit(c);
@@ -349,11 +378,11 @@ std::string budget_csv(const Budget& b) {
     f[0] = "check";
     f[1] = c.name;
     f[2] = c.is_minimum ? "minimum" : "maximum";
-    f[21] = u.unit;
-    f[22] = csv_number(c.value, u.scale);
-    f[23] = csv_number(c.limit, u.scale);
-    f[24] = csv_number(c.margin, u.scale);
-    f[25] = c.met ? "pass" : "fail";
+    f[col("check_unit")] = u.unit;
+    f[col("check_value")] = csv_number(c.value, u.scale);
+    f[col("check_limit")] = csv_number(c.limit, u.scale);
+    f[col("check_margin")] = csv_number(c.margin, u.scale);
+    f[col("check_met")] = c.met ? "pass" : "fail";
     out += line(f);
   }
   return out;
@@ -380,12 +409,8 @@ TableView plan_values_view(const ChainSpec& spec, const Plan& plan) {
     add(s.id, "count", written_adjustable(s.count, "count", ""), std::to_string(p.count));
 
     std::vector<std::string> keys{"gm", "rd", "c_in", "c_out"};
-    switch (p.kind) {
-      case LoadKind::plain: break;
-      case LoadKind::shunt:
-      case LoadKind::series: keys.insert(keys.end(), {"l", "r_l"}); break;
-      case LoadKind::tcoil: keys.insert(keys.end(), {"l1", "l2", "k", "cb", "r_l1", "r_l2"}); break;
-    }
+    for (const auto& param : load_kind_info(p.kind).parameters)
+      if (param.role == ParameterRole::element || param.role == ParameterRole::loss) keys.emplace_back(param.key);
     keys.insert(keys.end(), {"c_load", "r_load"});
     std::string design;
     if (s.m) design = fmt::format("from m = {}", *s.m);

@@ -12,6 +12,10 @@
 #include <vector>
 
 #include "models/analysis.hpp"
+#include <string_view>
+#include <utility>
+#include <vector>
+
 #include "models/chain.hpp"
 #include "planner/chain_file.hpp"
 #include "planner/planner.hpp"
@@ -24,9 +28,9 @@ struct BudgetRow {
   std::string id;
   LoadKind kind = LoadKind::plain;
   double gm = 0.0, rd = 0.0;
-  double l = not_found;                        // shunt, series
-  double l1 = not_found, l2 = not_found;       // tcoil
-  double k = not_found, cb = not_found;        // tcoil
+  // The kind's main elements (parameter role element), by chain-file key in table order.
+  std::vector<std::pair<std::string, double>> elements;
+  double element(std::string_view key) const;  // NaN when the kind has no such element
   double c_node = 0.0;                         // every capacitance on the output node (c_out too where the drain is it)
   double gain_db = 0.0, bandwidth_hz = not_found, peaking_db = 0.0;    // the stage alone
   double group_delay_s = 0.0;                                          // the stage alone, DC

@@ -83,17 +83,8 @@ Values stage_values(const CompareSide& side, size_t index) {
   const auto& stage = side.chain.stages[index];
   const auto& c = stage.circuit;
   Values v{{"gm", c.gm}, {"rd", c.rd}};
-  switch (c.kind) {
-    case LoadKind::plain: break;
-    case LoadKind::shunt:
-    case LoadKind::series: v.emplace_back("l", c.l); break;
-    case LoadKind::tcoil:
-      v.emplace_back("l1", c.l1);
-      v.emplace_back("l2", c.l2);
-      v.emplace_back("k", c.k);
-      v.emplace_back("cb", c.cb);
-      break;
-  }
+  for (const auto& p : load_kind_info(c.kind).parameters)
+    if (p.role == ParameterRole::element) v.emplace_back(p.key, c.*(p.field));
   for (const auto& s : side.analysis.stages)
     if (static_cast<size_t>(s.stage) == index) {
       v.emplace_back("dc_gain_db", to_db(s.alone.frequency.dc_gain));

@@ -123,23 +123,8 @@ nlohmann::json stage_values_json(const ChainStage& stage) {
     v["tail_current"] = stage.limit->tail_current;
     v["pair"] = std::string(to_string(stage.limit->pair));
   }
-  switch (c.kind) {
-    case LoadKind::plain: break;
-    case LoadKind::shunt:
-    case LoadKind::series:
-      v["l"] = c.l;
-      v["r_l"] = c.r_l;
-      break;
-    case LoadKind::tcoil:
-      v["l1"] = c.l1;
-      v["l2"] = c.l2;
-      v["k"] = c.k;
-      v["cb"] = c.cb;
-      v["c_w"] = c.c_w;
-      v["r_l1"] = c.r_l1;
-      v["r_l2"] = c.r_l2;
-      break;
-  }
+  for (const auto& p : load_kind_info(c.kind).parameters)
+    if (p.field && p.role != ParameterRole::alias) v[std::string(p.key)] = c.*(p.field);
   return v;
 }
 

@@ -19,21 +19,25 @@ namespace {
 // The models treat these as absent (NodalSystem::add_resistor); the netlist must agree.
 bool resistor_present(double ohms) { return std::isfinite(ohms) && ohms > 0.0; }
 
-class SubcktWriter {
+class SubcktWriter final : public ElementSink {
  public:
-  explicit SubcktWriter(std::ostringstream& out) : out_(out) {}
+  SubcktWriter(std::ostringstream& out, const StageCircuit* stage = nullptr,
+               const std::optional<PairLimit>* limit = nullptr)
+      : out_(out), stage_(stage), limit_(limit) {}
 
-  void resistor(const std::string& name, const std::string& a, const std::string& b, double r) {
+  void gm_cell(std::string_view node) override;
+  void resistor(std::string_view name, std::string_view a, std::string_view b, double r) override {
     if (resistor_present(r)) line(name, a, b, spice_number(r));
   }
-  void capacitor(const std::string& name, const std::string& a, const std::string& b, double c) {
+  void capacitor(std::string_view name, std::string_view a, std::string_view b, double c) override {
     if (c != 0.0) line(name, a, b, spice_number(c));
   }
   // Returns whether an L element named `name` was written (a K line may refer to it only then).
-  bool inductor(const std::string& name, const std::string& a, const std::string& b, double l,
-                double r_series) {
+  bool inductor(std::string_view name_view, std::string_view a, std::string_view b, double l,
+                double r_series) override {
+    const std::string name(name_view);
     const bool lossy = resistor_present(r_series);
-    const std::string mid = lossy ? "x" + name.substr(1) : b;
+    const std::string mid = lossy ? "x" + name.substr(1) : std::string(b);
     if (l != 0.0) {
       line(name, a, mid, spice_number(l));
     } else if (lossy) {
@@ -48,17 +52,23 @@ class SubcktWriter {
     if (lossy) line("R" + name.substr(1) + "loss", mid, b, spice_number(r_series));
     return true;
   }
+  void coupling(std::string_view name, std::string_view l1, std::string_view l2, double k) override {
+    char text[32];
+    std::snprintf(text, sizeof text, "%.12g", k);
+    out_ << name << ' ' << l1 << ' ' << l2 << ' ' << text << '\n';
+  }
 
  private:
-  void line(const std::string& name, const std::string& a, const std::string& b,
-            const std::string& value) {
+  void line(std::string_view name, std::string_view a, std::string_view b, const std::string& value) {
     out_ << name << ' ' << a << ' ' << b << ' ' << value << '\n';
   }
   std::ostringstream& out_;
+  const StageCircuit* stage_;
+  const std::optional<PairLimit>* limit_;
 };
 
 // The gm cell from `in` into `node`: a linear G element, or the pair curve as a B source.
-std::string gm_cell(const StageCircuit& s, const std::optional<PairLimit>& limit, const std::string& node) {
+std::string gm_cell_line(const StageCircuit& s, const std::optional<PairLimit>& limit, const std::string& node) {
   if (!limit) return "Gm " + node + " 0 in 0 " + spice_number(s.gm) + "\n";
   // Plain exponents in expressions: no scale suffix to misread.
   auto plain = [](double v) {
@@ -73,56 +83,9 @@ std::string gm_cell(const StageCircuit& s, const std::optional<PairLimit>& limit
          ",0)) : " + it + "/2*sgn" + x + "\n";
 }
 
-// Mirrors stamp_plain, stamp_shunt, stamp_series and stamp_tcoil in models/load_<kind>.cpp.
-void write_load(std::ostringstream& out, const StageCircuit& s, const std::optional<PairLimit>& limit) {
-  SubcktWriter w(out);
-  switch (s.kind) {
-    case LoadKind::plain:
-      out << gm_cell(s, limit, "out");
-      w.resistor("Rd", "out", "0", s.rd);
-      w.capacitor("Cout", "out", "0", s.c_out);
-      break;
-    case LoadKind::shunt:
-      out << gm_cell(s, limit, "out");
-      w.resistor("Rd", "out", "rd_l", s.rd);
-      w.inductor("L", "rd_l", "0", s.l, s.r_l);
-      w.capacitor("Cout", "out", "0", s.c_out);
-      break;
-    case LoadKind::series:
-      out << gm_cell(s, limit, "drain");
-      w.resistor("Rd", "drain", "0", s.rd);
-      w.capacitor("Cout", "drain", "0", s.c_out);
-      w.inductor("L", "drain", "out", s.l, s.r_l);
-      break;
-    case LoadKind::tcoil: {
-      out << gm_cell(s, limit, "drain");
-      w.capacitor("Cout", "drain", "0", s.c_out);
-      // Both halves run drain -> tap -> rd_end, first node = dotted end, so K's sign is the
-      // models' sign: positive k adds 2k*sqrt(L1*L2) to the end-to-end inductance.
-      const bool l1 = w.inductor("L1", "drain", "out", s.l1, s.r_l1);
-      const bool l2 = w.inductor("L2", "out", "rd_end", s.l2, s.r_l2);
-      if (l1 && l2 && s.k != 0.0) {
-        char k[32];
-        std::snprintf(k, sizeof k, "%.12g", s.k);
-        out << "K12 L1 L2 " << k << '\n';
-      }
-      w.capacitor("Cb", "drain", "rd_end", s.cb);
-      w.capacitor("Cw1", "drain", "out", s.c_w);
-      w.capacitor("Cw2", "out", "rd_end", s.c_w);
-      w.resistor("Rd", "rd_end", "0", s.rd);
-      break;
-    }
-  }
-}
-
-const char* kind_comment(LoadKind kind) {
-  switch (kind) {
-    case LoadKind::plain: return "plain: Rd from the drain (= out) to the supply";
-    case LoadKind::shunt: return "shunt: Rd in series with L from the drain (= out) to the supply";
-    case LoadKind::series: return "series: Rd on the drain, L from the drain to out";
-    case LoadKind::tcoil: return "tcoil: L1 drain-out, L2 out-rd_end, Rd to the supply, Cb bridging";
-  }
-  return "";
+void SubcktWriter::gm_cell(std::string_view node) {
+  if (!stage_ || !limit_) throw std::logic_error("SubcktWriter: a gm cell needs its stage");
+  out_ << gm_cell_line(*stage_, *limit_, std::string(node));
 }
 
 void check_node_capacitances(const Chain& chain) {
@@ -310,14 +273,15 @@ std::string write_spice_netlist(const Chain& chain, const NetlistOptions& option
   for (size_t i = 0; i < chain.stages.size(); ++i) {
     const auto& s = chain.stages[i];
     out << "* stage " << i << ": id \"" << comment_safe(s.id) << "\"\n";
-    out << "* " << kind_comment(s.circuit.kind) << '\n';
+    out << "* " << load_kind_info(s.circuit.kind).netlist_comment << '\n';
     out << ".subckt " << subckt_name(i) << " in out\n";
     SubcktWriter w(out);
     w.capacitor("Cin", "in", "0", s.c_in);
     if (s.limit)
       out << "* limited: " << to_string(s.limit->pair) << " pair, tail current " << spice_number(s.limit->tail_current)
           << " A\n";
-    write_load(out, s.circuit, s.limit);
+    SubcktWriter load(out, &s.circuit, &s.limit);
+    load_kind_info(s.circuit.kind).netlist(s.circuit, load);
     w.capacitor("Cload", "out", "0", s.c_load);
     w.resistor("Rload", "out", "0", s.circuit.r_load);
     out << ".ends\n\n";

@@ -18,16 +18,20 @@ std::string pct(double x) { return show_pct(x); }
 std::string load_elements_text(const StageCircuit& c) {
   std::string out;
   auto loss = [](double r) { return r > 0.0 ? " (+" + format_si(r, "ohm") + ")" : std::string(); };
-  switch (c.kind) {
-    case LoadKind::plain: out = "-"; break;
-    case LoadKind::shunt:
-    case LoadKind::series: out = "L " + format_si(c.l, "H") + loss(c.r_l); break;
-    case LoadKind::tcoil:
-      out = fmt::format("L1 {}{}, L2 {}{}, k {:.3f}, Cb {}", format_si(c.l1, "H"), loss(c.r_l1),
-                        format_si(c.l2, "H"), loss(c.r_l2), c.k, format_si(c.cb, "F"));
-      if (c.c_w > 0.0) out += ", Cw " + format_si(c.c_w, "F");
-      break;
+  // Main elements in table order, each with its coil's loss; then parasitics that are present.
+  const auto& info = load_kind_info(c.kind);
+  auto shown = [](const LoadParameter& p, double v) {
+    return p.dimension == Dimension::dimensionless ? fmt::format("{:.3f}", v) : format_si(v, unit_symbol(p.dimension));
+  };
+  for (const auto& p : info.parameters) {
+    if (p.role != ParameterRole::element) continue;
+    out += (out.empty() ? "" : ", ") + std::string(p.label) + " " + shown(p, c.*(p.field));
+    if (const auto* l = loss_of(info, p.key)) out += loss(c.*(l->field));
   }
+  for (const auto& p : info.parameters)
+    if (p.role == ParameterRole::parasitic && c.*(p.field) > 0.0)
+      out += ", " + std::string(p.label) + " " + shown(p, c.*(p.field));
+  if (out.empty()) out = "-";
   return out;
 }
 

@@ -3,6 +3,11 @@
 // equals a hand-derived closed form (plain and shunt here; series and tcoil in their files).
 #include <doctest/doctest.h>
 
+#include <algorithm>
+#include <string>
+#include <utility>
+#include <vector>
+
 #include "test_support.hpp"
 
 using namespace peakplan;
@@ -110,5 +115,90 @@ TEST_CASE("load contract: the output node's capacitance includes c_out exactly w
     const bool at_drain = info.kind == peakplan::LoadKind::plain || info.kind == peakplan::LoadKind::shunt;
     INFO("kind: " << info.name);
     CHECK(peakplan::output_node_capacitance(c) == doctest::Approx(at_drain ? 37e-15 : 30e-15).epsilon(1e-15));
+  }
+}
+
+namespace {
+
+// A stage of any kind with every element of its table set to a plausible value by dimension,
+// so the checks below need no knowledge of the kind.
+StageCircuit from_table(const LoadKindInfo& info) {
+  StageCircuit s = plain_stage(120.0, 40e-15);
+  s.kind = info.kind;
+  s.c_out = 15e-15;
+  for (const auto& p : info.parameters) {
+    if (!p.field || p.role == ParameterRole::alias) continue;
+    double& x = s.*(p.field);
+    if (p.dimension == Dimension::inductance) x = 350e-12;
+    if (p.dimension == Dimension::capacitance) x = 6e-15;
+    if (p.dimension == Dimension::resistance) x = 2.5;
+    if (p.dimension == Dimension::dimensionless) x = 0.45;  // a coupling factor inside (-1, 1)
+  }
+  return s;
+}
+
+// Records what a kind's netlist hook writes.
+struct RecordingSink final : ElementSink {
+  int gm_cells = 0;
+  std::vector<std::pair<std::string, double>> resistors, capacitors, inductors;
+  void gm_cell(std::string_view) override { ++gm_cells; }
+  void resistor(std::string_view name, std::string_view, std::string_view, double ohms) override {
+    resistors.emplace_back(name, ohms);
+  }
+  void capacitor(std::string_view name, std::string_view, std::string_view, double farads) override {
+    capacitors.emplace_back(name, farads);
+  }
+  bool inductor(std::string_view name, std::string_view, std::string_view, double henries, double) override {
+    inductors.emplace_back(name, henries);
+    return true;
+  }
+  void coupling(std::string_view, std::string_view, std::string_view, double) override {}
+};
+
+}  // namespace
+
+TEST_CASE("every kind in the table: passive load, DC resistance hook, netlist hook and a consistent table") {
+  for (const auto& info : all_load_kinds()) {
+    CAPTURE(info.name);
+    // The table: unique keys; every element and loss has a field; a loss names a coil of its kind.
+    for (const auto& p : info.parameters) {
+      CAPTURE(p.key);
+      int same = 0;
+      for (const auto& q : info.parameters) same += q.key == p.key;
+      CHECK(same == 1);
+      if (p.role == ParameterRole::design) CHECK(p.field == nullptr);
+      else CHECK(p.field != nullptr);
+      if (p.role == ParameterRole::element) CHECK(p.plan_hi > p.plan_lo);
+      if (p.role == ParameterRole::loss) {
+        const auto* coil = find_parameter(info, p.loss_of);
+        REQUIRE(coil != nullptr);
+        CHECK(coil->dimension == Dimension::inductance);
+      }
+    }
+    CHECK((info.design == DesignFactor::none) == !info.apply_design);
+
+    const auto s = from_table(info);
+    const auto system = build_stage_system(s);
+    // Passivity: a network of positive R, L, C and coils coupled with |k| < 1 has a positive-real
+    // driving-point impedance, so Re Z(j w) >= 0 at the drain at every frequency (derived: the
+    // power it absorbs, 1/2 Re Z |I|^2, is the sum of its resistors' dissipation).
+    for (double f = 1e6; f < 1e13; f *= 1.5) {
+      const auto z = system.impedance(drain_node, jw(f));
+      CHECK(z.real() >= -1e-9 * std::abs(z));
+    }
+    // DC: coils are their losses, capacitors open; with r_load open the drain sees the
+    // kind's DC resistance (the hook), and the gain is -gm times what reaches the output.
+    REQUIRE(static_cast<bool>(info.dc_resistance));
+    CHECK(system.impedance(drain_node, {0.0, 0.0}).real() == doctest::Approx(info.dc_resistance(s)).epsilon(1e-9));
+    // The netlist hook writes one gm cell, Rd and c_out, and one L per coil of the table.
+    RecordingSink sink;
+    REQUIRE(static_cast<bool>(info.netlist));
+    info.netlist(s, sink);
+    CHECK(sink.gm_cells == 1);
+    CHECK(std::count(sink.resistors.begin(), sink.resistors.end(), std::pair<std::string, double>{"Rd", s.rd}) == 1);
+    CHECK(std::count(sink.capacitors.begin(), sink.capacitors.end(), std::pair<std::string, double>{"Cout", s.c_out}) == 1);
+    size_t coils = 0;
+    for (const auto& p : info.parameters) coils += p.role == ParameterRole::element && p.dimension == Dimension::inductance;
+    CHECK(sink.inductors.size() == coils);
   }
 }
