@@ -1,9 +1,12 @@
 #include "models/analysis.hpp"
 
+#include <algorithm>
 #include <cmath>
+#include <limits>
 #include <numbers>
 
 #include "models/eye_overlay.hpp"
+#include "models/parallel.hpp"
 #include "models/peaking_design.hpp"
 
 namespace peakplan {
@@ -18,7 +21,8 @@ ResponseSummary summarise_rational_only(const Cascade& cascade, const AnalysisOp
 }  // namespace
 
 ResponseSummary summarise(const Cascade& cascade, const std::vector<const NodalSystem*>& exact,
-                          const AnalysisOptions& options) {
+                          const AnalysisOptions& options, std::optional<std::pair<double, double>> span,
+                          const SampledResponse* presampled) {
   ResponseSummary r;
   r.frequency = frequency_metrics(cascade, options.ripple_band_hz);
   r.poles = cascade.poles();
@@ -28,9 +32,12 @@ ResponseSummary summarise(const Cascade& cascade, const std::vector<const NodalS
   r.step = step_metrics(wave);
   if (options.keep_waveforms) {
     r.step_wave = std::move(wave);
-    const auto [f_lo, f_hi] = natural_span(cascade, 1.0);
+    const auto [f_lo, f_hi] = span ? *span : natural_span(cascade, 1.0);
     const auto grid = FrequencyGrid::log(f_lo, f_hi, std::max(2, options.points));
-    r.sampled = exact.empty() ? sample_rational(cascade, grid) : sample_nodal(exact, grid);
+    if (presampled && presampled->frequency_hz == grid.hz())
+      r.sampled = *presampled;
+    else
+      r.sampled = exact.empty() ? sample_rational(cascade, grid) : sample_nodal(exact, grid);
   }
   return r;
 }
@@ -48,6 +55,7 @@ double input_impedance_error(const StageCircuit& stage, double f_max_hz) {
 
 ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) {
   ChainAnalysis result;
+  result.signal = options.signal;
   std::vector<NodalSystem> systems;
   std::vector<Rational> rationals;
   systems.reserve(chain.stages.size());
@@ -56,10 +64,40 @@ ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) 
     rationals.push_back(systems.back().rational());
   }
 
-  for (size_t i = 0; i < chain.stages.size(); ++i) {
+  NodalSystem source_system;
+  const bool driven_through_source =
+      chain.r_source > 0.0 && chain.stages[static_cast<size_t>(chain.input_stage())].c_in > 0.0;
+  if (driven_through_source) {
+    const int in = source_system.add_node("in");
+    source_system.add_source(in, chain.r_source);
+    source_system.add_capacitor(in, NodalSystem::ground,
+                                chain.stages[static_cast<size_t>(chain.input_stage())].c_in);
+    source_system.set_output(in);
+  }
+  // One span for every sampled response: the union of the stages' and the source's natural
+  // spans, which holds every cascade's poles and zeros.
+  std::optional<std::pair<double, double>> span;
+  if (options.keep_waveforms) {
+    std::pair<double, double> all{std::numeric_limits<double>::infinity(), 0.0};
+    auto include = [&](const Rational& r) {
+      const auto [lo, hi] = natural_span(Cascade({r}), 1.0);
+      all = {std::min(all.first, lo), std::max(all.second, hi)};
+    };
+    for (const auto& r : rationals) include(r);
+    if (driven_through_source) include(source_system.rational());
+    if (all.first < all.second) span = all;
+  }
+  std::optional<SampledResponse> source_sampled;
+  if (driven_through_source && span)
+    source_sampled = sample_nodal({&source_system}, FrequencyGrid::log(span->first, span->second, std::max(2, options.points)));
+
+  // Every stage alone is independent of the others: in parallel, each into its own slot, so the
+  // result does not depend on the thread count.
+  result.stages.resize(chain.stages.size());
+  parallel_for(chain.stages.size(), options.threads, [&](size_t i) {
     StageSummary stage;
     stage.stage = static_cast<int>(i);
-    stage.alone = summarise(Cascade({rationals[i]}), {&systems[i]}, options);
+    stage.alone = summarise(Cascade({rationals[i]}), {&systems[i]}, options, span);
     const auto& s = chain.stages[i];
     if (s.intent.kind == DesignIntent::Kind::zeta && s.circuit.kind == LoadKind::tcoil) {
       AnalysisOptions bare;
@@ -81,19 +119,9 @@ ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) 
           input_impedance_error(s.circuit, 3.0 * check.ideal_bandwidth_hz);
       stage.design_check = check;
     }
-    result.stages.push_back(std::move(stage));
-  }
+    result.stages[i] = std::move(stage);
+  });
 
-  NodalSystem source_system;
-  const bool driven_through_source =
-      chain.r_source > 0.0 && chain.stages[static_cast<size_t>(chain.input_stage())].c_in > 0.0;
-  if (driven_through_source) {
-    const int in = source_system.add_node("in");
-    source_system.add_source(in, chain.r_source);
-    source_system.add_capacitor(in, NodalSystem::ground,
-                                chain.stages[static_cast<size_t>(chain.input_stage())].c_in);
-    source_system.set_output(in);
-  }
   for (size_t i = 0; i < chain.stages.size(); ++i) {
     Cascade cascade;
     if (driven_through_source) cascade.append(source_system.rational());
@@ -108,28 +136,41 @@ ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) 
       cascade.append(source_system.rational());
       exact.push_back(&source_system);
     }
+    // The stages alone were sampled on the same grid: their product is the cascade's sample.
+    std::vector<const SampledResponse*> samples;
+    if (driven_through_source && options.keep_waveforms) samples.push_back(&*source_sampled);
     for (int s : chain.path_to(out)) {
       cascade.append(rationals[static_cast<size_t>(s)]);
       exact.push_back(&systems[static_cast<size_t>(s)]);
+      samples.push_back(&result.stages[static_cast<size_t>(s)].alone.sampled);
     }
-    OutputSummary summary{out, summarise(cascade, exact, options), std::nullopt, std::nullopt};
+    const auto presampled = options.keep_waveforms && span ? std::optional(in_series(samples)) : std::nullopt;
+    OutputSummary summary{out, {}, std::nullopt, std::nullopt};
+    EyeSummary eye;
+    // Three independent parts, each into its own slot: the response, the eye and the noise.
+    parallel_for(options.signal ? 3 : 1, options.threads, [&](size_t part) {
+      if (part == 0) {
+        summary.response = summarise(cascade, exact, options, span, presampled ? &*presampled : nullptr);
+      } else if (part == 1) {
+        const Signal& signal = *options.signal;
+        if (options.keep_waveforms) {
+          // Measure and draw the eye from one overlay.
+          eye.estimate.pulse = pulse_response(cascade, signal);
+          const EyeOverlay built(eye.estimate.pulse, signal);
+          eye.estimate.pda = built.pda;
+          eye.estimate.prbs = prbs_eye(eye.estimate.pulse, signal, built);
+          eye.traces = eye_traces(eye.estimate.pulse, eye.estimate.prbs, signal, built);
+        } else {
+          eye.estimate = estimate_eye(cascade, signal);
+        }
+      } else {
+        eye.noise = summarise_noise(ChainNoise(chain, out, options.noise));
+      }
+    });
     if (options.signal) {
       const Signal& signal = *options.signal;
-      EyeSummary eye;
-      if (options.keep_waveforms) {
-        // Measure and draw the eye from one overlay.
-        eye.estimate.pulse = pulse_response(cascade, signal);
-        const EyeOverlay built(eye.estimate.pulse, signal);
-        eye.estimate.pda = built.pda;
-        eye.estimate.prbs = prbs_eye(eye.estimate.pulse, signal, built);
-        eye.traces = eye_traces(eye.estimate.pulse, eye.estimate.prbs, signal, built);
-      } else {
-        eye.estimate = estimate_eye(cascade, signal);
-      }
-      const ChainNoise noise(chain, out, options.noise);
-      eye.noise = summarise_noise(noise);
       if (options.swing_given)
-        eye.statistical = statistical_eye(eye.estimate.pulse, eye.estimate.prbs, signal, eye.noise.output_rms_v);
+        eye.statistical = statistical_eye(eye.estimate.pulse, eye.estimate.prbs, signal, eye.noise.differential_rms_v);
       summary.eye = std::move(eye);
       if (options.large_signal && options.swing_given && chain.has_limited_stage())
         summary.large_signal = large_signal_eye(chain, out, signal);

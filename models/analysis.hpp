@@ -27,6 +27,9 @@ struct AnalysisOptions {
   // With a signal, a swing and a limited stage on the path: the large-signal eye per output.
   bool large_signal = true;
   NoiseOptions noise;
+  // Threads for the independent parts (the stages alone, an output's eye beside its noise); the
+  // results are the same for every count. 1 inside loops that are parallel already.
+  int threads = 1;
 };
 
 struct EyeSummary {
@@ -79,10 +82,17 @@ struct OutputSummary {
 struct ChainAnalysis {
   std::vector<StageSummary> stages;   // file order
   std::vector<OutputSummary> outputs; // main output last
+  std::optional<Signal> signal;       // what the eyes were computed for (AnalysisOptions::signal)
 };
 
+// `span` (Hz, lo and hi) is where the kept frequency response is sampled; by default the
+// cascade's own natural span. analyze_chain gives every response of a chain one span, so that
+// plots overlay them from edge to edge. `presampled`, when given, is that sampled response
+// already (the product of the blocks' own samples on the same grid), and nothing is solved again.
 ResponseSummary summarise(const Cascade& cascade, const std::vector<const NodalSystem*>& exact,
-                          const AnalysisOptions& options);
+                          const AnalysisOptions& options,
+                          std::optional<std::pair<double, double>> span = std::nullopt,
+                          const SampledResponse* presampled = nullptr);
 ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options = {});
 
 // Max |Z_in / Rd - 1| of a stage's load seen from the drain without c_out, up to f_max.

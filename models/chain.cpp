@@ -72,7 +72,10 @@ Rational stage_rational(const ChainStage& stage) {
 
 Cascade output_cascade(const Chain& chain, int output) {
   Cascade cascade;
-  cascade.append(source_rational(chain));
+  // The source pole only when there is one (r_source and c_in both given), as analyze_chain and
+  // the noise model see the source; otherwise no block at all rather than H = 1.
+  const auto& input = chain.stages[static_cast<size_t>(chain.input_stage())];
+  if (chain.r_source > 0.0 && input.c_in > 0.0) cascade.append(source_rational(chain));
   // Copies of a counted stage are the same circuit: derive each distinct circuit once.
   const ChainStage* previous = nullptr;
   for (int s : chain.path_to(output)) {

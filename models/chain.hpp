@@ -52,7 +52,8 @@ void fill_node_capacitances(Chain& chain);
 // The source network: r_source with the input stage's c_in (1 when r_source is 0).
 Rational source_rational(const Chain& chain);
 Rational stage_rational(const ChainStage& stage);
-// Source and every stage on the path to `output`, as rational blocks.
+// The source pole (when r_source and c_in are both given) and every stage on the path to
+// `output`, as rational blocks: the cascade analyze_chain, the noise model and Monte Carlo share.
 Cascade output_cascade(const Chain& chain, int output);
 
 }  // namespace peakplan

@@ -167,6 +167,17 @@ PrbsEye prbs_eye(const PulseResponse& pulse, const Signal& signal, const EyeOver
     };
   };
   r.eye = opening(worst(eye_height), worst(eye_margin));
+  {
+    const int best = static_cast<int>(std::lround(r.eye.best_offset_s / pulse.dt()));
+    std::vector<double> thresholds;
+    for (int e = 0; e < eyes; ++e) thresholds.push_back(envelope.centre(e, best));
+    auto margin = [&](int o) {  // where every eye is open at its own centred threshold
+      double v = std::numeric_limits<double>::infinity();
+      for (int e = 0; e < eyes; ++e) v = std::min(v, envelope.margin_to(e, o, thresholds[static_cast<size_t>(e)]));
+      return v;
+    };
+    r.width_centred_ui = margin(best) > 0.0 ? open_span(margin, best, -n, n) / n : 0.0;
+  }
   for (int e = 0; e < eyes; ++e)
     if (r.eyes[static_cast<size_t>(e)].height < r.eyes[static_cast<size_t>(r.worst_eye)].height) r.worst_eye = e;
   r.sample_time_s = pda.sample_time_s + r.eye.best_offset_s;
@@ -210,25 +221,66 @@ double q_from_ber(double ber) {
   return 0.5 * (lo + hi);
 }
 
-double height_at_ber(std::span<const double> cursors, int main_index, Modulation modulation,
-                     double sigma, double ber, double* resolution) {
-  if (!(sigma >= 0.0)) throw std::invalid_argument("height_at_ber: sigma < 0");
-  const int eyes = modulation == Modulation::pam4 ? 3 : 1;
-  const int levels = eyes + 1;
-  const double spacing = cursors[static_cast<size_t>(main_index)] / eyes;
+namespace {
+
+// The spread of the ISI a phase's cursors can add: the sum of the negative and of the positive
+// cursors other than the main one.
+std::pair<double, double> isi_bounds(std::span<const double> cursors, int main_index) {
   double isi_min = 0.0, isi_max = 0.0;
   for (size_t j = 0; j < cursors.size(); ++j) {
     if (static_cast<int>(j) == main_index) continue;
     isi_min += std::min(0.0, cursors[j]);
     isi_max += std::max(0.0, cursors[j]);
   }
+  return {isi_min, isi_max};
+}
+
+double noise_reach(double ber) { return std::max(8.0, q_from_ber(ber) + 2.0); }  // noise tail, in sigma
+
+// The voltage grid of height_at_ber and the Gaussian tail on it, P(N > m*delta) for |m| <= half,
+// which one statistical eye shares over its phases (the tail depends only on delta / sigma).
+// erfc(x) is exactly 2 in double below x = -6 (2 - 2e-17 rounds to 2) and exactly 0 above
+// x = 28 (it underflows): those entries are set without the call, and hold the same bits.
+struct BerGrid {
+  double delta = 0.0;
+  int half = 0;
+  std::vector<double> tail;
+  BerGrid(double delta_, double sigma, int half_) : delta(delta_), half(half_), tail(static_cast<size_t>(2 * half_ + 1)) {
+    for (int mm = -half; mm <= half; ++mm) {
+      double t;
+      if (sigma > 0.0) {
+        const double x = mm * delta / (sigma * std::numbers::sqrt2);
+        t = x < -6.0 ? 1.0 : x > 28.0 ? 0.0 : 0.5 * std::erfc(x);
+      } else {
+        t = mm < 0 ? 1.0 : 0.0;
+      }
+      tail[static_cast<size_t>(mm + half)] = t;
+    }
+  }
+};
+
+// Bins of max(range/2048, (range + 2 reach sigma)/8192) for an ISI range of `range`; 0 when there
+// is neither ISI nor noise.
+double grid_delta(double range, double sigma, double reach) {
+  const double total = range + 2.0 * reach * sigma;
+  return total == 0.0 ? 0.0 : std::max(range / 2048.0, total / 8192.0);
+}
+// Tail entries a phase of ISI range `range` can need on bins of `delta`.
+int grid_half(double range, double sigma, double reach, double delta) {
+  const int bins = static_cast<int>(std::ceil(range / delta)) + 2;
+  const int noise_bins = sigma > 0.0 ? static_cast<int>(std::ceil(reach * sigma / delta)) + 1 : 1;
+  return bins + noise_bins + 2;
+}
+
+double height_on_grid(std::span<const double> cursors, int main_index, Modulation modulation, double sigma,
+                      double ber, double reach, const BerGrid& grid) {
+  const int eyes = modulation == Modulation::pam4 ? 3 : 1;
+  const int levels = eyes + 1;
+  const double spacing = cursors[static_cast<size_t>(main_index)] / eyes;
+  const auto [isi_min, isi_max] = isi_bounds(cursors, main_index);
   const double isi_range = isi_max - isi_min;
-  const double reach = std::max(8.0, q_from_ber(ber) + 2.0);  // noise tail, in sigma
-  const double total = isi_range + 2.0 * reach * sigma;
-  if (resolution) *resolution = 0.0;
-  if (total == 0.0) return spacing * eyes;
-  const double delta = std::max(isi_range / 2048.0, total / 8192.0);
-  if (resolution) *resolution = delta;
+  const double delta = grid.delta;
+  if (delta == 0.0) return spacing * eyes;
 
   // ISI distribution on x = isi_min + i*delta. Each cursor's share a*c - min(0, c) in [0, |c|]
   // is split between its two neighbouring bins so the mean stays exact. Cursors below delta/16
@@ -268,16 +320,10 @@ double height_at_ber(std::span<const double> cursors, int main_index, Modulation
   }
 
   // P(X + noise > x_i) and P(X + noise < x_i) at grid points i (which may lie outside the ISI
-  // bins, out to the noise reach), with the Gaussian tail evaluated exactly at each offset.
+  // bins, out to the noise reach), with the Gaussian tail of the shared grid.
   const int noise_bins = sigma > 0.0 ? static_cast<int>(std::ceil(reach * sigma / delta)) + 1 : 1;
-  const int table_half = occupied + noise_bins + 2;
-  std::vector<double> tail(static_cast<size_t>(2 * table_half + 1));  // P(N > m*delta)
-  for (int mm = -table_half; mm <= table_half; ++mm) {
-    double t;
-    if (sigma > 0.0) t = 0.5 * std::erfc(mm * delta / (sigma * std::numbers::sqrt2));
-    else t = mm < 0 ? 1.0 : 0.0;
-    tail[static_cast<size_t>(mm + table_half)] = t;
-  }
+  const int table_half = grid.half;
+  const std::vector<double>& tail = grid.tail;
   auto above = [&](int i) {  // P(X + N > x_i)
     double sum = 0.0;
     for (int k = 0; k < occupied; ++k) sum += pmf[static_cast<size_t>(k)] * tail[static_cast<size_t>(i - k + table_half)];
@@ -310,6 +356,20 @@ double height_at_ber(std::span<const double> cursors, int main_index, Modulation
   return eyes * (spacing - (upper - lower) - dropped);
 }
 
+}  // namespace
+
+double height_at_ber(std::span<const double> cursors, int main_index, Modulation modulation,
+                     double sigma, double ber, double* resolution) {
+  if (!(sigma >= 0.0)) throw std::invalid_argument("height_at_ber: sigma < 0");
+  const double reach = noise_reach(ber);
+  const auto [isi_min, isi_max] = isi_bounds(cursors, main_index);
+  const double range = isi_max - isi_min;
+  const double delta = grid_delta(range, sigma, reach);
+  if (resolution) *resolution = delta;
+  const BerGrid grid(delta, sigma, delta > 0.0 ? grid_half(range, sigma, reach, delta) : 0);
+  return height_on_grid(cursors, main_index, modulation, sigma, ber, reach, grid);
+}
+
 StatisticalEye statistical_eye(const PulseResponse& pulse, const PrbsEye& prbs, const Signal& signal,
                                double noise_rms_v) {
   if (!(noise_rms_v >= 0.0)) throw std::invalid_argument("statistical_eye: noise < 0");
@@ -325,10 +385,23 @@ StatisticalEye statistical_eye(const PulseResponse& pulse, const PrbsEye& prbs, 
   r.ber = ber_from_q(r.q);
 
   const int n = pulse.steps_per_ui;
+  // One grid for every phase, fine enough for the widest ISI spread among them, so the Gaussian
+  // tail is tabulated once rather than once per phase.
+  std::vector<std::vector<double>> cursors(static_cast<size_t>(n));
+  double widest = 0.0;
+  for (int phase = 0; phase < n; ++phase) {
+    cursors[static_cast<size_t>(phase)] = pulse.cursors(phase);
+    const auto& c = cursors[static_cast<size_t>(phase)];
+    const auto [lo, hi] = isi_bounds(c, main_cursor(c));
+    widest = std::max(widest, hi - lo);
+  }
+  const double reach = noise_reach(signal.target_ber);
+  const double delta = grid_delta(widest, sigma, reach);
+  const BerGrid grid(delta, sigma, delta > 0.0 ? grid_half(widest, sigma, reach, delta) : 0);
   std::vector<double> h(static_cast<size_t>(n));
   for (int phase = 0; phase < n; ++phase) {
-    const auto c = pulse.cursors(phase);
-    h[static_cast<size_t>(phase)] = height_at_ber(c, main_cursor(c), signal.modulation, sigma, signal.target_ber);
+    const auto& c = cursors[static_cast<size_t>(phase)];
+    h[static_cast<size_t>(phase)] = height_on_grid(c, main_cursor(c), signal.modulation, sigma, signal.target_ber, reach, grid);
   }
   // The phase axis is circular: phase n-1 is followed by phase 0 of the next UI.
   auto at = [&](int i) { return h[static_cast<size_t>(((i % n) + n) % n)]; };

@@ -91,6 +91,12 @@ struct PrbsEye {
   EyeOpening eye;
   std::vector<EyeOpening> eyes;  // PAM4: lower, middle, upper eye, each at its own best offset
   int worst_eye = 0;             // index into eyes (0 for NRZ)
+  // The width at thresholds centred in each eye's opening at the common sampling offset (an
+  // adaptive slicer's), rather than at the nominal 1/6, 1/2, 5/6 (NRZ 1/2): ISI squeezes a PAM4
+  // chain's outer levels towards the middle, and the nominal thresholds then sit off centre.
+  // The span where every eye is open at its own centred threshold, UI, as eye.width_ui is at the
+  // nominal thresholds; 0 when an eye is closed at the sampling offset.
+  double width_centred_ui = 0.0;
   double sample_time_s = 0.0;    // best sampling instant after the start of a symbol's pulse
   // NRZ: max - min of the threshold crossings about their nominal edges; NaN when the number of
   // crossings differs from the number of data transitions, and for PAM4.

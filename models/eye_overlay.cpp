@@ -41,11 +41,13 @@ void PatternOverlay::lay_out(const Signal& signal) {
   const std::uint64_t period = prbs_period(signal.pattern);
   truncated_ = period > max_overlay_symbols;
   count_ = static_cast<long>(truncated_ ? max_overlay_symbols : period);
-  // Truncated patterns start from the register's seed; their first `span` symbols of history
-  // are simulated and discarded. Periodic ones wrap: the exact periodic steady state.
+  // Truncated patterns overlay a typical stretch, half a period in (prbs_typical_start), not the
+  // run right after the seed; its first `span` symbols of history are simulated and discarded.
+  // Periodic ones wrap: the exact periodic steady state.
   first_ = truncated_ ? span_ + 2 : 0;
   const long generated = truncated_ ? first_ + count_ + m_ + 3 : count_;
-  const auto bits = prbs_bits(signal.pattern, static_cast<size_t>(pam4 ? 2 * generated : generated));
+  const auto bits = prbs_bits(signal.pattern, static_cast<size_t>(pam4 ? 2 * generated : generated),
+                              truncated_ ? prbs_typical_start(signal.pattern) : 0);
   symbol_ = pam4 ? pam4_levels(bits) : nrz_levels(bits);
 
   // Blocks of one UI; block b holds t in [b*UI, (b+1)*UI). Symbol k's pulse starts in block k,

@@ -6,7 +6,8 @@
 // (exact for a linear chain), summed in blocks of one UI with cursors j ascending and zero
 // symbols skipped. Patterns whose period fits max_overlay_symbols are their exact periodic
 // steady state (circular superposition); longer ones are truncated to max_overlay_symbols
-// symbols, started from the register's seed after pulse.ui_count + 2 symbols of history.
+// symbols, started half a period into the sequence (prbs_typical_start), after pulse.ui_count + 2
+// symbols of history.
 //
 // Sample positions: symbol i (0 .. count-1) is the i-th overlaid symbol; its sampling instant is
 // pda.sample_time_s after the start of its pulse, and its trace spans offsets o = -n .. n
@@ -33,7 +34,7 @@ class PatternOverlay {
   // models/large_signal.hpp), with `pda` of the linear pulse response as the sampling reference
   // and `span` its length in UI. `simulate` receives the symbol levels of the blocks
   // b0 - warm .. b1 - 1 in time order (one level per UI; wrapped for a periodic pattern, from
-  // the register's seed when truncated) and the number `warm` of leading blocks to discard, and
+  // half a period in when truncated) and the number `warm` of leading blocks to discard, and
   // returns the waveform (levels 0..1) over blocks b0 .. b1 - 1, steps_per_ui samples each.
   // warm is span + 2 for a periodic pattern (the memory the pulse response spans), and every
   // block ahead of b0 when truncated.
@@ -84,10 +85,13 @@ struct OverlayEnvelope {
   // Eye e's inner opening and its margin to the eye's decision threshold (2e + 1) / (2 eyes),
   // both as fractions of the ideal eye (1/eyes of the swing), at offset o.
   double height(int e, long o) const { return eyes * (lo[slot(e + 1, o)] - hi[slot(e, o)]); }
-  double margin(int e, long o) const {
-    const double threshold = (2.0 * e + 1.0) / (2.0 * eyes);
+  double margin(int e, long o) const { return margin_to(e, o, (2.0 * e + 1.0) / (2.0 * eyes)); }
+  // The same margin to any threshold (levels 0..1).
+  double margin_to(int e, long o, double threshold) const {
     return eyes * std::min(lo[slot(e + 1, o)] - threshold, threshold - hi[slot(e, o)]);
   }
+  // The middle of eye e's opening at offset o: an adaptive slicer's threshold.
+  double centre(int e, long o) const { return 0.5 * (lo[slot(e + 1, o)] + hi[slot(e, o)]); }
 };
 
 // The overlay of one pulse response and its envelope: what prbs_eye measures and eye_traces

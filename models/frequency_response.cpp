@@ -79,6 +79,22 @@ SampledResponse sample_nodal(const std::vector<const NodalSystem*>& blocks, cons
   return r;
 }
 
+SampledResponse in_series(const std::vector<const SampledResponse*>& blocks) {
+  if (blocks.empty()) throw std::invalid_argument("in_series: no blocks");
+  SampledResponse r;
+  r.frequency_hz = blocks.front()->frequency_hz;
+  r.h.assign(r.frequency_hz.size(), 1.0);
+  r.group_delay_s.assign(r.frequency_hz.size(), 0.0);
+  for (const auto* b : blocks) {
+    if (b->frequency_hz != r.frequency_hz) throw std::invalid_argument("in_series: the blocks' grids differ");
+    for (size_t i = 0; i < r.h.size(); ++i) {
+      r.h[i] *= b->h[i];
+      r.group_delay_s[i] += b->group_delay_s[i];
+    }
+  }
+  return r;
+}
+
 SampledResponse sample_rational(const Cascade& cascade, const FrequencyGrid& grid) {
   SampledResponse r;
   r.frequency_hz = grid.hz();

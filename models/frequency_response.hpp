@@ -33,6 +33,9 @@ struct SampledResponse {
 // The exact response of blocks in series, solving each block's nodal system at every frequency;
 // group delay from the derivative of the same solves.
 SampledResponse sample_nodal(const std::vector<const NodalSystem*>& blocks, const FrequencyGrid& grid);
+// Blocks in series from their responses sampled on one grid: the product of the transfers and the
+// sum of the group delays, with no solve. Throws std::invalid_argument when the grids differ.
+SampledResponse in_series(const std::vector<const SampledResponse*>& blocks);
 // The same from the rational form (fast path for the planner and for plots).
 SampledResponse sample_rational(const Cascade& cascade, const FrequencyGrid& grid);
 

@@ -11,22 +11,6 @@ namespace peakplan {
 namespace {
 
 // The main output's cascade, block for block as analyze_chain builds it.
-Cascade main_cascade(const Chain& chain) {
-  Cascade cascade;
-  const auto& input = chain.stages[static_cast<size_t>(chain.input_stage())];
-  if (chain.r_source > 0.0 && input.c_in > 0.0) cascade.append(source_rational(chain));
-  const ChainStage* previous = nullptr;
-  for (int s : chain.path_to(chain.outputs().back())) {
-    const auto& stage = chain.stages[static_cast<size_t>(s)];
-    if (previous && previous->circuit == stage.circuit)
-      cascade.append(cascade.blocks().back());
-    else
-      cascade.append(stage_rational(stage));
-    previous = &stage;
-  }
-  return cascade;
-}
-
 double quantile(const std::vector<double>& sorted, double p) {
   const double h = p * static_cast<double>(sorted.size() - 1);
   const auto lo = static_cast<size_t>(std::floor(h));
@@ -51,7 +35,7 @@ const CaseMetric kMetrics[] = {
 std::span<const CaseMetric> case_metrics() { return kMetrics; }
 
 CaseMetrics measure_case(const Chain& chain, const CaseOptions& options) {
-  const Cascade cascade = main_cascade(chain);
+  const Cascade cascade = output_cascade(chain, chain.outputs().back());
   CaseMetrics m;
   m.f = frequency_metrics(cascade, options.ripple_band_hz);
   const auto axis = options.short_step ? short_time_axis(cascade, m.f.bandwidth_hz)

@@ -138,10 +138,38 @@ std::complex<double> NodalSystem::transfer(std::complex<double> s) const {
   return transfer_and_derivative(s).first;
 }
 
+namespace {
+
+// H and dH/ds (per scaled s) of an N-unknown system: (G + sC) x = b, (G + sC) dx = -C x.
+template <int N, class Assembled>
+std::pair<std::complex<double>, std::complex<double>> solve_fixed(const Assembled& a, std::complex<double> s_scaled,
+                                                                  int output, double time_scale) {
+  using Matrix = Eigen::Matrix<std::complex<double>, N, N>;
+  using Vector = Eigen::Matrix<std::complex<double>, N, 1>;
+  const Eigen::Map<const Matrix> g(a.g.data()), c(a.c.data());  // views, no copies
+  const Eigen::PartialPivLU<Matrix> lu(g + s_scaled * c);
+  const Vector x = lu.solve(Eigen::Map<const Vector>(a.b.data()));
+  const Vector dx = -lu.solve(c * x);
+  return {x(output), dx(output) * time_scale};
+}
+
+}  // namespace
+
 std::pair<std::complex<double>, std::complex<double>> NodalSystem::transfer_and_derivative(
     std::complex<double> s) const {
   if (output_ == ground) throw std::logic_error("NodalSystem: no output node set");
   const auto& a = assembled();
+  switch (size()) {  // the sizes stages have: fixed-size matrices, unrolled by Eigen
+    case 1: return solve_fixed<1>(a, s * time_scale, output_, time_scale);
+    case 2: return solve_fixed<2>(a, s * time_scale, output_, time_scale);
+    case 3: return solve_fixed<3>(a, s * time_scale, output_, time_scale);
+    case 4: return solve_fixed<4>(a, s * time_scale, output_, time_scale);
+    case 5: return solve_fixed<5>(a, s * time_scale, output_, time_scale);
+    case 6: return solve_fixed<6>(a, s * time_scale, output_, time_scale);
+    case 7: return solve_fixed<7>(a, s * time_scale, output_, time_scale);
+    case 8: return solve_fixed<8>(a, s * time_scale, output_, time_scale);
+    default: break;
+  }
   const Eigen::PartialPivLU<Eigen::MatrixXcd> lu(a.g + (s * time_scale) * a.c);
   const Eigen::VectorXcd x = lu.solve(a.b);
   const Eigen::VectorXcd dx = -lu.solve(a.c * x);  // per scaled s

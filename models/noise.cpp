@@ -21,11 +21,28 @@ double generator_psd(const NodalSystem::NoiseGenerator& g, const NoiseOptions& o
   return 0.0;
 }
 
-std::complex<double> excitation(const Eigen::VectorXcd& w, const NodalSystem::NoiseGenerator& g) {
+template <class Vector>
+std::complex<double> excitation(const Vector& w, const NodalSystem::NoiseGenerator& g) {
   std::complex<double> v = 0.0;
   if (g.plus != NodalSystem::ground) v += w(g.plus);
   if (g.minus != NodalSystem::ground) v -= w(g.minus);
   return v;
+}
+
+// w = (G + sC)^-T e_out, then the transfer w . b and the PSD sum |w . e_gen|^2 S_gen; fixed-size
+// matrices (N unknowns, unrolled by Eigen) for the small systems stages are.
+template <int N, class Generators>
+std::pair<std::complex<double>, double> evaluate_fixed(const Eigen::MatrixXcd& g, const Eigen::MatrixXcd& c,
+                                                       const Eigen::VectorXcd& b, const Eigen::VectorXcd& e_out,
+                                                       const Generators& generators, std::complex<double> s_scaled) {
+  using Matrix = Eigen::Matrix<std::complex<double>, N, N>;
+  using Vector = Eigen::Matrix<std::complex<double>, N, 1>;
+  const Eigen::Map<const Matrix> gm(g.data()), cm(c.data());  // views, no copies
+  const Matrix y = (gm + s_scaled * cm).transpose();
+  const Vector w = Eigen::PartialPivLU<Matrix>(y).solve(Eigen::Map<const Vector>(e_out.data()));
+  double psd = 0.0;
+  for (const auto& [gen, density] : generators) psd += std::norm(excitation(w, gen)) * density;
+  return {w.cwiseProduct(Eigen::Map<const Vector>(b.data())).sum(), psd};
 }
 
 }  // namespace
@@ -46,6 +63,17 @@ CircuitNoise::CircuitNoise(const NodalSystem& system, const NoiseOptions& option
 std::pair<std::complex<double>, double> CircuitNoise::evaluate(double f_hz) const {
   const std::complex<double> s_scaled(0.0, kTwoPi * f_hz * NodalSystem::time_scale);
   // v_out = e_out^T (G + sC)^-1 e = w^T e for every right-hand side e: one transposed solve.
+  switch (g_.rows()) {
+    case 1: return evaluate_fixed<1>(g_, c_, b_, e_out_, generators_, s_scaled);
+    case 2: return evaluate_fixed<2>(g_, c_, b_, e_out_, generators_, s_scaled);
+    case 3: return evaluate_fixed<3>(g_, c_, b_, e_out_, generators_, s_scaled);
+    case 4: return evaluate_fixed<4>(g_, c_, b_, e_out_, generators_, s_scaled);
+    case 5: return evaluate_fixed<5>(g_, c_, b_, e_out_, generators_, s_scaled);
+    case 6: return evaluate_fixed<6>(g_, c_, b_, e_out_, generators_, s_scaled);
+    case 7: return evaluate_fixed<7>(g_, c_, b_, e_out_, generators_, s_scaled);
+    case 8: return evaluate_fixed<8>(g_, c_, b_, e_out_, generators_, s_scaled);
+    default: break;
+  }
   const Eigen::MatrixXcd y = (g_ + s_scaled * c_).transpose();
   const Eigen::VectorXcd w = Eigen::PartialPivLU<Eigen::MatrixXcd>(y).solve(e_out_);
   double psd = 0.0;
@@ -144,13 +172,19 @@ NoiseSummary summarise_noise(const ChainNoise& noise) {
   auto [f_lo, f_hi] = natural_span(noise.cascade(), 3.0);
   // A generator may see a mode the signal path cancels; if the PSD still falls slowly at the
   // end of the span, the span grows (up to six decades) before the tail is trusted.
-  const auto psd = [&](double f) { return noise.output_psd(f); };
+  const double fr = noise.options().receiver_bandwidth_hz;
+  const auto psd = [&](double f) {
+    const double psd_out = noise.output_psd(f);
+    return fr > 0.0 ? psd_out / (1.0 + (f / fr) * (f / fr)) : psd_out;
+  };
+  r.receiver_bandwidth_hz = fr;
   double total = integrate_psd(psd, f_lo, f_hi);
   for (int extra = 0; extra < 6 && !std::isfinite(total); ++extra) {
     f_hi *= 10.0;
     total = integrate_psd(psd, f_lo, f_hi);
   }
   r.output_rms_v = std::sqrt(total);
+  r.differential_rms_v = std::sqrt(2.0) * r.output_rms_v;
   r.integration_limit_hz = f_hi;
   r.noise_bandwidth_hz = noise_bandwidth(noise.cascade());
   r.equivalent_input_density = r.output_rms_v / (std::fabs(noise.dc_gain()) * std::sqrt(r.noise_bandwidth_hz));

@@ -33,6 +33,10 @@ struct NoiseOptions {
   // White noise of what drives the chain, V/rtHz, in series with its Thevenin voltage (on top
   // of r_source's own thermal noise).
   double input_density = 0.0;
+  // The receiver's input bandwidth, Hz (0: none): a first-order low-pass 1/(1 + (f/fr)^2) on the
+  // output noise behind Q and BER, as a slicer's front end band-limits it; the signal path and
+  // its eye are the chain's own.
+  double receiver_bandwidth_hz = 0.0;
 };
 
 // One circuit's noise model: its matrices and generators, ready for repeated solves.
@@ -61,6 +65,7 @@ class ChainNoise {
   std::complex<double> transfer(double f_hz) const;  // v_out / v_source, exact nodal solves
   double dc_gain() const { return cascade_.dc_value(); }
   const Cascade& cascade() const { return cascade_; }  // the same chain, rational form
+  const NoiseOptions& options() const { return options_; }
   // H and the output PSD from one set of solves.
   std::pair<std::complex<double>, double> evaluate(double f_hz) const;
 
@@ -81,11 +86,15 @@ std::vector<NoisePoint> noise_spectrum(const ChainNoise& noise, const FrequencyG
 struct NoiseSummary {
   // sqrt of the output PSD integrated over (0, inf); +inf when it is not band-limited (a white
   // input density through a chain with a direct path).
-  double output_rms_v = 0.0;
+  double output_rms_v = 0.0;  // of one half circuit, the circuit the stages describe
+  // The differential output's: the two halves' noise is uncorrelated, so sqrt(2) x output_rms_v.
+  // It is the noise beside the differential swing and eye in Q and BER.
+  double differential_rms_v = 0.0;
   double noise_bandwidth_hz = 0.0;  // integral of |H/H(0)|^2 df
   // The white source density that would give the same output rms: output_rms / (|H(0)| sqrt(NBW)).
   double equivalent_input_density = 0.0;
   double integration_limit_hz = 0.0;  // numerical part ends here; beyond, the asymptotic tail
+  double receiver_bandwidth_hz = 0.0;  // the first-order limit applied to the rms (0: none)
 };
 NoiseSummary summarise_noise(const ChainNoise& noise);
 

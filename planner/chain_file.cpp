@@ -23,7 +23,7 @@ const Keys kTopKeys{"chain", "input", "signal", "target", "limits", "technology"
                  "variation"};
 const Keys kChainKeys{"name"};
 const Keys kInputKeys{"r_source", "noise_density"};
-const Keys kSignalKeys{"bit_rate", "modulation", "pattern", "input_rise", "swing", "target_ber"};
+const Keys kSignalKeys{"bit_rate", "modulation", "pattern", "input_rise", "swing", "target_ber", "receiver_bandwidth"};
 const Keys kTargetKeys{"gain", "bandwidth", "gain_bandwidth", "objective", "plan_for"};
 const Keys kLimitsKeys{"overshoot", "peaking", "group_delay_ripple", "ripple_band"};
 const Keys kTechnologyKeys{"ft", "c_out_ratio", "inductor_q", "max_inductance", "k_range",
@@ -33,7 +33,7 @@ const Keys kStageKeys{"id", "kind", "gm", "rd", "c_in", "c_out", "c_load", "r_lo
                       "feeds", "count", "tap", "tail_current", "pair"};
 const Keys kPairs{"bipolar", "mos"};
 const Keys kModulations{"nrz", "pam4"};
-const Keys kPatterns{"prbs7", "prbs9", "prbs15", "prbs23", "prbs31"};
+const Keys kPatterns{"prbs7", "prbs9", "prbs13", "prbs13q", "prbs15", "prbs23", "prbs31"};
 const Keys kObjectives{"flattest", "widest", "leanest"};
 const Keys kResponses{"butterworth", "bessel", "critical"};
 
@@ -182,6 +182,24 @@ void read_input(Reader& reader, const toml::table& root, ChainSpec& spec) {
     spec.input_noise_density = reader.bounded(*n, Dimension::noise_density, "[input] noise_density", false);
 }
 
+// The input swing: the differential peak-to-peak swing at the chain input (twice what each half
+// circuit sees, DESIGN.md section 7). "20 mV", "20 mVpp" and "20 mVppd" all say that; the
+// suffixes are accepted because that is how swings are written, and change nothing.
+std::optional<double> read_swing(Reader& reader, const toml::node& node) {
+  const std::string text = node.is_string() ? node.as_string()->get() : std::string();
+  const size_t suffix = text.ends_with("ppd") ? 3 : text.ends_with("pp") ? 2 : 0;
+  if (suffix == 0) return reader.bounded(node, Dimension::voltage, "[signal] swing", true);
+  const auto parsed = parse_quantity(text.substr(0, text.size() - suffix), Dimension::voltage);
+  const std::string why = !parsed.value        ? parsed.error + " (a peak-to-peak voltage such as \"20 mVppd\")"
+                          : *parsed.value <= 0 ? "must be positive, saw \"" + text + "\""
+                                               : implausibility(*parsed.value, Dimension::voltage);
+  if (!why.empty()) {
+    reader.error(node, "[signal] swing: " + why);
+    return std::nullopt;
+  }
+  return parsed.value;
+}
+
 void read_signal(Reader& reader, const toml::table& root, ChainSpec& spec) {
   const auto* t = sub_table(reader, root, "signal");
   if (!t) return;
@@ -212,11 +230,19 @@ void read_signal(Reader& reader, const toml::table& root, ChainSpec& spec) {
     if (auto w = reader.word(*n, kModulations, "[signal] modulation")) signal.modulation = *w;
   if (in_baud && signal.modulation == "pam4") signal.bit_rate *= 2.0;  // two bits per PAM4 symbol
   if (const auto* n = t->get("pattern"))
-    if (auto w = reader.word(*n, kPatterns, "[signal] pattern")) signal.pattern = *w;
+    if (auto w = reader.word(*n, kPatterns, "[signal] pattern")) {
+      // PRBS13Q is PRBS13 taken two bits at a time into Gray-coded PAM4 symbols, which is what
+      // pattern = "prbs13" gives under PAM4: the same symbols, and a PAM4 pattern only.
+      if (*w == "prbs13q" && signal.modulation != "pam4")
+        reader.error(*n, "[signal] pattern \"prbs13q\" is a PAM4 pattern: set modulation = \"pam4\", or use "
+                         "\"prbs13\" for NRZ");
+      signal.pattern = *w == "prbs13q" ? "prbs13" : *w;
+    }
   if (const auto* n = t->get("input_rise"))
     signal.input_rise = reader.bounded(*n, Dimension::time, "[signal] input_rise", false);
-  if (const auto* n = t->get("swing"))
-    signal.swing = reader.bounded(*n, Dimension::voltage, "[signal] swing", true);
+  if (const auto* n = t->get("swing")) signal.swing = read_swing(reader, *n);
+  if (const auto* n = t->get("receiver_bandwidth"))
+    signal.receiver_bandwidth = reader.bounded(*n, Dimension::frequency, "[signal] receiver_bandwidth", true);
   if (const auto* n = t->get("target_ber")) {
     const auto v = reader.quantity(*n, Dimension::dimensionless, "[signal] target_ber");
     if (v && (*v <= 0.0 || *v >= 0.5))

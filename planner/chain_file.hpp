@@ -77,6 +77,7 @@ struct SignalSpec {
   std::optional<double> input_rise;  // s, 20-80 %
   std::optional<double> swing;       // V at the input
   double target_ber = 1e-12;
+  std::optional<double> receiver_bandwidth;  // Hz: a first-order limit on the noise behind Q
 };
 
 struct ChainSpec {

@@ -345,6 +345,7 @@ AnalysisOptions analysis_options(const ChainSpec& spec, int points) {
     signal.target_ber = spec.signal->target_ber;
     options.signal = signal;
     options.swing_given = spec.signal->swing.has_value();
+    options.noise.receiver_bandwidth_hz = spec.signal->receiver_bandwidth.value_or(0.0);
   }
   return options;
 }

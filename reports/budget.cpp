@@ -414,33 +414,55 @@ TableView plan_values_view(const ChainSpec& spec, const Plan& plan) {
   return v;
 }
 
-TableView plan_metrics_view(const Budget& after, const std::optional<Budget>& before) {
+namespace {
+
+// A check's requirement as a reader types it: "≥ 30.00 dB", "≤ 4.00 %".
+std::string shown_requirement(const PlanCheck& check) {
+  const std::string sign = check.is_minimum ? "≥ " : "≤ ";
+  if (check.unit == "dB") return sign + show_db(check.limit);
+  if (check.unit == "Hz") return sign + show_ghz(check.limit);
+  if (check.unit == "%") return sign + show_pct(check.limit);
+  if (check.unit == "s") return sign + show_ps(check.limit);
+  if (check.unit == "A") return sign + scaled(check.limit, kMa, 2) + " mA";
+  return sign + show_number(check.limit, 3) + " " + check.unit;
+}
+
+std::string requirement_of(const std::vector<PlanCheck>& checks, std::string_view name) {
+  for (const auto& c : checks)
+    if (c.name == name) return shown_requirement(c) + (c.met ? "" : " (missed)");
+  return "-";
+}
+
+}  // namespace
+
+TableView plan_metrics_view(const Budget& after, const std::optional<Budget>& before,
+                            const std::vector<PlanCheck>& checks) {
   TableView v;
   v.id = "plan-metrics";
   v.title = "Plan: the main output before and after";
-  v.headings = before ? std::vector<std::string>{"metric", "as written", "planned"}
-                      : std::vector<std::string>{"metric", "planned"};
-  v.align = before ? std::vector<Align>{Align::left, Align::right, Align::right}
-                   : std::vector<Align>{Align::left, Align::right};
-  auto add = [&](std::string name, auto show) {
-    std::vector<std::string> row{std::move(name)};
+  v.headings = before ? std::vector<std::string>{"metric", "required", "as written", "planned"}
+                      : std::vector<std::string>{"metric", "required", "planned"};
+  v.align = before ? std::vector<Align>{Align::left, Align::right, Align::right, Align::right}
+                   : std::vector<Align>{Align::left, Align::right, Align::right};
+  auto add = [&](std::string name, std::string_view check, auto show) {
+    std::vector<std::string> row{std::move(name), requirement_of(checks, check)};
     if (before) row.push_back(show(before->totals));
     row.push_back(show(after.totals));
     v.rows.push_back(std::move(row));
     v.row_state.push_back("");
   };
-  add("gain", [](const BudgetTotals& t) { return show_db(t.gain_db); });
-  add("bandwidth (-3 dB)", [](const BudgetTotals& t) { return show_ghz(t.bandwidth_hz); });
-  add("peaking", [](const BudgetTotals& t) { return show_db(t.peaking_db); });
-  add("group delay at DC", [](const BudgetTotals& t) { return show_ps(t.group_delay_s); });
-  add("group-delay ripple", [](const BudgetTotals& t) { return show_ps(t.group_delay_ripple_s); });
-  add("step overshoot", [](const BudgetTotals& t) { return show_pct(t.overshoot_pct); });
-  add("total gm", [](const BudgetTotals& t) { return scaled(t.total_gm, kMs, 1) + " mS"; });
+  add("gain", "gain", [](const BudgetTotals& t) { return show_db(t.gain_db); });
+  add("bandwidth (-3 dB)", "bandwidth", [](const BudgetTotals& t) { return show_ghz(t.bandwidth_hz); });
+  add("peaking", "peaking", [](const BudgetTotals& t) { return show_db(t.peaking_db); });
+  add("group delay at DC", "", [](const BudgetTotals& t) { return show_ps(t.group_delay_s); });
+  add("group-delay ripple", "group_delay_ripple", [](const BudgetTotals& t) { return show_ps(t.group_delay_ripple_s); });
+  add("step overshoot", "overshoot", [](const BudgetTotals& t) { return show_pct(t.overshoot_pct); });
+  add("total gm", "", [](const BudgetTotals& t) { return scaled(t.total_gm, kMs, 1) + " mS"; });
   if (after.has_current)
-    add("total supply current", [](const BudgetTotals& t) { return scaled(t.total_current_a, kMa, 2) + " mA"; });
+    add("total supply current", "current", [](const BudgetTotals& t) { return scaled(t.total_current_a, kMa, 2) + " mA"; });
   if (!before)
-    v.notes.push_back("The file as written leaves values to the planner, so it has no response of its own to "
-                      "compare with.");
+    v.notes.push_back("The file as written leaves values to the planner, so it has no response of its own: the "
+                      "\"required\" column is what the plan was asked for.");
   return v;
 }
 

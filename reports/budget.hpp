@@ -89,8 +89,10 @@ std::string budget_csv(const Budget& budget);
 // Before/after of a plan: each value of every [[stage]] as the file wrote it ("auto", a range,
 // a kind list, a design factor or the fixed value) beside the value the planner chose.
 TableView plan_values_view(const ChainSpec& spec, const Plan& plan);
-// The main output's metrics after planning, and before when the file as written resolves.
-TableView plan_metrics_view(const Budget& after, const std::optional<Budget>& before);
+// The main output's metrics after planning, and before when the file as written resolves, with
+// what the plan's checks required of each (a minimum or a maximum; "-" where nothing did).
+TableView plan_metrics_view(const Budget& after, const std::optional<Budget>& before,
+                            const std::vector<PlanCheck>& checks);
 
 // Shared engineering-unit display (used by the tables and the page).
 std::string show_number(double value, int decimals);  // "n/a" for NaN, "-" never

@@ -1,5 +1,6 @@
 #include "reports/compare_report.hpp"
 
+#include <algorithm>
 #include <cmath>
 #include <fmt/format.h>
 #include <limits>
@@ -168,10 +169,33 @@ std::string how(const CompareSide& side) {
                                                  : "planned first: NOT MET";
 }
 
+bool signals_differ(const std::vector<SettingDifference>& settings) {
+  return std::any_of(settings.begin(), settings.end(), is_signal_setting);
+}
+
+std::string settings_text(const std::vector<SettingDifference>& settings) {
+  if (settings.empty()) return "\nsettings: the two files set every value alike\n";
+  size_t width = 8;
+  for (const auto& d : settings) width = std::max(width, d.key.size());
+  std::string out = "\nsettings that differ (as written; \"-\" where a file leaves the key to its default)\n";
+  out += fmt::format("  {:<{}}  {:<24}  {}\n", "key", width, "A", "B");
+  for (const auto& d : settings)
+    out += fmt::format("  {:<{}}  {:<24}  {}\n", d.key, width, d.a.value_or("-"), d.b.value_or("-"));
+  if (signals_differ(settings))
+    out += "  note: the chains are driven by different signals, so their eye figures measure different tests\n";
+  return out;
+}
+
 }  // namespace
 
-nlohmann::json compare_json(const CompareSide& a, const CompareSide& b) {
+nlohmann::json compare_json(const CompareSide& a, const CompareSide& b, const std::vector<SettingDifference>& settings) {
   nlohmann::json doc{{"a", side_json(a)}, {"b", side_json(b)}};
+  doc["settings"] = nlohmann::json::array();
+  for (const auto& d : settings)
+    doc["settings"].push_back({{"key", d.key},
+                               {"a", d.a ? nlohmann::json(*d.a) : nlohmann::json(nullptr)},
+                               {"b", d.b ? nlohmann::json(*d.b) : nlohmann::json(nullptr)}});
+  doc["signals_differ"] = signals_differ(settings);
   const auto ma = main_metrics(a), mb = main_metrics(b);
   doc["metrics"] = nlohmann::json::object();
   for (const auto& q : kMetrics) {
@@ -199,9 +223,10 @@ nlohmann::json compare_json(const CompareSide& a, const CompareSide& b) {
   return doc;
 }
 
-std::string compare_text(const CompareSide& a, const CompareSide& b) {
+std::string compare_text(const CompareSide& a, const CompareSide& b, const std::vector<SettingDifference>& settings) {
   std::string out = fmt::format("A  {}  ({}: {})\nB  {}  ({}: {})\n{}\n", a.file, a.chain.name, how(a), b.file,
                                 b.chain.name, how(b), kPlanningCaution);
+  out += settings_text(settings);
   const auto& main_a = a.chain.stages[static_cast<size_t>(a.analysis.outputs.back().stage)].id;
   const auto& main_b = b.chain.stages[static_cast<size_t>(b.analysis.outputs.back().stage)].id;
   out += fmt::format("\nmain output (A: {}, B: {})\n", main_a, main_b);

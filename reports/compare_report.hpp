@@ -10,6 +10,7 @@
 
 #include "models/analysis.hpp"
 #include "models/chain.hpp"
+#include "planner/chain_settings.hpp"
 #include "planner/planner.hpp"
 
 namespace peakplan {
@@ -26,8 +27,11 @@ struct CompareSide {
 //  "metrics": {KEY: {"a", "b", "delta", "relative_pct"}}, with KEY as in `analyze --json`
 //  (dc_gain_db, bandwidth_hz, ..., and pda_height, prbs_height, prbs_width_ui from the eye),
 //  "stages": [{"id", "in": "both" | "a_only" | "b_only", "a": {...} | null, "b": ...,
-//  "delta": {KEY: {"delta", "relative_pct"}}}]}. Values SI; null where a value does not exist.
-nlohmann::json compare_json(const CompareSide& a, const CompareSide& b);
-std::string compare_text(const CompareSide& a, const CompareSide& b);
+//  "delta": {KEY: {"delta", "relative_pct"}}}],
+//  "settings": [{"key", "a", "b"}] (every setting the files differ in, TOML text as written,
+//  null where a file leaves the key out), "signals_differ": bool}. Values SI; null where a
+//  value does not exist.
+nlohmann::json compare_json(const CompareSide& a, const CompareSide& b, const std::vector<SettingDifference>& settings);
+std::string compare_text(const CompareSide& a, const CompareSide& b, const std::vector<SettingDifference>& settings);
 
 }  // namespace peakplan

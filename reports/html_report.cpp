@@ -141,7 +141,7 @@ std::optional<TableView> eye_view(const Chain& chain, const ChainAnalysis& analy
   TableView v;
   v.id = "eyes";
   v.title = "Eye estimates (heights as a fraction of the ideal eye)";
-  v.headings = {"node", "PDA height", "PRBS height", "PRBS width", "DDJ p-p", "noise rms", "noise BW", "Q",
+  v.headings = {"node", "PDA height", "PRBS height", "PRBS width", "DDJ p-p", "noise rms (differential)", "noise BW", "Q",
                 "BER"};
   v.align = {Align::left};
   v.align.resize(v.headings.size(), Align::right);
@@ -153,7 +153,7 @@ std::optional<TableView> eye_view(const Chain& chain, const ChainAnalysis& analy
     truncated = truncated || p.pattern_truncated;
     v.rows.push_back({chain.stages[static_cast<size_t>(o.stage)].id, show_eye_height(e.estimate.pda.height),
                       show_eye_height(p.eye.height), show_number(p.eye.width_ui, 3) + " UI", show_ps(p.ddj_pp_s),
-                      format_si(e.noise.output_rms_v, "V", 3), show_ghz(e.noise.noise_bandwidth_hz),
+                      format_si(e.noise.differential_rms_v, "V", 3), show_ghz(e.noise.noise_bandwidth_hz),
                       e.statistical ? show_q(e.statistical->q) : "-",
                       e.statistical ? show_ber(e.statistical->ber) : "-"});
     v.row_state.push_back("");

@@ -51,6 +51,7 @@ nlohmann::json eye_json(const EyeSummary& eye, const Signal& signal) {
                    {"sample_time_s", number(pda.sample_time_s)},
                    {"prbs_height", number(prbs.eye.height)},
                    {"prbs_width_ui", number(prbs.eye.width_ui)},
+                   {"prbs_width_centred_ui", number(prbs.width_centred_ui)},
                    {"open_span_ui", number(prbs.eye.open_span_ui)},
                    {"prbs_sample_time_s", number(prbs.sample_time_s)},
                    {"ddj_pp_s", number(prbs.ddj_pp_s)},
@@ -75,6 +76,8 @@ nlohmann::json eye_json(const EyeSummary& eye, const Signal& signal) {
 
 nlohmann::json noise_json(const NoiseSummary& n) {
   return {{"output_rms_v", number(n.output_rms_v)},
+          {"differential_rms_v", number(n.differential_rms_v)},
+          {"receiver_bandwidth_hz", n.receiver_bandwidth_hz > 0.0 ? number(n.receiver_bandwidth_hz) : nlohmann::json(nullptr)},
           {"noise_bandwidth_hz", number(n.noise_bandwidth_hz)},
           {"input_density_v_rthz", number(n.equivalent_input_density)}};
 }
@@ -148,8 +151,8 @@ nlohmann::json analysis_json(const Chain& chain, const ChainAnalysis& analysis, 
     nlohmann::json o;
     o["node"] = chain.stages[static_cast<size_t>(out.stage)].id;
     put_metrics(o, out.response);
-    if (out.eye && options.signal) {
-      o["eye"] = eye_json(*out.eye, *options.signal);
+    if (out.eye && analysis.signal) {
+      o["eye"] = eye_json(*out.eye, *analysis.signal);
       o["noise"] = noise_json(out.eye->noise);
     }
     if (out.large_signal) o["large_signal"] = large_signal_json(chain, *out.large_signal);

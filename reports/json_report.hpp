@@ -12,7 +12,6 @@ namespace peakplan {
 
 struct JsonOptions {
   bool include_response = true;  // sampled frequency response per output
-  std::optional<Signal> signal;  // the signal the eyes were computed for
 };
 
 nlohmann::json stage_values_json(const ChainStage& stage);

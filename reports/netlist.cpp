@@ -4,10 +4,12 @@
 #include <cctype>
 #include <cmath>
 #include <cstdio>
+#include <fmt/format.h>
 #include <sstream>
 #include <stdexcept>
 
 #include "models/frequency_response.hpp"
+#include "models/prbs.hpp"
 #include "models/step_response.hpp"
 #include "reports/caution.hpp"
 
@@ -161,6 +163,35 @@ std::string symbol_pwl(const NetlistOptions::SymbolDrive& d, double rise) {
   return text;
 }
 
+// Held symbols through the models' first-order input edge, as PWL points. Symbol s >= 1 starts
+// at first_edge + (s - 1) ui; within it the waveform relaxes towards its level with tau,
+// sampled at tau/8 until the symbol ends or it has settled to e^-10 (then held). A 0 -> 1 V
+// step is the symbols {0, 1} with its edge at 0 and ui the whole run.
+std::string edge_pwl(const std::vector<double>& levels, double ui, double first_edge, double tau) {
+  if (levels.empty()) return "0 0";
+  const auto [lo, hi] = std::minmax_element(levels.begin(), levels.end());
+  const double tolerance = 1e-4 * std::max(*hi - *lo, 1e-30);
+  const double h = tau / 8.0, settle = 10.0 * tau;
+  double y = levels.front(), last_t = 0.0;
+  std::string text = "0 " + spice_number(y);
+  int on_line = 1;
+  auto point = [&](double t, double v) {  // six points to a continuation line
+    text += (on_line++ % 6 == 0 ? "\n+ " : " ") + spice_number(t) + " " + spice_number(v);
+    last_t = t;
+  };
+  for (size_t s = 1; s < levels.size(); ++s) {
+    const double t0 = first_edge + static_cast<double>(s - 1) * ui;
+    const double target = levels[s];
+    if (std::fabs(y - target) <= tolerance) continue;  // settled at this level: the PWL holds
+    if (t0 > last_t) point(t0, y);
+    const double start = y, span = std::min(ui, settle);
+    for (int k = 1; k * h < span - 0.25 * h; ++k) point(t0 + k * h, target + (start - target) * std::exp(-k * h / tau));
+    y = target + (start - target) * std::exp(-span / tau);
+    point(t0 + span, y);
+  }
+  return text;
+}
+
 struct Analyses {
   double ac_start, ac_stop, tran_step, tran_stop, rise;
   int per_decade;
@@ -295,10 +326,20 @@ std::string write_spice_netlist(const Chain& chain, const NetlistOptions& option
   const bool through_resistor = resistor_present(chain.r_source);
   std::string pulse = "PULSE(0 1 0 " + card(a.rise) + " " + card(a.rise) + " " +
                       card(4.0 * a.tran_stop) + " " + card(8.0 * a.tran_stop) + ")";
+  const bool edged = options.edge_tau_s > 0.0;
+  const std::string edge_note =
+      edged ? ", each edge first order with tau = " + card(options.edge_tau_s) + "s (input_rise / ln 4)" : "";
   if (options.drive) {
     out << "* source: 1 V AC, and " << options.drive->levels_v.size() << " held symbols of "
-        << card(options.drive->ui_s) << "s (half-circuit volts) for .tran\n";
-    pulse = "PWL(" + symbol_pwl(*options.drive, a.rise) + ")";
+        << card(options.drive->ui_s) << "s (half-circuit volts) for .tran" << edge_note << "\n";
+    if (!options.drive_description.empty()) out << "* " << options.drive_description << "\n";
+    pulse = "PWL(" +
+            (edged ? edge_pwl(options.drive->levels_v, options.drive->ui_s, options.drive->ui_s, options.edge_tau_s)
+                   : symbol_pwl(*options.drive, a.rise)) +
+            ")";
+  } else if (edged) {
+    out << "* source: 1 V AC, and a 0 -> 1 V step for .tran" << edge_note << "\n";
+    pulse = "PWL(" + edge_pwl({0.0, 1.0}, 4.0 * a.tran_stop, 0.0, options.edge_tau_s) + ")";
   } else {
     out << "* source: 1 V AC, and a 0 -> 1 V step for .tran\n";
   }
@@ -363,6 +404,30 @@ std::string write_spice_netlist(const Chain& chain, const NetlistOptions& option
   }
   out << ".end\n";
   return out.str();
+}
+
+double netlist_edge_tau(const Signal& signal) {
+  return signal.input_rise > 0.0 ? signal.input_rise / std::log(4.0) : 0.0;
+}
+
+NetlistOptions prbs_netlist_drive(const Signal& signal, size_t max_symbols) {
+  if (!(signal.bit_rate > 0.0) || !(signal.swing > 0.0))
+    throw std::invalid_argument("prbs_netlist_drive: the signal needs a positive bit rate and swing");
+  const bool pam4 = signal.modulation == Modulation::pam4;
+  const size_t period = static_cast<size_t>(std::min<std::uint64_t>(prbs_period(signal.pattern), max_symbols));
+  const auto bits = prbs_bits(signal.pattern, pam4 ? 2 * period : period);
+  auto levels = pam4 ? pam4_levels(bits) : nrz_levels(bits);  // 0..1
+  for (double& v : levels) v = (v - 0.5) * signal.swing / 2.0;
+  NetlistOptions options;
+  options.drive = NetlistOptions::SymbolDrive{signal.ui(), std::move(levels)};
+  options.edge_tau_s = netlist_edge_tau(signal);
+  const bool whole = prbs_period(signal.pattern) <= max_symbols;
+  options.drive_description =
+      fmt::format("{} {} at {} b/s: {} symbols ({}), half-circuit levels +-{} V for a {} V differential swing",
+                  to_string(signal.pattern), pam4 ? "PAM4" : "NRZ", spice_number(signal.bit_rate, 6),
+                  options.drive->levels_v.size(), whole ? "one period" : "the first of a longer period",
+                  spice_number(signal.swing / 4.0, 4), spice_number(signal.swing, 4));
+  return options;
 }
 
 }  // namespace peakplan

@@ -36,6 +36,7 @@
 #include <vector>
 
 #include "models/chain.hpp"
+#include "models/eye.hpp"
 
 namespace peakplan {
 
@@ -63,6 +64,15 @@ struct NetlistOptions {
   };
   std::optional<SymbolDrive> drive;
 
+  // The models' input edge ([signal] input_rise): a first-order rise, tau = input_rise / ln 4
+  // (models/eye.hpp). When > 0 the .tran source (the step or the symbols) is that edge, written
+  // as a PWL sampled at tau/8 (a linear interpolation error below 0.2 % of each step) until it
+  // has settled to e^-10, so ngspice sees the waveform the eye model sees; .ac is unchanged.
+  double edge_tau_s = 0.0;
+  // One line for the header saying what the .tran source is ("PRBS7 NRZ at 56 Gb/s ..."), when
+  // the caller built `drive` from a [signal].
+  std::string drive_description;
+
   bool batch_control = false;
   std::string data_prefix = "peakplan";  // wrdata path prefix; letters, digits and _ . / + -
   // Tight tolerances for a reference run (reltol, vntol, abstol, chgtol, trap integration).
@@ -74,6 +84,16 @@ struct NetlistOptions {
 // feeds (fill_node_capacitances was not applied), because the netlist could not then match
 // what the models analysed.
 std::string write_spice_netlist(const Chain& chain, const NetlistOptions& options = {});
+
+// The .tran drive of a [signal]: its PRBS as held symbols in half-circuit volts (the swing is
+// differential peak to peak, so the half circuit swings +-swing/4: NRZ -swing/4 and +swing/4,
+// PAM4 four levels evenly between them), one pattern period of symbols (PAM4: 2^n - 1 symbols
+// from two periods of bits) but at most max_symbols, with a one-line description; the edge of
+// input_rise in edge_tau_s. Throws std::invalid_argument for a signal without a positive
+// bit rate or swing.
+NetlistOptions prbs_netlist_drive(const Signal& signal, size_t max_symbols = 2047);
+// Only the edge: edge_tau_s = input_rise / ln 4 (0 without an input_rise).
+double netlist_edge_tau(const Signal& signal);
 
 // SPICE-safe name: lower case letters, digits and '_' only (SPICE is case-insensitive).
 std::string spice_safe_name(std::string_view text);

@@ -19,7 +19,7 @@ std::string shown(const PlanCheck& c, double x) {
 }  // namespace
 
 nlohmann::json plan_json(const ChainSpec& spec, const Plan& plan, const ChainAnalysis& analysis) {
-  auto doc = analysis_json(plan.chain, analysis, {true, analysis_options(spec).signal});
+  auto doc = analysis_json(plan.chain, analysis);
   doc["status"] = plan.termination == Plan::Termination::met ? "met" : "not_met";
   doc["message"] = plan.message;
   doc["binding"] = plan.binding.empty() ? nlohmann::json(nullptr) : nlohmann::json(plan.binding);  // null: nothing to choose

@@ -116,7 +116,7 @@ PlotFile magnitude_plot(const Chain& chain, const ChainAnalysis& analysis) {
               AxisSpec{"Frequency", kHz, Scale::log, f_lo, f_hi}, AxisSpec{"Gain", kDb, Scale::linear, y_lo, y_hi});
   for (size_t i = 0; i < analysis.stages.size(); ++i) {
     const auto& s = analysis.stages[i].alone.sampled;
-    chart.line(s.frequency_hz, s.magnitude_db(), stroke(svg::theme::series_colour(i), 1.6),
+    chart.line(s.frequency_hz, s.magnitude_db(), stroke(svg::theme::series_colour(i), 1.6, std::string(svg::theme::series_dash(i))),
                stage_label(chain, analysis.stages[i].stage) + " alone");
   }
   for (size_t k = 0; k + 1 < analysis.outputs.size(); ++k) {
@@ -184,7 +184,7 @@ PlotFile group_delay_plot(const Chain& chain, const ChainAnalysis& analysis) {
   }
   for (size_t i = 0; i < analysis.stages.size(); ++i) {
     const auto& st = analysis.stages[i].alone.sampled;
-    chart.line(st.frequency_hz, st.group_delay_s, stroke(svg::theme::series_colour(i), 1.3),
+    chart.line(st.frequency_hz, st.group_delay_s, stroke(svg::theme::series_colour(i), 1.3, std::string(svg::theme::series_dash(i))),
                stage_label(chain, analysis.stages[i].stage) + " alone");
   }
   for (size_t k = 0; k + 1 < analysis.outputs.size(); ++k) {
@@ -274,7 +274,7 @@ PlotFile eye_plot(const Chain& chain, const ChainAnalysis& analysis) {
   const auto& prbs = eye.estimate.prbs;
   const bool pam4 = tr.modulation == Modulation::pam4;
   const double ui = tr.ui_s;
-  const double bit_rate = (pam4 ? 2.0 : 1.0) / ui;
+  const double bit_rate = analysis.signal ? analysis.signal->bit_rate : (pam4 ? 2.0 : 1.0) / ui;
   const double ideal_v = eye.statistical ? eye.statistical->ideal_eye_v : std::numeric_limits<double>::quiet_NaN();
 
   double lo = 0.0, hi = 1.0;
@@ -286,7 +286,7 @@ PlotFile eye_plot(const Chain& chain, const ChainAnalysis& analysis) {
   const double pad = 0.08 * (hi - lo);
   Chart chart("eye", "PRBS eye at the main output",
               fmt::format("{}: {}, {} {} {}; {} of {} symbols drawn, 1 UI = {}", chain.name,
-                          stage_id(chain, main.stage), engineering(bit_rate, "b/s"), pam4 ? "PAM4" : "NRZ",
+                          stage_id(chain, main.stage), engineering(bit_rate, "b/s", 6), pam4 ? "PAM4" : "NRZ",
                           to_string(tr.pattern), tr.traces.size(), tr.symbols_overlaid,
                           engineering(ui, "s")),
               AxisSpec{"Time from the sampling instant", AxisUnit{"UI", false}, Scale::linear, -1.0, 1.0},

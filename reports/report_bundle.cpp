@@ -26,7 +26,7 @@ std::vector<ReportFile> build_report(const ReportSource& source, const Chain& ch
     if (plan->before_chain && plan->before_analysis)
       before = build_budget(spec, *plan->before_chain, *plan->before_analysis);
     status = HtmlPlanStatus{plan->plan->termination == Plan::Termination::met, plan->plan->message,
-                            {plan_metrics_view(budget, before), plan_values_view(spec, *plan->plan)}};
+                            {plan_metrics_view(budget, before, plan->plan->checks), plan_values_view(spec, *plan->plan)}};
     markdown += std::string("## Plan status\n\n") + (status->met ? "met: " : "NOT met: ") + status->message + "\n\n" +
                 tables_markdown(status->tables);
   }
@@ -35,7 +35,7 @@ std::vector<ReportFile> build_report(const ReportSource& source, const Chain& ch
   files.push_back({"budget.md", std::move(markdown)});
   files.push_back({"budget.csv", budget_csv(budget)});
   const auto json = plan ? plan_json(spec, *plan->plan, analysis)
-                         : analysis_json(chain, analysis, {true, analysis_options(spec).signal});
+                         : analysis_json(chain, analysis);
   files.push_back({"result.json", json.dump(2) + "\n"});
 
   auto plots = chain_plots(chain, analysis);
@@ -53,6 +53,7 @@ std::vector<ReportFile> build_report(const ReportSource& source, const Chain& ch
 
   NetlistOptions netlist;
   netlist.bandwidth_hz = analysis.outputs.back().response.frequency.bandwidth_hz;
+  if (analysis.signal) netlist.edge_tau_s = netlist_edge_tau(*analysis.signal);
   files.push_back({"chain.cir", write_spice_netlist(chain, netlist)});
   return files;
 }

@@ -53,6 +53,35 @@ double text_width(std::string_view text, double size) {
   return chars * size * 0.56;
 }
 
+// A label placed beside a point turns to the point's other side when it would spill out of the
+// plot area (over the tick labels, or off the page): an end-anchored label near the left edge
+// reads to the right of its point instead.
+TextStyle kept_inside(double x, std::string_view content, TextStyle style, double left, double right) {
+  const double w = text_width(content, style.size);
+  auto extent = [&](const TextStyle& t) -> std::pair<double, double> {
+    const double at = x + t.dx;
+    switch (t.anchor) {
+      case TextStyle::Anchor::start: return {at, at + w};
+      case TextStyle::Anchor::end: return {at - w, at};
+      case TextStyle::Anchor::middle: return {at - w / 2, at + w / 2};
+    }
+    return {at, at};
+  };
+  auto [lo, hi] = extent(style);
+  if (lo >= left && hi <= right) return style;
+  if (style.anchor != TextStyle::Anchor::middle) {
+    TextStyle mirrored = style;
+    mirrored.anchor = style.anchor == TextStyle::Anchor::start ? TextStyle::Anchor::end : TextStyle::Anchor::start;
+    mirrored.dx = -style.dx;
+    const auto [mlo, mhi] = extent(mirrored);
+    if (mlo >= left && mhi <= right) return mirrored;
+  }
+  // Neither side fits: shift it inside by the overhang.
+  if (lo < left) style.dx += left - lo;
+  else if (hi > right) style.dx -= hi - right;
+  return style;
+}
+
 std::string stroke_attributes(const Stroke& s) {
   std::string a = fmt::format(R"( stroke="{}" stroke-width="{}")", s.colour, format_number(s.width, 2));
   if (!s.dash.empty()) a += fmt::format(R"( stroke-dasharray="{}")", s.dash);
@@ -235,9 +264,17 @@ double Axis::value(double p) const {
 }
 
 std::string_view theme::series_colour(size_t index) {
-  static constexpr std::array<std::string_view, 8> kColours{
-      "#d3892a", "#5e8f3c", "#9b4f8c", "#3f79b8", "#c0593a", "#2f8f87", "#7a6bb0", "#8d7441"};
+  // Twelve hues apart in hue or lightness; past twelve stages the plots add a dash pattern
+  // (series_dash), so no two legend entries look alike up to 36 stages.
+  static constexpr std::array<std::string_view, 12> kColours{
+      "#d3892a", "#5e8f3c", "#9b4f8c", "#3f79b8", "#c0593a", "#2f8f87",
+      "#7a6bb0", "#8d7441", "#b8345f", "#56a0d3", "#a39a1f", "#e07b91"};
   return kColours[index % kColours.size()];
+}
+
+std::string_view theme::series_dash(size_t index) {
+  static constexpr std::array<std::string_view, 3> kDashes{"", "6 3", "2 2"};
+  return kDashes[(index / 12) % kDashes.size()];
 }
 
 Chart::Chart(std::string plot_name, std::string title, std::string subtitle, AxisSpec x, AxisSpec y)
@@ -335,8 +372,21 @@ std::string Chart::render() const {
   out += fmt::format(R"(<title id="{}-title">{}</title>)" "\n", xml_escape(id_prefix), xml_escape(title_));
   out += fmt::format(R"(<rect width="{}" height="{}" fill="#ffffff"/>)" "\n", width, height);
   out += text_element(left - 56.0, 30.0, title_, {TextStyle::Anchor::start, 17.0, std::string(theme::ink), true, false});
-  if (!subtitle_.empty())
-    out += text_element(left - 56.0, 49.0, subtitle_, {TextStyle::Anchor::start, 12.5, std::string(theme::muted), false, false});
+  if (!subtitle_.empty()) {
+    // A long chain name must not run off the page: the subtitle's type shrinks to fit (to 9 px).
+    // Longer still, it is cut at a character boundary and ends in an ellipsis.
+    const double room = width - 12.0 - (left - 56.0);
+    const double size = std::clamp(12.5 * room / std::max(1.0, text_width(subtitle_, 12.5)), 9.0, 12.5);
+    std::string shown = subtitle_;
+    if (text_width(shown, size) > room) {
+      while (!shown.empty() && text_width(shown + "\u2026", size) > room) {
+        while (!shown.empty() && (static_cast<unsigned char>(shown.back()) & 0xC0) == 0x80) shown.pop_back();
+        if (!shown.empty()) shown.pop_back();  // the character's lead byte, or an ASCII character
+      }
+      shown += "\u2026";
+    }
+    out += text_element(left - 56.0, 49.0, shown, {TextStyle::Anchor::start, size, std::string(theme::muted), false, false});
+  }
 
   // Plot area, its grid and ticks. The mapping is published on the group so tests and scripts
   // can turn pixels back into data.
@@ -422,7 +472,8 @@ std::string Chart::render() const {
     } else if (const auto* t = std::get_if<Text>(&element)) {
       const double x = t->fraction ? left + t->x * (right - left) : x_px(t->x);
       const double y = t->fraction ? bottom - t->y * (bottom - top) : y_px(t->y);
-      if (std::isfinite(x) && std::isfinite(y)) out += text_element(x, y, t->content, t->style);
+      if (std::isfinite(x) && std::isfinite(y))
+        out += text_element(x, y, t->content, kept_inside(x, t->content, t->style, left, right));
     }
   }
   out += fmt::format(R"(<rect x="{}" y="{}" width="{}" height="{}" fill="none" stroke="{}" stroke-width="1"/>)" "\n",

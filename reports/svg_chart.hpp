@@ -91,8 +91,9 @@ inline constexpr std::string_view plot_fill = "#fbfaf7";
 inline constexpr std::string_view main_series = "#12607c";
 inline constexpr std::string_view accent = "#c23b2e";
 inline constexpr std::string_view highlight = "#e9b73f";
-// Stages in file order; repeated when there are more stages than colours.
+// Stages in file order: twelve colours, then the same colours with series_dash's patterns.
 std::string_view series_colour(size_t index);
+std::string_view series_dash(size_t index);  // "" for the first twelve
 }  // namespace theme
 
 struct Stroke {

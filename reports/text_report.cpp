@@ -73,7 +73,7 @@ std::string analysis_text(const Chain& chain, const ChainAnalysis& analysis) {
     if (!header) {
       out += "\neyes (pulse response superposed; heights as a fraction of the ideal eye)\n";
       out += fmt::format("  {:<10} {:>9} {:>9} {:>9} {:>9} {:>11} {:>10} {:>8} {:>10}\n", "node", "PDA", "PRBS h",
-                         "PRBS w", "DDJ pp", "noise rms", "noise BW", "Q", "BER");
+                         "PRBS w", "DDJ pp", "noise diff", "noise BW", "Q", "BER");
       header = true;
     }
     const auto& e = *o.eye;
@@ -81,10 +81,14 @@ std::string analysis_text(const Chain& chain, const ChainAnalysis& analysis) {
     out += fmt::format("  {:<10} {:>9} {:>9} {:>6.3f} UI {:>9} {:>11} {:>10} {:>8} {:>10}\n",
                        chain.stages[static_cast<size_t>(o.stage)].id, show_eye_height(e.estimate.pda.height),
                        show_eye_height(p.eye.height),
-                       p.eye.width_ui, format_si(p.ddj_pp_s, "s"), format_si(e.noise.output_rms_v, "V"),
+                       p.eye.width_ui, format_si(p.ddj_pp_s, "s"), format_si(e.noise.differential_rms_v, "V"),
                        format_si(e.noise.noise_bandwidth_hz, "Hz"),
                        e.statistical ? show_q(e.statistical->q) : "-",
                        e.statistical ? show_ber(e.statistical->ber) : "-");
+    if (p.modulation == Modulation::pam4)
+      out += fmt::format("  note: PAM4 width {:.3f} UI at the nominal thresholds (1/6, 1/2, 5/6), {:.3f} UI at thresholds "
+                         "centred in each eye; Q and BER use the threshold-free statistical eye\n",
+                         p.eye.width_ui, p.width_centred_ui);
     if (p.pattern_truncated)
       out += fmt::format("  note: the pattern is longer than the simulation bound; {} symbols were overlaid\n",
                          p.symbols_overlaid);

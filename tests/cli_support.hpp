@@ -91,11 +91,13 @@ struct CliRun {
 
 // Runs the peakplan executable with `args` (each one word) and stdout and stderr sent to files
 // in a directory of its own, so that "nothing on stdout" is a file of zero bytes that we
-// created, not a capture that silently failed.
-inline CliRun run_cli(const std::vector<std::string>& args) {
+// created, not a capture that silently failed. `working_directory` ("" for the test's own) is
+// where relative paths in `args` are read from.
+inline CliRun run_cli(const std::vector<std::string>& args, const std::string& working_directory = "") {
   TempDir capture("peakplan_cli");
   const auto out = capture.path / "stdout", err = capture.path / "stderr";
-  std::string command = shell_quoted(PEAKPLAN_BINARY);
+  std::string command = working_directory.empty() ? "" : "cd " + shell_quoted(working_directory) + " && ";
+  command += shell_quoted(PEAKPLAN_BINARY);
   for (const auto& a : args) command += " " + shell_quoted(a);
   command += " >" + shell_quoted(out.string()) + " 2>" + shell_quoted(err.string());
   CliRun run;

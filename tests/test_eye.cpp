@@ -168,6 +168,10 @@ TEST_CASE("eye: PAM4 of an ideal chain opens all three eyes to a third of the NR
     // land anywhere in that sample interval: within one sample (1/64 UI) of 1 UI per edge pair.
     CHECK(std::fabs(e.width_ui - 1.0) <= 1.0 / 64.0);
   }
+  // derived: with no ISI the levels are exactly 0, 1/3, 2/3, 1, so each eye's centre is its
+  // nominal threshold and the centred width is the nominal one, to the same sample.
+  CHECK(std::fabs(eye4.prbs.width_centred_ui - eye4.prbs.eye.width_ui) <= 1.0 / 64.0);
+  CHECK(std::fabs(eye4.prbs.width_centred_ui - 1.0) <= 1.0 / 64.0);
   CHECK(eye4.pulse.ui == doctest::Approx(2.0 / 112e9));  // symbol rate = bit rate / 2
   const auto eye2 = estimate_eye(pure_gain(5.0), binary);
   const double noise = 2e-3;
@@ -267,4 +271,17 @@ TEST_CASE("eye: bad signals are rejected") {
   CHECK_THROWS_AS(pulse_response(single_pole(1e10), s, 16), std::invalid_argument);
   s.input_rise = -1e-12;
   CHECK_THROWS_AS(pulse_response(single_pole(1e10), s), std::invalid_argument);
+}
+
+TEST_CASE("eye: PAM4 through a pole, thresholds centred in the squeezed eyes are at least as wide") {
+  // derived: through a single pole the sampled levels are squeezed towards the middle (each
+  // level l/3 becomes about l/3 h0 + ISI), so the outer eyes' openings sit off their nominal
+  // thresholds 1/6 and 5/6 and a threshold at the middle of each opening leaves at least as much
+  // margin at the sampling offset; the span where all three are open cannot be narrower there.
+  Signal pam4 = nrz(112e9);
+  pam4.modulation = Modulation::pam4;
+  const auto eye = estimate_eye(single_pole(28e9), pam4);  // f3dB = half the symbol rate
+  CHECK(eye.prbs.eye.width_ui > 0.0);
+  CHECK(eye.prbs.width_centred_ui >= eye.prbs.eye.width_ui - 1.0 / 64.0);
+  CHECK(eye.prbs.width_centred_ui <= 1.0);
 }

@@ -565,3 +565,76 @@ TEST_CASE("ngspice: `ngspice -b chain.cir` on the netlist as written prints the 
   const auto analysis = nlohmann::json::parse(run_cli({"analyze", chain, "--json"}).out);
   CHECK(gain_db == doctest::Approx(analysis["outputs"].back()["dc_gain_db"].get<double>()).epsilon(1e-5));
 }
+
+namespace peakplan {
+namespace {
+
+// Runs a netlist in batch mode and returns its .tran rows (time, then the output nodes).
+std::vector<std::vector<double>> ngspice_tran(const Chain& chain, NetlistOptions options, const fs::path& dir) {
+  options.batch_control = true;
+  options.precise = true;
+  options.data_prefix = (dir / "run").string();
+  const fs::path netlist = dir / "chain.cir";
+  std::ofstream(netlist) << write_spice_netlist(chain, options);
+  const fs::path log = dir / "ngspice.log";
+  const int rc = test::run_shell("ngspice -b " + test::shell_quoted(netlist.string()) + " > " +
+                                 test::shell_quoted(log.string()) + " 2>&1");
+  if (rc != 0) throw std::runtime_error("ngspice failed on " + netlist.string() + ":\n" + test::read_file(log));
+  return read_wrdata(options.data_prefix + ".tran.txt");
+}
+
+}  // namespace
+
+TEST_CASE("ngspice: the netlist's step carries the [signal] input edge the eye model uses") {
+  // derived: one plain stage (pole tau1 = Rd C) behind the first-order edge tau = input_rise /
+  // ln 4 gives, per volt of step, y(t)/(-gm Rd) = 1 - (tau1 e^(-t/tau1) - tau e^(-t/tau)) /
+  // (tau1 - tau). The PWL samples the edge at tau/8 (linear-interpolation error < 0.2 % of the
+  // step, derived: h^2/(8 tau^2) = 1/512), so ngspice must agree to 0.3 % of the step.
+  test::TempDir dir("peakplan_ngspice_edge");
+  Chain chain{"one plain stage behind an input edge (test)", 0.0, {}};
+  chain.stages.push_back(make_stage("p1", -1, plain(0.04, 100.0, 50e-15), 0.0));  // tau1 = 5 ps
+  chain = finish(chain);
+  Signal signal;
+  signal.bit_rate = 25e9;
+  signal.input_rise = 4e-12;
+  NetlistOptions options;
+  options.edge_tau_s = netlist_edge_tau(signal);
+  CHECK(options.edge_tau_s == doctest::Approx(4e-12 / std::log(4.0)));
+  options.tran_step_s = 0.05e-12;
+  options.tran_stop_s = 60e-12;
+  const auto rows = ngspice_tran(chain, options, dir.path);
+  REQUIRE(rows.size() > 100);
+  const double tau1 = 100.0 * 50e-15, tau = options.edge_tau_s, gain = -0.04 * 100.0;
+  double worst = 0.0;
+  for (const auto& r : rows) {
+    const double t = r[0];
+    const double expected = 1.0 - (tau1 * std::exp(-t / tau1) - tau * std::exp(-t / tau)) / (tau1 - tau);
+    worst = std::max(worst, std::fabs(r[1] / gain - expected));
+  }
+  CHECK(worst < 3e-3);
+}
+
+TEST_CASE("ngspice: netlist --prbs drives one PRBS period at the swing's half-circuit levels") {
+  using namespace peakplan::test;
+  TempDir scratch("peakplan_ngspice_prbs");
+  const std::string chain = std::string(PEAKPLAN_SOURCE_DIR) + "/chains/demo_postamp.toml";  // prbs7, 20 mV
+  const auto netlist = run_cli({"netlist", chain, "--prbs"});
+  REQUIRE(netlist.status == 0);
+  CHECK(netlist.out.find("127 held symbols") != std::string::npos);
+  // derived: a 20 mV differential swing is +-5 mV in each half circuit.
+  CHECK(netlist.out.find("PWL(0 -5m") != std::string::npos);
+  CHECK(netlist.out.find("half-circuit levels +-5m V for a 20m V differential swing") != std::string::npos);
+  write_file(scratch.path / "chain.cir", netlist.out);
+  CHECK(run_shell("cd " + shell_quoted(scratch.path.string()) + " && ngspice -b chain.cir > listing.txt 2>&1") == 0);
+  CHECK(read_file(scratch.path / "listing.txt").find("Index   time") != std::string::npos);
+
+  // Without a [signal] there is nothing to drive with: a clear error, exit 2, nothing on stdout.
+  const auto bare = scratch.write("bare.toml", "[[stage]]\nid = \"a\"\nkind = \"plain\"\ngm = \"40 mS\"\n"
+                                               "rd = \"100 ohm\"\nc_load = \"40 fF\"\n");
+  const auto refused = run_cli({"netlist", bare, "--prbs"});
+  CHECK(refused.status == 2);
+  CHECK(refused.out.empty());
+  CHECK(refused.err.find("[signal]") != std::string::npos);
+}
+
+}  // namespace peakplan

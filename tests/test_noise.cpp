@@ -173,3 +173,48 @@ TEST_CASE("noise: an output that is not a stage is rejected") {
   const Chain chain = one_stage(plain(0.02, 200.0, 25e-15), 0.0);
   CHECK_THROWS_AS(ChainNoise(chain, 3), std::logic_error);
 }
+
+TEST_CASE("noise: Q sets the differential eye against the differential noise, sqrt(2) x one half circuit's") {
+  // derived: the chain file's swing and eye heights are differential (docs/chain-format.md), the
+  // stages are half circuits, and the two halves' noise is uncorrelated, so the differential
+  // output noise is sqrt(2) x the half circuit's and Q = eye_d / (2 sqrt(2) sigma_half).
+  // Plain stage: gm 20 mS, Rd 100 ohm, 60 fF total (the half circuit's kT/C noise, about 0.26 mV).
+  const Chain chain = one_stage(plain(20e-3, 100.0, 10e-15), 50e-15);
+  AnalysisOptions options;
+  Signal signal;
+  signal.bit_rate = 10e9;
+  signal.swing = 0.01;
+  options.signal = signal;
+  options.swing_given = true;
+  const auto analysis = analyze_chain(chain, options);
+  const auto& eye = *analysis.outputs.back().eye;
+  const double half = eye.noise.output_rms_v;
+  CHECK(eye.noise.differential_rms_v == doctest::Approx(std::sqrt(2.0) * half).epsilon(1e-15));
+  // derived (kT/C, DESIGN.md section 2 by equipartition, with the gm cell's 4kT gamma gm on
+  // top): the half circuit's noise is at least sqrt(kT/C) of its 60 fF.
+  CHECK(half >= std::sqrt(boltzmann * 300.0 / 60e-15) * 0.999);
+  REQUIRE(eye.statistical);
+  const auto& st = *eye.statistical;
+  CHECK(st.noise_rms_v == doctest::Approx(eye.noise.differential_rms_v).epsilon(1e-15));
+  const double inner_v = eye.estimate.prbs.eye.height * st.ideal_eye_v;
+  CHECK(st.q == doctest::Approx(inner_v / (2.0 * std::sqrt(2.0) * half)).epsilon(1e-12));
+}
+
+TEST_CASE("noise: a receiver bandwidth limits the noise behind Q as a first-order filter") {
+  // derived: a plain stage's output noise is S0 |1/(1 + j f/fc)|^2 with S0 = 4kT (1/Rd + gamma
+  // gm) Rd^2 and fc = 1/(2 pi Rd C); behind the receiver's 1/(1 + (f/fr)^2) the mean square is
+  // S0 int df / ((1 + f^2/fc^2)(1 + f^2/fr^2)) = S0 (pi/2) fc fr / (fc + fr).
+  const double gm = 20e-3, rd = 100.0, c = 60e-15, fr = 5e9;
+  const Chain chain = one_stage(plain(gm, rd, 10e-15), 50e-15);
+  NoiseOptions options;
+  options.receiver_bandwidth_hz = fr;
+  const auto limited = summarise_noise(ChainNoise(chain, 0, options));
+  const double fc = 1.0 / (2.0 * kPi * rd * c);
+  const double s0 = 4.0 * boltzmann * 300.0 * (1.0 / rd + gm) * rd * rd;
+  CHECK(limited.output_rms_v * limited.output_rms_v ==
+        doctest::Approx(s0 * kPi / 2.0 * fc * fr / (fc + fr)).epsilon(kQuadrature));
+  CHECK(limited.receiver_bandwidth_hz == fr);
+  // Without it, the chain's own kT/C-like total: S0 (pi/2) fc.
+  const auto open = summarise_noise(ChainNoise(chain, 0, NoiseOptions{}));
+  CHECK(open.output_rms_v * open.output_rms_v == doctest::Approx(s0 * kPi / 2.0 * fc).epsilon(kQuadrature));
+}

@@ -306,3 +306,70 @@ TEST_CASE("plots: an ideal chain traces exactly 0 and 1 at the sampling instant"
   // derived: a period holds every nonzero 7-bit word once, and 2^6 of them start with a one.
   CHECK(ones == 64);
 }
+
+TEST_CASE("plots: every stage alone and every cascade are sampled over one span, edge to edge") {
+  // Two stages whose own bandwidths are two decades apart (tau 10 ps and 1 ps): each alone
+  // would pick its own natural span; drawn together each must reach both ends of the axis.
+  Chain chain;
+  chain.name = "two stages a decade apart (test)";
+  chain.stages.push_back(test::make_stage("slow", -1, test::plain_circuit(0.02, 100.0, 100e-15), 0.0));
+  chain.stages.push_back(test::make_stage("fast", 0, test::plain_circuit(0.02, 10.0, 100e-15), 0.0));
+  fill_node_capacitances(chain);
+  const auto analysis = analyze_chain(chain);
+  const auto& main = analysis.outputs.back().response.sampled;
+  REQUIRE_FALSE(main.frequency_hz.empty());
+  for (const auto& s : analysis.stages) {
+    CAPTURE(s.stage);
+    REQUIRE_FALSE(s.alone.sampled.frequency_hz.empty());
+    CHECK(s.alone.sampled.frequency_hz.front() == main.frequency_hz.front());
+    CHECK(s.alone.sampled.frequency_hz.back() == main.frequency_hz.back());
+  }
+}
+
+TEST_CASE("plots: twelve stages get twelve colours, and later stages a dash pattern besides") {
+  std::vector<std::string> colours;
+  for (size_t i = 0; i < 12; ++i) {
+    colours.emplace_back(svg::theme::series_colour(i));
+    CHECK(svg::theme::series_dash(i).empty());
+  }
+  std::sort(colours.begin(), colours.end());
+  CHECK(std::unique(colours.begin(), colours.end()) == colours.end());
+  CHECK(svg::theme::series_colour(12) == svg::theme::series_colour(0));
+  CHECK_FALSE(svg::theme::series_dash(12).empty());
+  CHECK(svg::theme::series_dash(24) != svg::theme::series_dash(12));
+}
+
+TEST_CASE("plots: labels stay inside the plot area and a long subtitle inside the page") {
+  const svg::AxisSpec x{"x", {"", false}, svg::Scale::linear, 0.0, 1.0};
+  const svg::AxisSpec y{"y", {"", false}, svg::Scale::linear, 0.0, 1.0};
+  const std::string long_name(160, 'n');
+  svg::Chart chart("labels", "labels", long_name, x, y);
+  svg::TextStyle left_of_point;
+  left_of_point.anchor = svg::TextStyle::Anchor::end;
+  left_of_point.dx = -6.0;
+  // An end-anchored label at the left edge would run over the tick labels: it turns to the right.
+  chart.text(0.0, 0.5, "a label that reads leftwards", left_of_point);
+  svg::TextStyle right_of_point;
+  right_of_point.dx = 6.0;
+  chart.text(1.0, 0.5, "a label that reads rightwards", right_of_point);
+  const std::string out = chart.render();
+  const auto left_label = out.rfind('<', out.find("a label that reads leftwards"));
+  CHECK(out.substr(left_label, 120).find("text-anchor=\"end\"") == std::string::npos);
+  const auto right_label = out.rfind('<', out.find("a label that reads rightwards"));
+  CHECK(out.substr(right_label, 120).find("text-anchor=\"end\"") != std::string::npos);
+  // The subtitle's type shrinks (from 12.5 px, to 9 px at least); longer still, it is cut and
+  // ends in an ellipsis, so its estimated width (0.56 em a character) stays on the 720 px page.
+  const auto subtitle_at = out.find(std::string(20, 'n'));
+  REQUIRE(subtitle_at != std::string::npos);
+  const auto subtitle = out.rfind('<', subtitle_at);
+  const double size = std::strtod(attribute_near(out.substr(subtitle), "font-size", "font-size").c_str(), nullptr);
+  CHECK(size == doctest::Approx(9.0));
+  const auto end = out.find("</text>", subtitle_at);
+  const std::string shown = out.substr(subtitle_at, end - subtitle_at);
+  CHECK(shown.ends_with("\u2026"));
+  CHECK(static_cast<double>(shown.size() - 2) * size * 0.56 <= 720.0);  // the ellipsis is 3 bytes, 1 character
+  svg::Chart short_chart("labels", "labels", "a short subtitle", x, y);
+  const std::string short_out = short_chart.render();
+  CHECK(attribute_near(short_out.substr(short_out.rfind('<', short_out.find("a short subtitle"))), "font-size",
+                       "font-size") == "12.5");
+}

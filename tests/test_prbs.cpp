@@ -79,9 +79,12 @@ TEST_CASE("prbs: the first bits of prbs7 follow the stated register rule") {
   CHECK(prbs_bits(PrbsKind::prbs7, expected.size()) == expected);
 }
 
-TEST_CASE("prbs: prbs7, prbs9, prbs15 and prbs23 are maximal-length sequences") {
+TEST_CASE("prbs: prbs7, prbs9, prbs13, prbs15 and prbs23 are maximal-length sequences") {
   check_maximal_length(PrbsKind::prbs7);
   check_maximal_length(PrbsKind::prbs9);
+  // x^13 + x^12 + x^2 + x + 1 (from memory): a period of exactly 8191 and the run postulate
+  // hold only if that polynomial is primitive, so a misremembered one fails here.
+  check_maximal_length(PrbsKind::prbs13);
   check_maximal_length(PrbsKind::prbs15);
   check_maximal_length(PrbsKind::prbs23);  // 8 M bits: cheap enough for the full period
 }
@@ -115,10 +118,20 @@ TEST_CASE("prbs: prbs31 obeys its recurrence and does not repeat within a long p
   CHECK(states.front() != 0u);
 }
 
+TEST_CASE("prbs: the first bits of prbs13 follow its four-tap rule") {
+  // derived by hand: seed 1 x 13, new bit = b12 ^ b11 ^ b1 ^ b0, so s[j] = s[j-13] ^ s[j-12] ^
+  // s[j-2] ^ s[j-1] with s[-1..-13] = 1: s[0] = 1^1^1^1 = 0, s[1] = 1^1^1^0 = 1 (s[-1] = 1,
+  // s[0] = 0), s[2] = 1^1^0^1 = 1 (s[0] = 0, s[1] = 1), s[3] = 1^1^1^1 = 0 (s[1] = s[2] = 1).
+  const std::vector<std::uint8_t> expected{0, 1, 1, 0};
+  CHECK(prbs_bits(PrbsKind::prbs13, expected.size()) == expected);
+}
+
 TEST_CASE("prbs: names and periods") {
   CHECK(prbs_period(PrbsKind::prbs7) == 127);
   CHECK(prbs_period(PrbsKind::prbs31) == 2147483647ull);
   CHECK(prbs_from_name("prbs15") == PrbsKind::prbs15);
+  CHECK(prbs_period(PrbsKind::prbs13) == 8191);
+  CHECK(prbs_from_name("prbs13") == PrbsKind::prbs13);
   CHECK(!prbs_from_name("prbs8").has_value());
   CHECK(to_string(PrbsKind::prbs23) == "prbs23");
 }
@@ -144,4 +157,28 @@ TEST_CASE("prbs: PAM4 from prbs7 uses each level a quarter of the time") {
   CHECK(count[1] == 32);
   CHECK(count[2] == 32);
   CHECK(count[3] == 32);
+}
+
+TEST_CASE("prbs: jumping ahead equals stepping, and a stretch of a long pattern starts half a period in") {
+  // derived: the register's step is linear over GF(2), so k steps are its matrix to the k.
+  for (const auto kind : {PrbsKind::prbs9, PrbsKind::prbs13, PrbsKind::prbs23}) {
+    PrbsGenerator stepped(kind), jumped(kind);
+    for (int i = 0; i < 100003; ++i) stepped.next();
+    jumped.jump(100003);
+    CHECK(jumped.state() == stepped.state());
+    PrbsGenerator around(kind);
+    const auto seed = around.state();
+    around.jump(prbs_period(kind));  // a whole period returns to the seed
+    CHECK(around.state() == seed);
+  }
+  CHECK(prbs_typical_start(PrbsKind::prbs31) == (prbs_period(PrbsKind::prbs31) / 2));
+  // x^31 + x^28 + 1 from all ones begins with 28 zeros (s[j] = 1 ^ 1 until the first zero
+  // reaches b27); half a period in, a stretch has no run that long among its first 4096 bits
+  // (a run of 28 zeros appears once per period of 2^31 - 1 bits: the run postulate).
+  const auto start = prbs_bits(PrbsKind::prbs31, 28);
+  CHECK(std::all_of(start.begin(), start.end(), [](auto b) { return b == 0; }));
+  const auto typical = prbs_bits(PrbsKind::prbs31, 4096, prbs_typical_start(PrbsKind::prbs31));
+  int run = 0, longest = 0;
+  for (auto b : typical) longest = std::max(longest, run = b == 0 ? run + 1 : 0);
+  CHECK(longest < 28);
 }

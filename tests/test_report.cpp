@@ -370,6 +370,14 @@ TEST_CASE("report: --plan shows the values as written beside the planned ones, a
   CHECK(rd_auto);
   CHECK(count_fixed);
   CHECK(md.find("no response of its own") != std::string::npos);  // every gm is "auto": no before
+  // With no before, the table still says what the plan was asked for: each check's requirement.
+  const auto metrics = markdown_table(md, "## Plan: the main output before and after");
+  bool gain_required = false;
+  for (const auto& row : metrics) {
+    REQUIRE(row.size() == 3);
+    if (row[0] == "gain") gain_required = row[1].starts_with("≥ ") && row[1].ends_with(" dB");
+  }
+  CHECK(gain_required);
   const auto html = read_file(dir.path / "out" / "index.html");
   CHECK(html.find("id=\"plan-values\"") != std::string::npos);
   CHECK(html.find("id=\"plan-metrics\"") != std::string::npos);
@@ -386,8 +394,12 @@ TEST_CASE("report: --plan on a chain with every value fixed compares before and 
   REQUIRE_FALSE(metrics.empty());
   // Nothing to choose: the planned chain is the chain as written, so both columns agree.
   for (const auto& row : metrics) {
-    REQUIRE(row.size() == 3);
-    CHECK_MESSAGE(row[1] == row[2], row[0]);
+    REQUIRE(row.size() == 4);
+    CHECK_MESSAGE(row[2] == row[3], row[0]);
+    // The demo's [limits]: overshoot "5 %", peaking "1 dB"; it has no targets.
+    if (row[0] == "step overshoot") CHECK(row[1] == "≤ 5.00 %");
+    if (row[0] == "peaking") CHECK(row[1] == "≤ 1.00 dB");
+    if (row[0] == "gain") CHECK(row[1] == "-");
   }
 }
 
@@ -468,4 +480,24 @@ TEST_CASE("report: display rules: no -0.00, missing values without a unit, Q and
   CHECK(show_ber(1.0e-12) == "1.0e-12");
   CHECK(show_eye_height(-0.2) == "closed");
   CHECK(show_eye_height(0.929) == "0.929");
+}
+
+TEST_CASE("report: the demo report shipped in docs/demo-report is what the tool writes today") {
+  // The README links to it as the tool's output: it must not drift from the code. After a
+  // change that moves it, regenerate it with the command in the README.
+  // Run as the README does, from the repository with a relative path (the page shows it).
+  TempDir dir("peakplan_report");
+  const auto run = run_cli({"report", "chains/demo_postamp.toml", "--out", (dir.path / "out").string()}, kSource.string());
+  REQUIRE_MESSAGE(run.status == 0, run.err);
+  const fs::path shipped = kSource / "docs" / "demo-report";
+  std::set<std::string> written, kept;
+  for (const auto& e : fs::directory_iterator(dir.path / "out"))
+    if (e.path().filename().string()[0] != '.') written.insert(e.path().filename().string());
+  for (const auto& e : fs::directory_iterator(shipped)) kept.insert(e.path().filename().string());
+  CHECK(written == kept);
+  for (const auto& name : written) {
+    CAPTURE(name);
+    CHECK_MESSAGE(read_file(dir.path / "out" / name) == read_file(shipped / name),
+                  "docs/demo-report/" << name << " differs: regenerate it (README, \"the whole generated report\")");
+  }
 }

@@ -254,6 +254,35 @@ c_out = "5 fF"
   CHECK(text.out.find("extra    only in B: plain") != std::string::npos);
 }
 
+TEST_CASE("what-if: compare lists every setting the files differ in and warns when the signals differ") {
+  TempDir scratch("peakplan_what_if");
+  std::string other = two_stage_chain("100 ohm");
+  // Two changes the metrics alone would hide: the source resistance and the bit rate.
+  other.replace(other.find("\"50 ohm\""), 8, "\"60 ohm\"");
+  other.replace(other.find("\"25 Gb/s\""), 9, "\"26.5625 Gb/s\"");
+  other.replace(other.find("c_load = \"30 fF\""), 16, "c_load = \"30 fF\"\nr_load = \"1 kohm\"");
+  const auto a = scratch.write("a.toml", two_stage_chain("100 ohm"));
+  const auto b = scratch.write("b.toml", other);
+  const auto doc = run_json({"compare", a, b, "--json"});
+  REQUIRE(doc["settings"].size() == 3);
+  CHECK(doc["settings"][0]["key"] == "input.r_source");
+  CHECK(doc["settings"][0]["a"] == "\"50 ohm\"");
+  CHECK(doc["settings"][0]["b"] == "\"60 ohm\"");
+  CHECK(doc["settings"][1]["key"] == "signal.bit_rate");
+  CHECK(doc["settings"][2]["key"] == "stage buffer.r_load");
+  CHECK(doc["settings"][2]["a"].is_null());
+  CHECK(doc["signals_differ"] == true);
+  const auto text = run_cli({"compare", a, b});
+  CHECK(text.out.find("\"25 Gb/s\"") != std::string::npos);
+  CHECK(text.out.find("26.5625 Gb/s") != std::string::npos);
+  CHECK(text.out.find("driven by different signals") != std::string::npos);
+
+  const auto same = run_json({"compare", a, a, "--json"});
+  CHECK(same["settings"].empty());
+  CHECK(same["signals_differ"] == false);
+  CHECK(run_cli({"compare", a, a}).out.find("different signals") == std::string::npos);
+}
+
 TEST_CASE("what-if: compare plans a file with open values first and says so") {
   TempDir scratch("peakplan_what_if");
   const auto fixed = scratch.write("fixed.toml", two_stage_chain("100 ohm"));

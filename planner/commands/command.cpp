@@ -77,24 +77,12 @@ std::string help_footer(const std::string& example) {
          example + "\n";
 }
 
-PlanProgressLine::PlanProgressLine()
-    : terminal_(isatty(fileno(stderr)) == 1), shown_(std::make_shared<bool>(false)) {}
-
-PlanProgressLine::~PlanProgressLine() {
-  if (*shown_) std::fputs("\r\033[K", stderr);
-}
-
 PlanOptions PlanProgressLine::options() const {
   PlanOptions options;
   options.stop = [] { return g_stop_signal != 0; };
-  if (!terminal_) return options;
-  options.progress = [shown = shown_](const PlanProgress& p) {
-    if (p.seconds < 1.0) return;
-    const auto line = fmt::format("\rplanning: {} evaluations, {:.1f} s, {} search, best so far {}\033[K",
-                                  p.evaluations, p.seconds, p.stage, p.feasible ? "meets every limit" : "misses a limit");
-    std::fputs(line.c_str(), stderr);
-    std::fflush(stderr);
-    *shown = true;
+  options.progress = [line = line_](const PlanProgress& p) {
+    line->show(fmt::format("planning: {} evaluations, {:.1f} s, {} search, best so far {}", p.evaluations, p.seconds,
+                           p.stage, p.feasible ? "meets every limit" : "misses a limit"));
   };
   return options;
 }

@@ -8,6 +8,7 @@
 #include <memory>
 #include <string>
 
+#include "planner/commands/progress_line.hpp"
 #include "planner/planner.hpp"
 
 namespace peakplan::cli {
@@ -52,19 +53,14 @@ struct Command {
 // leaves half an output. Nothing is printed once a stop signal has arrived.
 void print(const std::string& text);
 
-// A one-line progress display of a running plan on stderr, shown only when stderr is a terminal
-// and only once the plan has run for a second; the line is cleared when the display goes.
+// A running plan's progress on a ProgressLine (shown on a terminal once a second has passed,
+// cleared when the display goes).
 class PlanProgressLine {
  public:
-  PlanProgressLine();
-  ~PlanProgressLine();
-  PlanProgressLine(const PlanProgressLine&) = delete;
-  PlanProgressLine& operator=(const PlanProgressLine&) = delete;
   PlanOptions options() const;  // default plan options reporting to this line, stopping on a signal
 
  private:
-  bool terminal_ = false;
-  std::shared_ptr<bool> shown_;
+  std::shared_ptr<ProgressLine> line_ = std::make_shared<ProgressLine>();
 };
 
 // True when `output` names the same file as `input` (so writing it would overwrite the input).

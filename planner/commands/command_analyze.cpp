@@ -37,7 +37,8 @@ int run_analyze(const AnalyzeArgs& args) {
     std::cerr << diagnostics.format();
     return bad_input;
   }
-  const auto options = analysis_options(*spec, args.points);
+  auto options = analysis_options(*spec, args.points);
+  options.threads = default_thread_count();
   const auto analysis = analyze_chain(*chain, options);
   std::optional<VariationResult> variation;
   if (spec->variation) {
@@ -52,7 +53,7 @@ int run_analyze(const AnalyzeArgs& args) {
     variation = analyze_variation(*spec, *chain, run);
   }
   if (args.json) {
-    auto doc = analysis_json(*chain, analysis, {true, options.signal});
+    auto doc = analysis_json(*chain, analysis);
     if (variation) doc["variation"] = variation_json(*variation);
     print(doc.dump(2) + "\n");
   } else {

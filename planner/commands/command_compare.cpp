@@ -5,6 +5,8 @@
 
 #include "planner/commands/command.hpp"
 #include "planner/chain_graph.hpp"
+#include "planner/chain_input.hpp"
+#include "planner/chain_settings.hpp"
 #include "planner/planner.hpp"
 #include "planner/what_if.hpp"
 #include "reports/compare_report.hpp"
@@ -19,6 +21,7 @@ struct CompareArgs {
 
 // One side: the chain as written, or planned first when the file leaves values open.
 struct Loaded {
+  std::string text;
   ChainSpec spec;
   Chain chain;
   std::optional<Plan::Termination> planned;
@@ -26,9 +29,11 @@ struct Loaded {
 };
 
 std::optional<Loaded> load_side(const std::string& path, Diagnostics& diagnostics) {
-  auto spec = load_chain_spec(path, diagnostics);
+  auto text = read_chain_text(path, diagnostics);
+  if (!text) return std::nullopt;
+  auto spec = parse_chain_spec(*text, diagnostics);
   if (!spec) return std::nullopt;
-  Loaded side{*spec, {}, std::nullopt, {}};
+  Loaded side{std::move(*text), *spec, {}, std::nullopt, {}};
   if (std::any_of(spec->stages.begin(), spec->stages.end(), has_open_values)) {
     auto plan = plan_chain(*spec, diagnostics, stopping_plan_options());
     if (!plan) return std::nullopt;
@@ -53,7 +58,8 @@ int run_compare(const CompareArgs& args) {
   }
   const CompareSide side_a{args.a, a->chain, a->analysis, a->planned};
   const CompareSide side_b{args.b, b->chain, b->analysis, b->planned};
-  print(args.json ? compare_json(side_a, side_b).dump(2) + "\n" : compare_text(side_a, side_b));
+  const auto settings = setting_differences(a->text, b->text);
+  print(args.json ? compare_json(side_a, side_b, settings).dump(2) + "\n" : compare_text(side_a, side_b, settings));
   return ok;
 }
 

@@ -39,7 +39,8 @@ int run_report(const ReportArgs& args) {
     std::cerr << diagnostics.format();
     return bad_input;
   }
-  const auto options = analysis_options(*spec);
+  auto options = analysis_options(*spec);
+  options.threads = default_thread_count();
 
   std::optional<Plan> plan;
   std::optional<Chain> chain;

@@ -1,6 +1,6 @@
-// A one-line progress display on stderr for long runs other than plans (PlanProgressLine in
-// command.hpp shows plans): shown only when stderr is a terminal and once the run has taken a
-// second, cleared when the object goes. Nothing is ever written to stdout.
+// A one-line progress display on stderr for long runs (PlanProgressLine in command.hpp feeds it
+// a plan's progress): shown only when stderr is a terminal and once the run has taken a second,
+// cleared when the object goes. Nothing is ever written to stdout.
 #pragma once
 
 #include <chrono>

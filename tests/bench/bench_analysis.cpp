@@ -49,6 +49,35 @@ void full_analysis(benchmark::State& state) {
 }
 BENCHMARK(full_analysis)->Unit(benchmark::kMillisecond);
 
+// The same with a 56 Gb/s NRZ PRBS7 eye, its noise and a swing (Q, BER, eye at the BER): what
+// `analyze --json --points 2000` of a six-stage chain with a [signal] does in the process.
+void full_analysis_prbs7(benchmark::State& state) {
+  const auto chain = six_stage_chain();
+  peakplan::AnalysisOptions options;
+  options.points = 2000;
+  peakplan::Signal signal;
+  signal.bit_rate = 56e9;
+  signal.swing = 0.02;
+  options.signal = signal;
+  options.swing_given = true;
+  options.threads = static_cast<int>(state.range(0));
+  for (auto _ : state) benchmark::DoNotOptimize(peakplan::analyze_chain(chain, options));
+}
+// Argument: threads (analyze uses every core).
+BENCHMARK(full_analysis_prbs7)->Arg(1)->Arg(2)->Unit(benchmark::kMillisecond)->UseRealTime();
+
+// The eye and its noise without a swing: no Q, BER or eye at the BER (the statistical eye).
+void full_analysis_prbs7_no_swing(benchmark::State& state) {
+  const auto chain = six_stage_chain();
+  peakplan::AnalysisOptions options;
+  options.points = 2000;
+  peakplan::Signal signal;
+  signal.bit_rate = 56e9;
+  options.signal = signal;
+  for (auto _ : state) benchmark::DoNotOptimize(peakplan::analyze_chain(chain, options));
+}
+BENCHMARK(full_analysis_prbs7_no_swing)->Unit(benchmark::kMillisecond);
+
 // Deriving the six stages' rational transfer functions from their nodal systems.
 void stage_rationals(benchmark::State& state) {
   const auto chain = six_stage_chain();

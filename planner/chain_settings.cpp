@@ -1,0 +1,105 @@
+#include "planner/chain_settings.hpp"
+
+#include <sstream>
+#include <toml++/toml.h>
+#include <utility>
+
+namespace peakplan {
+namespace {
+
+using Flat = std::vector<std::pair<std::string, std::string>>;
+
+// Strings in double quotes as a user types them (TOML++ would print 'literal' strings).
+std::string toml_text(const toml::node& node) {
+  if (const auto* text = node.as_string()) return "\"" + text->get() + "\"";
+  std::ostringstream out;
+  node.visit([&](const auto& value) { out << value; });
+  return out.str();
+}
+
+void flatten(const toml::table& table, const std::string& prefix, Flat& out) {
+  for (const auto& [key, node] : table) {
+    const std::string name = prefix.empty() ? std::string(key.str()) : prefix + "." + std::string(key.str());
+    if (const auto* inner = node.as_table()) {
+      flatten(*inner, name, out);
+    } else {
+      out.emplace_back(name, toml_text(node));
+    }
+  }
+}
+
+std::string stage_name(const toml::table& stage, size_t index) {
+  if (const auto id = stage["id"].value<std::string>()) return "stage " + *id;
+  return "stage #" + std::to_string(index + 1);
+}
+
+Flat flat_settings(std::string_view text) {
+  Flat out;
+  toml::table root;
+  try {
+    root = toml::parse(text);
+  } catch (const toml::parse_error&) {
+    return out;
+  }
+  for (const auto& [key, node] : root) {
+    const std::string name(key.str());
+    if (const auto* table = node.as_table()) {
+      flatten(*table, name, out);
+    } else if (const auto* stages = node.as_array(); stages && name == "stage") {
+      for (size_t i = 0; i < stages->size(); ++i)
+        if (const auto* stage = stages->get(i)->as_table()) {
+          Flat one;
+          flatten(*stage, "", one);
+          for (auto& [k, v] : one)
+            if (k != "id") out.emplace_back(stage_name(*stage, i) + "." + k, std::move(v));
+        }
+    } else {
+      out.emplace_back(name, toml_text(node));
+    }
+  }
+  return out;
+}
+
+bool is_stage_key(const std::string& key) { return key.starts_with("stage "); }
+std::string stage_of(const std::string& key) { return key.substr(0, key.find('.')); }
+
+// compare's stage table already says which stages only one file has; their keys are not repeated.
+bool stage_in(const Flat& flat, const std::string& key) {
+  const std::string stage = stage_of(key) + ".";
+  for (const auto& kv : flat)
+    if (kv.first.starts_with(stage)) return true;
+  return false;
+}
+
+// The chain's name: compare's header shows it.
+bool shown_elsewhere(const std::string& key) { return key == "chain.name"; }
+
+const std::string* find(const Flat& flat, const std::string& key) {
+  for (const auto& [k, v] : flat)
+    if (k == key) return &v;
+  return nullptr;
+}
+
+}  // namespace
+
+std::vector<SettingDifference> setting_differences(std::string_view text_a, std::string_view text_b) {
+  const Flat a = flat_settings(text_a), b = flat_settings(text_b);
+  std::vector<SettingDifference> out;
+  for (const auto& [key, value] : a) {
+    if (shown_elsewhere(key) || (is_stage_key(key) && !stage_in(b, key))) continue;
+    const std::string* other = find(b, key);
+    if (!other) {
+      out.push_back({key, value, std::nullopt});
+    } else if (*other != value) {
+      out.push_back({key, value, *other});
+    }
+  }
+  for (const auto& [key, value] : b)
+    if (!shown_elsewhere(key) && !find(a, key) && !(is_stage_key(key) && !stage_in(a, key)))
+      out.push_back({key, std::nullopt, value});
+  return out;
+}
+
+bool is_signal_setting(const SettingDifference& difference) { return difference.key.starts_with("signal."); }
+
+}  // namespace peakplan
