@@ -523,3 +523,34 @@ TEST_CASE("variation: sweep shows each point's worst corner and yield exactly as
   CHECK(text.out.find("worst gain") != std::string::npos);
   CHECK(text.out.find("yield") != std::string::npos);
 }
+
+TEST_CASE("variation: compare shows each file's worst corner and yield as analyze reports them") {
+  // common practice: compare reads each side's own analysis, so its worst-corner values are the
+  // values at the corners analyze --json names in `worst`, and its yield is analyze's.
+  TempDir dir;
+  const auto a = dir.write("a.toml", kTwoStages);
+  auto text = std::string(kTwoStages);
+  text.replace(text.find("rd = \"60 ohm\""), 13, "rd = \"70 ohm\"");
+  const auto b = dir.write("b.toml", text);
+  const auto run = run_cli({"compare", a, b, "--json"});
+  REQUIRE(run.status == 0);
+  const auto v = nlohmann::json::parse(run.out)["variation"];
+  for (const auto& [side, path] : {std::pair{"a", a}, std::pair{"b", b}}) {
+    CAPTURE(side);
+    const auto analyzed = run_cli({"analyze", path, "--json"});
+    REQUIRE(analyzed.status == 0);
+    const auto variation = nlohmann::json::parse(analyzed.out)["variation"];
+    CHECK(v["overall_yield"][side].get<double>() == variation["monte_carlo"]["overall_yield"].get<double>());
+    for (const auto* key : {"dc_gain_db", "bandwidth_hz", "overshoot_pct"}) {
+      CAPTURE(key);
+      const auto corner = variation["worst"][key].get<std::string>();
+      CHECK(v["worst"][key][std::string(side) + "_corner"] == corner);
+      for (const auto& c : variation["corners"])
+        if (c["name"] == corner) CHECK(v["worst"][key][side].get<double>() == c["metrics"][key].get<double>());
+    }
+  }
+  const auto shown = run_cli({"compare", a, b});
+  REQUIRE(shown.status == 0);
+  CHECK(shown.out.find("at the worst corner") != std::string::npos);
+  CHECK(shown.out.find("yield (every check)") != std::string::npos);
+}
