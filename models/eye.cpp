@@ -277,7 +277,9 @@ double height_on_grid(std::span<const double> cursors, int main_index, Modulatio
   const int eyes = modulation == Modulation::pam4 ? 3 : 1;
   const int levels = eyes + 1;
   const double spacing = cursors[static_cast<size_t>(main_index)] / eyes;
-  const auto [isi_min, isi_max] = isi_bounds(cursors, main_index);
+  // Not a structured binding: a lambda below captures it (clang 14 cannot capture a binding).
+  const auto isi = isi_bounds(cursors, main_index);
+  const double isi_min = isi.first, isi_max = isi.second;
   const double isi_range = isi_max - isi_min;
   const double delta = grid.delta;
   if (delta == 0.0) return spacing * eyes;

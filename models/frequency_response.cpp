@@ -173,7 +173,10 @@ FrequencyMetrics frequency_metrics(const Cascade& cascade, double ripple_band_hz
   if (h0 == 0.0 || !std::isfinite(h0)) return m;
 
   const auto roots_hz = root_frequencies(cascade);
-  const auto [f_lo, f_hi] = span_of(roots_hz, scan.margin_decades);
+  // Named, not a structured binding: the lambdas below capture it (clang 14, the fuzz build,
+  // cannot capture a binding).
+  const auto span = span_of(roots_hz, scan.margin_decades);
+  const double f_lo = span.first, f_hi = span.second;
   const int points = std::max(2, static_cast<int>(std::log10(f_hi / f_lo) * scan.per_decade));
   auto freq = [&](double u) { return f_lo * std::exp(u); };
   auto mag = [&](double u) { return cascade.gain_at(kTwoPi * freq(u)); };

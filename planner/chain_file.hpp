@@ -68,6 +68,14 @@ struct LimitsSpec {
   std::optional<double> peaking_db;
   std::optional<double> group_delay_ripple;  // s
   std::optional<double> ripple_band;         // Hz
+  // The deepest in-band dip allowed, dB (a positive depth). Unset: plans use kDefaultSagDb and
+  // analyses check none. 3 dB or more allows any shape the first-crossing bandwidth allows.
+  std::optional<double> sag_db;
+  static constexpr double kDefaultSagDb = 1.0;
+  // The least DC gain any planned stage may have, dB (negative allows a loss). Unset: plans use
+  // kDefaultMinStageGainDb (no planned loss), analyses check none.
+  std::optional<double> min_stage_gain_db;
+  static constexpr double kDefaultMinStageGainDb = 0.0;
 };
 
 struct SignalSpec {
@@ -102,6 +110,11 @@ inline constexpr size_t kMaxStageTables = 256;
 inline constexpr int64_t kMaxCount = 64;
 inline constexpr int64_t kMaxStageCopies = 256;
 inline constexpr int64_t kMaxCombinations = 1024;
+
+// Plausible ranges of the normalised designs (docs/chain-format.md): shunt and series peaking
+// use m of 0.2 .. 0.7 and T-coils zeta of 0.5 .. 1.5; the bounds are decades wider.
+inline constexpr double kMinDesignM = 0.01, kMaxDesignM = 10.0;
+inline constexpr double kMinDesignZeta = 0.1, kMaxDesignZeta = 10.0;
 
 // Parses and validates one chain file. `display_name` is the name errors carry (the path as
 // the user gave it). Returns nullopt when there were errors; they are in `diagnostics`.

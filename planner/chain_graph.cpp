@@ -8,6 +8,7 @@
 
 #include "models/frequency_response.hpp"
 #include "models/peaking_design.hpp"
+#include "planner/plausible_range.hpp"
 #include "planner/variation_file.hpp"
 
 namespace peakplan {
@@ -238,6 +239,20 @@ std::optional<Chain> resolve_chain(const ChainSpec& spec, Diagnostics& diagnosti
                                                    spec.technology.temperature,
                                                    format_si(tail->value * c.gm / bound, "A", 4)));
     }
+    // A stage's own gain gm (Rd || r_load) decades past any broadband stage's (gm = 100 nS with
+    // rd = 1 mohm, or rd = 100 Mohm) puts poles and gains in one cascade so far apart that its
+    // polynomials cannot be solved: each value is plausible alone, the product is not.
+    if (const auto* rd_at = s.find("rd"); rd_at && c.gm > 0.0 && c.rd > 0.0) {
+      const double r = std::isfinite(c.r_load) ? c.rd * c.r_load / (c.rd + c.r_load) : c.rd;
+      const double gain = c.gm * r;
+      if (!(gain >= kMinStageGain && gain <= kMaxStageGain))
+        diagnostics.error(rd_at->where,
+                          fmt::format("{}gm x rd = {} x {} is a stage gain of {:.3g} ({:.1f} dB), outside the "
+                                      "plausible range {:g} .. {:g} ({:.0f} .. {:.0f} dB); check the units of gm and rd",
+                                      who, format_si(c.gm, "S", 4), format_si(r, "ohm", 4), gain,
+                                      20.0 * std::log10(gain), kMinStageGain, kMaxStageGain,
+                                      20.0 * std::log10(kMinStageGain), 20.0 * std::log10(kMaxStageGain)));
+    }
     const bool designed_coil = s.zeta || !s.response.empty();
     switch (c.kind) {
       case LoadKind::plain: break;
@@ -291,6 +306,20 @@ std::optional<Chain> resolve_chain(const ChainSpec& spec, Diagnostics& diagnosti
   }
   if (!diagnostics.empty()) return std::nullopt;
   apply_designs(chain, spec, *graph);
+  // What a design sets must be a plausible element too (m = 10 with rd = 1 Mohm is 0.1 H).
+  for (size_t i = 0; i < chain.stages.size(); ++i) {
+    const auto& s = spec.stages[(*graph)[i].spec];
+    const auto& c = chain.stages[i].circuit;
+    const bool designed = (s.m && c.kind != LoadKind::plain) || (c.kind == LoadKind::tcoil && (s.zeta || !s.response.empty()));
+    if (!designed || (*graph)[i].copy > 1) continue;
+    const double l = c.kind == LoadKind::tcoil ? c.l1 : c.l;
+    auto why = implausibility(l, Dimension::inductance);
+    why = why.substr(0, why.find("; did you mean"));  // another prefix is no fix for a derived value
+    if (!why.empty())
+      diagnostics.error(s.design_where, fmt::format("stage '{}': its design sets {} = {}: {}", s.id,
+                                                    c.kind == LoadKind::tcoil ? "l1 = l2" : "l", format_si(l, "H", 4),
+                                                    why));
+  }
   if (spec.variation) check_variation(*spec.variation, chain, diagnostics);
   if (!diagnostics.empty()) return std::nullopt;
   return chain;

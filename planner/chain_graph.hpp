@@ -25,6 +25,9 @@ struct GraphStage {
 std::optional<std::vector<GraphStage>> build_stage_graph(const ChainSpec& spec, Diagnostics& diagnostics,
                                                          const std::vector<int>* counts = nullptr);
 
+// Plausible range of one stage's own gain gm (Rd || r_load) (docs/chain-format.md): -80 .. +80 dB.
+inline constexpr double kMinStageGain = 1e-4, kMaxStageGain = 1e4;
+
 // The chain exactly as written: every value must be fixed (no "auto", ranges or kind lists).
 // Normalised designs (m, zeta, response) are resolved against the stage's actual load, and
 // inductor losses derived from [technology] inductor_q where not given.

@@ -144,6 +144,20 @@ std::optional<std::string> read_chain_text(const std::string& path, Diagnostics&
   return text;
 }
 
+std::optional<size_t> not_text_at(std::string_view text) {
+  for (size_t i = 0; i < text.size();) {
+    const size_t length = text[i] == '\0' ? 0 : utf8_length(text, i);
+    if (length == 0) return i;
+    i += length;
+  }
+  return std::nullopt;
+}
+
+bool check_chain_text(std::string_view text, Diagnostics& diagnostics) {
+  const bool truncated = text.size() > kMaxChainBytes;
+  return check_text(std::string(truncated ? text.substr(0, kMaxChainBytes + 1) : text), truncated, diagnostics);
+}
+
 std::optional<size_t> too_deep_at(std::string_view text) {
   // A scan, not a parse: strings and comments are skipped; [ and { open a level, ] and } close
   // one; a '.' while a key is being read (a line's start up to '=', or after '{' or ',' in an

@@ -24,6 +24,13 @@ inline constexpr size_t kMaxNesting = 32;                  // a chain file needs
 // The file read whole; nullopt (reported, with the position where it applies) when it cannot
 // be read or is not chain text by the rules above.
 std::optional<std::string> read_chain_text(const std::string& path, Diagnostics& diagnostics);
+// The same checks of text already in memory (empty, binary, not UTF-8, over kMaxChainBytes);
+// false, reported, when it is not chain text. The fuzz targets (tests/fuzz/) read no files.
+bool check_chain_text(std::string_view text, Diagnostics& diagnostics);
+
+// The byte offset of the first NUL byte or byte that is not UTF-8 in `text`, or nullopt (a
+// --set text is checked so before it is parsed: TOML++ rejects such bytes inside a string).
+std::optional<size_t> not_text_at(std::string_view text);
 
 // The byte offset where `text` first nests deeper than kMaxNesting, or nullopt.
 std::optional<size_t> too_deep_at(std::string_view text);

@@ -104,6 +104,12 @@ const std::vector<std::string_view>& overridable_tables() { return kTables; }
 std::optional<Override> parse_override(std::string_view text, std::string_view option, Diagnostics& diagnostics) {
   Override o;
   o.origin = std::string(option) + " " + std::string(text);
+  if (const auto at = not_text_at(text)) {
+    diagnostics.error({0, 0, o.origin},
+                      fmt::format("byte {} (0x{:02X}) is not UTF-8 text; an override is ID.KEY=VALUE in UTF-8", *at + 1,
+                                  static_cast<unsigned char>(text[*at])));
+    return std::nullopt;
+  }
   const auto equals = text.find('=');
   const auto lhs = text.substr(0, equals);
   const auto dot = lhs.rfind('.');

@@ -216,6 +216,15 @@ const std::vector<Fault>& faults() {
       {"limiting_mos_gm_beyond_tail.toml", "a MOS pair cannot give more gm than I_T/(2 V_T)", 8, 16,
        {"stage 'la1': tail_current 1.000 mA cannot give gm = 40.00 mS", "at most I_T/(2 V_T) = 19.34 mS",
         "expected at least 2.068 mA"}},
+      // Normalised designs decades outside any peaking design (found by fuzzing, tests/fuzz/).
+      {"shunt_m_implausible.toml", "m = 1e12 is outside the plausible range of a peaking design", 8, 5,
+       {"stage 'a1': m = 1e+12 is outside the plausible range 0.01 .. 10"}},
+      {"tcoil_zeta_implausible.toml", "zeta = 1e-9 is outside the plausible range of a peaking design", 8, 8,
+       {"stage 'a1': zeta = 1e-09 is outside the plausible range 0.1 .. 10"}},
+      {"stage_gain_implausible.toml", "a stage gain gm x rd of 4.5e6 is reported at rd", 6, 6,
+       {"stage 'a1': gm x rd = 45.00 mS x 100.0 Mohm is a stage gain of 4.5e+06", "outside the plausible range"}},
+      {"design_inductance_implausible.toml", "an inductance of 0.8 mH set by an m design is reported at m", 8, 5,
+       {"stage 'a1': its design sets l = 800.0 uH", "outside the plausible range 10 fH .. 10 uH"}},
       {"combinations_over_limit.toml", "six stages of any kind (4096 combinations) are reported at the sixth kind", 29, 8,
        {"stage 's6': the candidate kinds and counts open so far make 4096 combinations", "limit of 1024"}},
   };
