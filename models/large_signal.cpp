@@ -57,22 +57,27 @@ double LargeSignalPath::drive(const Segment& s, double v) const {
   return linear_ ? s.gm * v : pair_current(*s.limit, s.gm, v);
 }
 
-std::vector<double> LargeSignalPath::run(const std::vector<double>& input, int steps_per_ui) const {
+std::vector<double> LargeSignalPath::run(const std::vector<double>& input, int steps_per_ui, int output_steps) const {
+  if (output_steps == 0) output_steps = steps_per_ui;
+  if (output_steps % steps_per_ui != 0)
+    throw std::invalid_argument("LargeSignalPath::run: output_steps must be a multiple of steps_per_ui");
   const double dt = ui_ / steps_per_ui;
   const auto n = static_cast<size_t>(steps_per_ui);
   std::vector<double> u(input.size() * n);
   for (size_t s = 0; s < input.size(); ++s) std::fill_n(u.begin() + static_cast<long>(s * n), n, input[s]);
   const auto& lead = segments_.front();
-  std::vector<double> v = SteppedSimulator(lead.network, dt).run(u);
+  std::vector<double> v = HoldSimulator(lead.network, dt, HoldSimulator::Hold::held).run(u);
   // A pure-gain lead passes the held symbols on: the first pair's current is then held too.
   bool held = lead.network.order() == 0;
   for (size_t j = 1; j < segments_.size(); ++j) {
     const auto& seg = segments_[j];
     for (auto& x : v) x = drive(seg, x);
-    v = held ? SteppedSimulator(seg.network, dt).run(v) : CubicHoldSimulator(seg.network, dt).run(v);
+    v = HoldSimulator(seg.network, dt, held ? HoldSimulator::Hold::held : HoldSimulator::Hold::cubic, steps_per_ui).run(v);
     held = held && seg.network.order() == 0;
   }
-  return v;
+  // The output of the last network is the integral of a bounded current, smooth within each
+  // symbol even where the current clips: the hold's cubic between its samples.
+  return cubic_resample(v, output_steps / steps_per_ui, steps_per_ui);
 }
 
 double LargeSignalPath::dc_output(double v) const {
@@ -112,10 +117,11 @@ namespace {
 double half_input(const Signal& signal, double a) { return 0.5 * signal.swing * (a - 0.5); }
 
 // 50 % crossing of a full-swing rising input edge, after the edge, held long either side.
-double edge_delay(const LargeSignalPath& path, const Signal& signal, long hold, int steps) {
+double edge_delay(const LargeSignalPath& path, const Signal& signal, long hold, int steps, int grid) {
   std::vector<double> input(static_cast<size_t>(2 * hold));
   for (long s = 0; s < 2 * hold; ++s) input[static_cast<size_t>(s)] = half_input(signal, s < hold ? 0.0 : 1.0);
-  const auto y = path.run(input, steps);
+  const auto y = path.run(input, steps, grid);
+  steps = grid;
   const double low = path.dc_output(input.front()), high = path.dc_output(input.back());
   const double mid = 0.5 * (low + high);
   const auto edge = static_cast<size_t>(hold * steps);
@@ -142,6 +148,7 @@ LargeSignalEye large_signal_eye_at(const Chain& chain, int output, const Signal&
   r.input_swing_v = signal.swing;
   r.steps_per_ui = steps;
   r.step_s = signal.ui() / steps;
+  r.grid_steps_per_ui = steps;
 
   std::vector<double> levels;  // settled, half circuit
   for (int l = 0; l <= eyes; ++l) levels.push_back(path.dc_output(half_input(signal, static_cast<double>(l) / eyes)));
@@ -188,38 +195,49 @@ LargeSignalEye large_signal_eye_at(const Chain& chain, int output, const Signal&
 
 LargeSignalEye large_signal_eye(const Chain& chain, int output, const Signal& signal, const LargeSignalOptions& options) {
   const LargeSignalPath path(chain, output, signal);
-  const HalfCircuitRun run = [&](const std::vector<double>& input, int steps) { return path.run(input, steps); };
-  auto at = [&](int steps) { return large_signal_eye_at(chain, output, signal, steps, run); };
+  // Simulated at `steps` per UI, measured on a grid of at least default_steps_per_ui (the eye
+  // code's resolution), the same grid for both runs of a comparison.
+  auto grid_for = [](int steps) { return std::max(default_steps_per_ui, steps); };
+  auto at = [&](int steps, int grid) {
+    const HalfCircuitRun run = [&, steps](const std::vector<double>& input, int g) { return path.run(input, steps, g); };
+    return large_signal_eye_at(chain, output, signal, grid, run);
+  };
   const double ideal_v =
       2.0 * std::fabs(path.dc_output(half_input(signal, 1.0)) - path.dc_output(half_input(signal, 0.0))) / signal.eye_count();
 
-  // The step: halve until the eye height moves by less than the tolerance. The two runs of
+  // The step: halve until the eye height and width move by less than the tolerance. The two runs of
   // the first comparison are independent and run on two threads; each run is sequential, so
   // the result does not depend on the thread count.
   int steps = options.min_steps_per_ui;
-  auto finer_future = std::async(std::launch::async, at, 2 * steps);
-  LargeSignalEye coarse = at(steps);
+  auto finer_future = std::async(std::launch::async, at, 2 * steps, grid_for(2 * steps));
+  LargeSignalEye coarse = at(steps, grid_for(2 * steps));
   LargeSignalEye finer = finer_future.get();
   double change = 0.0;
   bool converged = false;
   for (;;) {
+    // Height and width both: at 16 steps per UI a PAM4 eye's height has settled while its width
+    // (read where the interpolated edges cross the thresholds) is still 0.8 % short.
     const double scale = std::max(std::fabs(finer.height_v), 0.05 * ideal_v);
-    change = std::fabs(coarse.height_v - finer.height_v) / scale;
+    change = std::max(std::fabs(coarse.height_v - finer.height_v) / scale,
+                      std::fabs(coarse.width_ui - finer.width_ui) / std::max(finer.width_ui, 0.05));
     converged = change < options.tolerance;
     if (converged || 2 * steps >= options.max_steps_per_ui) break;
     steps *= 2;
-    coarse = std::move(finer);
-    finer = at(2 * steps);
+    // The finer run becomes the coarse one when the grid does not change; otherwise redo it.
+    coarse = grid_for(steps) == grid_for(2 * steps) ? std::move(finer) : at(steps, grid_for(2 * steps));
+    finer = at(2 * steps, grid_for(2 * steps));
   }
   LargeSignalEye r = std::move(coarse);
+  r.steps_per_ui = steps;
+  r.step_s = signal.ui() / steps;
   r.step_change = change;
   r.converged = converged;
 
   // Held long enough for the step response to settle: the linear pulse response's span.
   const long hold = pulse_response(output_cascade(chain, output), signal).ui_count + 2;
   const LargeSignalPath small(chain, output, signal, true);
-  r.delay_s = edge_delay(path, signal, hold, steps);
-  r.linear_delay_s = edge_delay(small, signal, hold, steps);
+  r.delay_s = edge_delay(path, signal, hold, steps, r.grid_steps_per_ui);
+  r.linear_delay_s = edge_delay(small, signal, hold, steps, r.grid_steps_per_ui);
   r.delay_shift_s = r.delay_s - r.linear_delay_s;
 
   for (size_t j = 0; j < path.limited_stages().size(); ++j)

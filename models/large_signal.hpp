@@ -7,10 +7,10 @@
 // output is cut at every limited stage into segments:
 //   leading   the source network (r_source with c_in), the input edge, and every linear stage
 //             ahead of the first limited stage: one linear block driven by the held symbols,
-//             discretised exactly for held inputs (SteppedSimulator);
+//             discretised exactly for held inputs (HoldSimulator, held);
 //   limited   a stage's curve, then its network and every linear stage up to the next limited
 //             stage: one linear block driven by the sampled current i[k] = f(v[k]), discretised
-//             exactly for the cubic through each four samples (CubicHoldSimulator), or for a
+//             exactly for the cubic through each four samples (HoldSimulator, cubic), or for a
 //             held current when the leading block is a pure gain (the current is then held).
 // Linear blocks are exact; the only approximation is the cubic between current samples, which
 // the automatic step controls.
@@ -41,9 +41,11 @@ class LargeSignalPath {
  public:
   LargeSignalPath(const Chain& chain, int output, const Signal& signal, bool linear = false);
 
-  // Half-circuit output volts at t = k*dt, dt = UI/steps_per_ui, for the half-circuit input
-  // held at input[s] over symbol s; starts at rest.
-  std::vector<double> run(const std::vector<double>& input, int steps_per_ui) const;
+  // Half-circuit output volts for the half-circuit input held at input[s] over symbol s,
+  // simulated from rest at dt = UI/steps_per_ui and returned at t = k*UI/output_steps
+  // (a multiple of steps_per_ui; 0 = steps_per_ui), the last network's output interpolated
+  // between simulated samples by the four-point cubic.
+  std::vector<double> run(const std::vector<double>& input, int steps_per_ui, int output_steps = 0) const;
   // The settled half-circuit output for a half-circuit input held at v.
   double dc_output(double v) const;
   // The half-circuit input of every limited stage (path order) for a held chain input v.
@@ -79,19 +81,21 @@ struct StageCompression {
 };
 
 struct LargeSignalOptions {
-  int min_steps_per_ui = default_steps_per_ui;
+  int min_steps_per_ui = 16;  // simulation steps; the eye is measured on at least 64 per UI
   int max_steps_per_ui = 1024;
   // Halving the step must change the eye height by less than this fraction of it (of 5 % of
-  // the settled-level eye when the eye is nearly or fully closed).
+  // the settled-level eye when the eye is nearly or fully closed), and the width by less than
+  // this fraction of it (of 0.05 UI when nearly closed).
   double tolerance = 1e-3;
 };
 
 struct LargeSignalEye {
   Modulation modulation = Modulation::nrz;
   double input_swing_v = 0.0;   // differential peak to peak at the chain input
-  int steps_per_ui = 0;         // the step chosen: dt = UI / steps_per_ui
+  int steps_per_ui = 0;         // the simulation step chosen: dt = UI / steps_per_ui
   double step_s = 0.0;
-  double step_change = 0.0;     // relative change of the height on halving the step
+  int grid_steps_per_ui = 0;    // the grid the eye is measured on (the output interpolated)
+  double step_change = 0.0;     // relative change of the height or width on halving the step
   bool converged = false;       // false: max_steps_per_ui reached without meeting the tolerance
   double height_v = 0.0;        // inner opening, differential; PAM4: the worst eye at one offset
   double width_ui = 0.0;        // at the thresholds between settled levels

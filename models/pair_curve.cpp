@@ -14,7 +14,15 @@ std::optional<PairKind> pair_kind_from_name(std::string_view name) {
 std::string_view to_string(PairKind kind) { return kind == PairKind::mos ? "mos" : "bipolar"; }
 
 double pair_current_normalised(PairKind pair, double x) {
-  if (pair == PairKind::bipolar) return 0.5 * std::tanh(2.0 * x);
+  if (pair == PairKind::bipolar) {
+    // tanh(y) = (1 - e)/(1 + e), e = exp(-2|y|), is as accurate as tanh itself away from zero
+    // and a third of its cost; beyond |y| = 19.1 tanh rounds to 1 in double precision.
+    const double a = std::fabs(2.0 * x);
+    if (a >= 20.0) return std::copysign(0.5, x);
+    if (a < 0.5) return 0.5 * std::tanh(2.0 * x);
+    const double e = std::exp(-2.0 * a);
+    return std::copysign(0.5 * (1.0 - e) / (1.0 + e), x);
+  }
   // Beyond full steering (x^2 >= 1/2) one device carries the whole tail current.
   if (2.0 * x * x >= 1.0) return x > 0.0 ? 0.5 : -0.5;
   return x * std::sqrt(1.0 - x * x);

@@ -1,6 +1,7 @@
 #include "models/step_response.hpp"
 
 #include <algorithm>
+#include <array>
 #include <cmath>
 #include <stdexcept>
 #include <unsupported/Eigen/MatrixFunctions>
@@ -99,7 +100,37 @@ std::vector<double> SteppedSimulator::step(int points) const {
   return run(std::vector<double>(static_cast<size_t>(points), 1.0));
 }
 
-CubicHoldSimulator::CubicHoldSimulator(const StateSpace& model, double dt) : n_(model.order()), dt_(dt), d_(model.d) {
+namespace {
+
+// The cubic through (nodes[m], u_m), m = 0..3: weights[m][j] of u_m in its j-th derivative at 0.
+std::array<std::array<double, 4>, 4> cubic_derivative_weights(const std::array<double, 4>& nodes) {
+  Eigen::Matrix4d v;
+  for (int m = 0; m < 4; ++m)
+    for (int p = 0; p < 4; ++p) v(m, p) = std::pow(nodes[static_cast<size_t>(m)], p);
+  const Eigen::Matrix4d inverse = v.inverse();  // coefficients c = inverse * u
+  const double factorial[4] = {1.0, 1.0, 2.0, 6.0};
+  std::array<std::array<double, 4>, 4> w{};
+  for (int m = 0; m < 4; ++m)
+    for (int j = 0; j < 4; ++j) w[static_cast<size_t>(m)][static_cast<size_t>(j)] = factorial[j] * inverse(j, m);
+  return w;
+}
+
+// Sample offsets of the four nodes of each stencil: centred, and one-sided for the intervals
+// that start or end at a break (the derivatives of a waveform driven by held symbols jump at the
+// symbol boundaries; a stencil across one would smear the jump).
+constexpr std::array<std::array<int, 4>, 3> kStencils{{{-1, 0, 1, 2}, {0, 1, 2, 3}, {-2, -1, 0, 1}}};
+
+// Which stencil the interval [k, k+1] takes, with breaks every `period` samples (0: none).
+int stencil_for(size_t k, int period) {
+  if (period < 4) return 0;
+  const auto p = static_cast<int>(k % static_cast<size_t>(period));
+  return p == 0 ? 1 : p == period - 1 ? 2 : 0;
+}
+
+}  // namespace
+
+HoldSimulator::HoldSimulator(const StateSpace& model, double dt, Hold hold, int period)
+    : n_(model.order()), hold_(hold), period_(period), dt_(dt), d_(model.d) {
   const int n = n_;
   const double h = dt / model.time_scale;
   Eigen::MatrixXd augmented = Eigen::MatrixXd::Zero(n + 4, n + 4);
@@ -109,47 +140,125 @@ CubicHoldSimulator::CubicHoldSimulator(const StateSpace& model, double dt) : n_(
   const Eigen::MatrixXd e = augmented.exp();
   // G_j: the state after one step from rest for the input tau^j/j!, tau in [0, 1].
   const Eigen::MatrixXd g = e.topRightCorner(n, 4);
-  // The Lagrange cubic through tau = -1, 0, 1, 2 (values u_1, u0, u1, u2) has at tau = 0
-  //   u = u0,  du = -u_1/3 - u0/2 + u1 - u2/6,  d2u = u_1 - 2 u0 + u1,  d3u = -u_1 + 3 u0 - 3 u1 + u2;
-  // lagrange[m][j] is the weight of sample m (u_1, u0, u1, u2) in derivative j.
-  const double lagrange[4][4] = {{0.0, -1.0 / 3.0, 1.0, -1.0},
-                                 {1.0, -0.5, -2.0, 3.0},
-                                 {0.0, 1.0, 1.0, -3.0},
-                                 {0.0, -1.0 / 6.0, 0.0, 1.0}};
   phi_.resize(static_cast<size_t>(n * n));
   for (int r = 0; r < n; ++r)
     for (int c = 0; c < n; ++c) phi_[static_cast<size_t>(r * n + c)] = e(r, c);
-  w_.assign(static_cast<size_t>(4 * n), 0.0);
-  for (int m = 0; m < 4; ++m)
-    for (int j = 0; j < 4; ++j)
-      for (int r = 0; r < n; ++r) w_[static_cast<size_t>(m * n + r)] += lagrange[m][j] * g(r, j);
+  // w_[(stencil * 4 + m) * n + r]: the weight of the stencil's node m in state r.
+  w_.assign(static_cast<size_t>(3 * 4 * n), 0.0);
+  for (int st = 0; st < 3; ++st) {
+    std::array<double, 4> nodes{};
+    for (int m = 0; m < 4; ++m) nodes[static_cast<size_t>(m)] = kStencils[static_cast<size_t>(st)][static_cast<size_t>(m)];
+    const auto lagrange = cubic_derivative_weights(nodes);
+    for (int m = 0; m < 4; ++m)
+      for (int j = 0; j < 4; ++j) {
+        // A held input is the constant u[k] (node 0 of the centred stencil) with G_0 alone.
+        const bool node_k = kStencils[static_cast<size_t>(st)][static_cast<size_t>(m)] == 0;
+        const double weight = hold == Hold::held ? (st == 0 && node_k && j == 0 ? 1.0 : 0.0)
+                                                 : lagrange[static_cast<size_t>(m)][static_cast<size_t>(j)];
+        for (int r = 0; r < n; ++r) w_[static_cast<size_t>((st * 4 + m) * n + r)] += weight * g(r, j);
+      }
+  }
   c_.assign(model.c.data(), model.c.data() + n);
 }
 
-std::vector<double> CubicHoldSimulator::run(const std::vector<double>& u) const {
-  const size_t count = u.size();
-  std::vector<double> y(count);
-  if (count == 0) return y;
-  const int n = n_;
-  std::vector<double> x(static_cast<size_t>(n), 0.0), next(static_cast<size_t>(n));
-  const double* phi = phi_.data();
-  const double* w0 = w_.data();
-  const double* w1 = w0 + n;
-  const double* w2 = w1 + n;
-  const double* w3 = w2 + n;
-  const size_t last = count - 1;
-  for (size_t k = 0; k < count; ++k) {
-    double out = d_ * u[k];
-    for (int r = 0; r < n; ++r) out += c_[static_cast<size_t>(r)] * x[static_cast<size_t>(r)];
-    y[k] = out;
-    const double um = u[k > 0 ? k - 1 : 0], u0 = u[k], u1 = u[std::min(k + 1, last)], u2 = u[std::min(k + 2, last)];
-    for (int r = 0; r < n; ++r) {
-      double acc = w0[r] * um + w1[r] * u0 + w2[r] * u1 + w3[r] * u2;
-      const double* row = phi + r * n;
-      for (int c = 0; c < n; ++c) acc += row[c] * x[static_cast<size_t>(c)];
-      next[static_cast<size_t>(r)] = acc;
+namespace {
+
+// The step loop for a fixed order N (0 = the general order n), so the compiler unrolls it.
+template <int N>
+void hold_loop(int n, bool cubic, int period, double d, const double* phi, const double* w, const double* c,
+               const std::vector<double>& u, std::vector<double>& y) {
+  if constexpr (N > 0) n = N;
+  double x[8] = {0, 0, 0, 0, 0, 0, 0, 0}, next[8];
+  std::vector<double> big_x, big_next;
+  double* xs = x;
+  double* ns = next;
+  if (n > 8) {
+    big_x.assign(static_cast<size_t>(n), 0.0);
+    big_next.assign(static_cast<size_t>(n), 0.0);
+    xs = big_x.data();
+    ns = big_next.data();
+  }
+  const long count = static_cast<long>(u.size()), last = count - 1;
+  auto at = [&](long i) { return u[static_cast<size_t>(std::clamp<long>(i, 0, last))]; };
+  for (long k = 0; k < count; ++k) {
+    double out = d * u[static_cast<size_t>(k)];
+    for (int r = 0; r < n; ++r) out += c[r] * xs[r];
+    y[static_cast<size_t>(k)] = out;
+    if (cubic) {
+      const int st = stencil_for(static_cast<size_t>(k), period);
+      const auto& offsets = kStencils[static_cast<size_t>(st)];
+      const double u0 = at(k + offsets[0]), u1 = at(k + offsets[1]), u2 = at(k + offsets[2]), u3 = at(k + offsets[3]);
+      const double* w0 = w + st * 4 * n;
+      const double* w1 = w0 + n;
+      const double* w2 = w1 + n;
+      const double* w3 = w2 + n;
+      for (int r = 0; r < n; ++r) {
+        double acc = w0[r] * u0 + w1[r] * u1 + w2[r] * u2 + w3[r] * u3;
+        const double* row = phi + r * n;
+        for (int j = 0; j < n; ++j) acc += row[j] * xs[j];
+        ns[r] = acc;
+      }
+    } else {
+      const double u0 = u[static_cast<size_t>(k)];
+      const double* w1 = w + n;  // node 0 of the centred stencil
+      for (int r = 0; r < n; ++r) {
+        double acc = w1[r] * u0;
+        const double* row = phi + r * n;
+        for (int j = 0; j < n; ++j) acc += row[j] * xs[j];
+        ns[r] = acc;
+      }
     }
-    x.swap(next);
+    std::swap(xs, ns);
+  }
+}
+
+}  // namespace
+
+std::vector<double> HoldSimulator::run(const std::vector<double>& u) const {
+  std::vector<double> y(u.size());
+  if (u.empty()) return y;
+  const bool cubic = hold_ == Hold::cubic;
+  const double *phi = phi_.data(), *w = w_.data(), *c = c_.data();
+  switch (n_) {
+    case 0: hold_loop<0>(0, cubic, period_, d_, phi, w, c, u, y); break;
+    case 1: hold_loop<1>(1, cubic, period_, d_, phi, w, c, u, y); break;
+    case 2: hold_loop<2>(2, cubic, period_, d_, phi, w, c, u, y); break;
+    case 3: hold_loop<3>(3, cubic, period_, d_, phi, w, c, u, y); break;
+    case 4: hold_loop<4>(4, cubic, period_, d_, phi, w, c, u, y); break;
+    case 5: hold_loop<5>(5, cubic, period_, d_, phi, w, c, u, y); break;
+    case 6: hold_loop<6>(6, cubic, period_, d_, phi, w, c, u, y); break;
+    default: hold_loop<0>(n_, cubic, period_, d_, phi, w, c, u, y); break;
+  }
+  return y;
+}
+
+std::vector<double> cubic_resample(const std::vector<double>& v, int factor, int period) {
+  if (factor < 1) throw std::invalid_argument("cubic_resample: factor must be at least 1");
+  if (factor == 1 || v.empty()) return v;
+  const long count = static_cast<long>(v.size()), last = count - 1;
+  // Lagrange basis values at t = j/factor of each stencil, once.
+  std::vector<double> basis(static_cast<size_t>(3 * factor * 4));
+  for (int st = 0; st < 3; ++st)
+    for (int j = 0; j < factor; ++j) {
+      const double t = static_cast<double>(j) / factor;
+      const auto& nodes = kStencils[static_cast<size_t>(st)];
+      for (int m = 0; m < 4; ++m) {
+        double l = 1.0;
+        for (int q = 0; q < 4; ++q)
+          if (q != m) l *= (t - nodes[static_cast<size_t>(q)]) / (nodes[static_cast<size_t>(m)] - nodes[static_cast<size_t>(q)]);
+        basis[static_cast<size_t>((st * factor + j) * 4 + m)] = l;
+      }
+    }
+  std::vector<double> y(v.size() * static_cast<size_t>(factor));
+  auto at = [&](long i) { return v[static_cast<size_t>(std::clamp<long>(i, 0, last))]; };
+  for (long k = 0; k < count; ++k) {
+    const int st = stencil_for(static_cast<size_t>(k), period);
+    const auto& offsets = kStencils[static_cast<size_t>(st)];
+    const double u0 = at(k + offsets[0]), u1 = at(k + offsets[1]), u2 = at(k + offsets[2]), u3 = at(k + offsets[3]);
+    for (int j = 0; j < factor; ++j) {
+      const double* b = basis.data() + (st * factor + j) * 4;
+      y[static_cast<size_t>(k * factor + j)] = b[0] * u0 + b[1] * u1 + b[2] * u2 + b[3] * u3;
+    }
   }
   return y;
 }

@@ -43,18 +43,26 @@ class SteppedSimulator {
   Eigen::VectorXd gamma_;
 };
 
-// Exact response to an input that between samples k and k+1 is the cubic through the samples
-// k-1, k, k+1, k+2 (a smooth waveform known at t = k*dt, such as a pair's output current
-// computed from the previous stage's sampled output; models/large_signal.hpp). The cubic hold
-// generalises the held-input discretisation: the matrix exponential of the augmented matrix
-// [[A h, B h, 0, 0, 0], [0, 0, 1, 0, 0], [0, 0, 0, 1, 0], [0, 0, 0, 0, 1], [0, 0, 0, 0, 0]]
-// (h = dt in model time) gives the exact responses G_j to the inputs tau^j/j! over one step,
-// and the four-point Lagrange cubic weights them. It reproduces every polynomial input of
-// degree <= 3 exactly, so its error for a smooth input is O(dt^4). Ends: the first and last
-// samples are repeated outward.
-class CubicHoldSimulator {
+// Exact responses to sampled inputs u[k] (at t = k*dt) under two holds:
+//   held   u[k] held over [k*dt, (k+1)*dt): the discretisation of SteppedSimulator;
+//   cubic  between samples k and k+1 the cubic through the samples k-1, k, k+1, k+2, for a
+//          smooth waveform known only at the samples (a pair's output current computed from
+//          the previous stage's sampled output; models/large_signal.hpp).
+// The matrix exponential of the augmented matrix [[A h, B h, 0, 0, 0], [0, 0, 1, 0, 0],
+// [0, 0, 0, 1, 0], [0, 0, 0, 0, 1], [0, 0, 0, 0, 0]] (h = dt in model time) gives the exact
+// responses G_j over one step to the inputs tau^j/j!, tau in [0, 1]; the held input uses G_0,
+// the cubic weights G_0..G_3 by the four-point Lagrange cubic's derivatives at tau = 0. The
+// cubic hold reproduces every polynomial input of degree <= 3 exactly, so its error for a
+// smooth input is O(dt^4). With breaks every `period` samples (the symbol boundaries of a
+// waveform driven by held symbols, where its derivatives jump), the intervals that start or end
+// at a break use the one-sided cubics through k..k+3 and k-2..k+1, so no cubic straddles a
+// break. Ends: the first and last samples are repeated outward. The loop is
+// written out for the small orders of a stage (a few states), where it is several times faster
+// than general matrix-vector products.
+class HoldSimulator {
  public:
-  CubicHoldSimulator(const StateSpace& model, double dt);
+  enum class Hold { held, cubic };
+  HoldSimulator(const StateSpace& model, double dt, Hold hold, int period = 0);
   double dt() const { return dt_; }
   int order() const { return n_; }
   // y[k] = output at t = k*dt; starts at rest.
@@ -62,11 +70,17 @@ class CubicHoldSimulator {
 
  private:
   int n_ = 0;
+  Hold hold_ = Hold::cubic;
+  int period_ = 0;
   double dt_ = 0.0, d_ = 0.0;
   std::vector<double> phi_;  // n x n, row major
-  std::vector<double> w_;    // 4 x n: weights of u[k-1], u[k], u[k+1], u[k+2]
+  std::vector<double> w_;    // 3 stencils x 4 nodes x n
   std::vector<double> c_;
 };
+
+// A smooth sampled waveform at `factor` times the rate: the four-point Lagrange cubic between
+// samples, one-sided at breaks every `period` samples as in HoldSimulator (0: no breaks).
+std::vector<double> cubic_resample(const std::vector<double>& v, int factor, int period = 0);
 
 struct StepResponse {
   double dt = 0.0;

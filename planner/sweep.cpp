@@ -11,6 +11,7 @@
 #include "planner/overrides.hpp"
 #include "planner/stage_value.hpp"
 #include "planner/toml_text.hpp"
+#include "planner/variation_analysis.hpp"
 #include "planner/what_if.hpp"
 
 namespace peakplan {
@@ -181,6 +182,39 @@ ChosenValue chosen_value(const ChainSpec& spec, const Plan& plan, const OpenValu
   return {kNaN, {}};
 }
 
+// The point's corners and Monte Carlo run exactly as `analyze` runs them (same samples, seed
+// and threads), reduced to each row metric's worst corner and the overall yield.
+SweepRow::Variation variation_of(const ChainSpec& spec, const Chain& chain) {
+  VariationRunOptions run;
+  run.threads = default_thread_count();
+  const auto result = analyze_variation(spec, chain, run);
+  SweepRow::Variation v;
+  v.corners = static_cast<int>(result.corners.size());
+  auto worst = [&](std::string_view key) {
+    for (const auto* m : result.metrics) {
+      if (m->key != key) continue;
+      double w = m->get(result.corners.front().metrics);
+      for (const auto& c : result.corners) {
+        const double x = m->get(c.metrics);
+        if (m->higher_is_worse ? x > w : x < w) w = x;
+      }
+      return std::optional(w);
+    }
+    return std::optional<double>();
+  };
+  v.gain_db = worst("dc_gain_db").value_or(kNaN);
+  v.bandwidth_hz = worst("bandwidth_hz").value_or(kNaN);
+  v.overshoot_pct = worst("overshoot_pct").value_or(kNaN);
+  v.group_delay_ripple_s = worst("group_delay_ripple_s").value_or(kNaN);
+  v.eye_height = worst("prbs_height");
+  if (const auto& mc = result.monte_carlo) {
+    v.overall_yield = mc->overall_yield;
+    v.yield_lo = mc->ci95.lo;
+    v.yield_hi = mc->ci95.hi;
+  }
+  return v;
+}
+
 void fill_metrics(SweepRow& row, const Chain& chain, const ChainSpec& spec) {
   auto options = analysis_options(spec);
   options.keep_waveforms = false;
@@ -195,6 +229,7 @@ void fill_metrics(SweepRow& row, const Chain& chain, const ChainSpec& spec) {
   if (main.eye) row.eye_height = main.eye->estimate.prbs.eye.height;
   if (const auto& ls = main.large_signal)
     row.large_signal = SweepRow::LargeSignal{ls->height_v, ls->width_ui, ls->ddj_pp_s, ls->delay_shift_s};
+  if (spec.variation) row.variation = variation_of(spec, chain);
 }
 
 }  // namespace
@@ -274,6 +309,7 @@ std::optional<SweepResult> run_sweep(const SweepRequest& request, Diagnostics& d
       fill_metrics(row, *chain, *spec);
     }
     result.has_large_signal = result.has_large_signal || row.large_signal.has_value();
+    result.has_variation = result.has_variation || row.variation.has_value();
     result.rows.push_back(std::move(row));
   }
   return result;

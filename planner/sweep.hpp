@@ -62,6 +62,17 @@ struct SweepRow {
     double height_v = 0.0, width_ui = 0.0, ddj_pp_s = 0.0, delay_shift_s = 0.0;
   };
   std::optional<LargeSignal> large_signal;
+  // With [variation] (DESIGN.md section 6): each metric above at its worst corner (the lowest
+  // gain, bandwidth and eye height, the highest overshoot and ripple) and the Monte Carlo yield of
+  // every target and limit together, as `analyze` of the point reports them.
+  struct Variation {
+    double gain_db = 0.0, bandwidth_hz = 0.0, overshoot_pct = 0.0, group_delay_ripple_s = 0.0;
+    std::optional<double> eye_height;
+    int corners = 0;
+    double overall_yield = 1.0;
+    double yield_lo = 0.0, yield_hi = 1.0;  // Wilson 95 % interval
+  };
+  std::optional<Variation> variation;
   std::optional<Plan::Termination> status;  // with replanning
   std::vector<ChosenValue> chosen;          // with replanning, one per SweepResult::open
 };
@@ -76,6 +87,7 @@ struct SweepResult {
   std::optional<Plan::Termination> held_plan;
   bool has_signal = false;
   bool has_large_signal = false;  // some row has large_signal
+  bool has_variation = false;     // the file has [variation]: every row has variation
   bool log = false;
   std::vector<OpenValue> open;
   std::vector<SweepRow> rows;

@@ -154,6 +154,29 @@ nlohmann::json stage_side_json(const CompareSide& side, size_t index) {
   return j;
 }
 
+// A side's metrics at their worst corner, named by the variation run (VariationResult::worst;
+// nominal where every corner gives the same value), with the corner's name.
+struct WorstValue {
+  double value = kNaN;
+  std::string corner;
+};
+std::optional<WorstValue> worst_value(const CompareSide& side, std::string_view key) {
+  if (!side.variation || side.variation->corners.empty()) return std::nullopt;
+  const auto& r = *side.variation;
+  for (size_t i = 0; i < r.metrics.size() && i < r.worst.size(); ++i) {
+    if (r.metrics[i]->key != key) continue;
+    const std::string& name = r.worst[i].second;
+    for (const auto& c : r.corners)
+      if (name.empty() ? &c == &r.corners.front() : c.corner.name == name)
+        return WorstValue{r.metrics[i]->get(c.metrics), name.empty() ? c.corner.name : name};
+  }
+  return std::nullopt;
+}
+double yield_of(const CompareSide& side) {
+  return side.variation && side.variation->monte_carlo ? side.variation->monte_carlo->overall_yield : kNaN;
+}
+bool any_variation(const CompareSide& a, const CompareSide& b) { return a.variation || b.variation; }
+
 std::string how(const CompareSide& side) {
   if (!side.planned) return "as written";
   return *side.planned == Plan::Termination::met ? "planned first: every target and limit met"
@@ -195,6 +218,20 @@ nlohmann::json compare_json(const CompareSide& a, const CompareSide& b, const st
     doc["metrics"][q.key] = {{"a", number(va)}, {"b", number(vb)}, {"delta", number(delta(va, vb))},
                              {"relative_pct", number(relative_pct(q, va, vb))}};
   }
+  if (any_variation(a, b)) {
+    nlohmann::json worst = nlohmann::json::object();
+    for (const auto& q : kMetrics) {
+      const auto wa = worst_value(a, q.key), wb = worst_value(b, q.key);
+      if (!wa && !wb) continue;
+      const double va = wa ? wa->value : kNaN, vb = wb ? wb->value : kNaN;
+      worst[q.key] = {{"a", number(va)}, {"b", number(vb)}, {"delta", number(delta(va, vb))},
+                      {"a_corner", wa ? nlohmann::json(wa->corner) : nlohmann::json(nullptr)},
+                      {"b_corner", wb ? nlohmann::json(wb->corner) : nlohmann::json(nullptr)}};
+    }
+    const double ya = yield_of(a), yb = yield_of(b);
+    doc["variation"] = {{"worst", std::move(worst)},
+                        {"overall_yield", {{"a", number(ya)}, {"b", number(yb)}, {"delta", number(delta(ya, yb))}}}};
+  }
   doc["stages"] = nlohmann::json::array();
   for (const auto& m : match_stages(a.chain, b.chain)) {
     nlohmann::json j{{"id", m.id}, {"in", m.a && m.b ? "both" : m.a ? "a_only" : "b_only"}};
@@ -233,6 +270,21 @@ std::string compare_text(const CompareSide& a, const CompareSide& b, const std::
     const double r = relative_pct(q, va, vb);
     out += fmt::format("  {:<18} {:>12} {:>12} {:>12} {:>9}\n", q.label, shown(va, q.unit), shown(vb, q.unit),
                        signed_shown(delta(va, vb), q.unit), change_text(r));
+  }
+  if (any_variation(a, b)) {
+    out += "\nat the worst corner ([variation]; \"-\" for a file without one) and the Monte Carlo yield\n";
+    out += fmt::format("  {:<18} {:>12} {:>12} {:>12}  {}\n", "metric", "A", "B", "B - A", "worst corner (A / B)");
+    for (const auto& q : kMetrics) {
+      const auto wa = worst_value(a, q.key), wb = worst_value(b, q.key);
+      if (!wa && !wb) continue;
+      const double va = wa ? wa->value : kNaN, vb = wb ? wb->value : kNaN;
+      out += fmt::format("  {:<18} {:>12} {:>12} {:>12}  {} / {}\n", q.label, shown(va, q.unit), shown(vb, q.unit),
+                         signed_shown(delta(va, vb), q.unit), wa ? wa->corner : "-", wb ? wb->corner : "-");
+    }
+    const double ya = yield_of(a), yb = yield_of(b);
+    auto pct = [](double y) { return std::isfinite(y) ? fmt::format("{:.2f} %", 100.0 * y) : std::string("-"); };
+    out += fmt::format("  {:<18} {:>12} {:>12} {:>12}\n", "yield (every check)", pct(ya), pct(yb),
+                       std::isfinite(ya) && std::isfinite(yb) ? fmt::format("{:+.2f} %", 100.0 * (yb - ya)) : "-");
   }
   out += "\nstages (matched by id)\n" + row("id", "value", "A", "B", "B - A", "change");
   for (const auto& m : match_stages(a.chain, b.chain)) {

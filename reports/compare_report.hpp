@@ -12,6 +12,7 @@
 #include "models/chain.hpp"
 #include "planner/chain_settings.hpp"
 #include "planner/planner.hpp"
+#include "planner/variation_analysis.hpp"
 
 namespace peakplan {
 
@@ -21,6 +22,8 @@ struct CompareSide {
   const ChainAnalysis& analysis;
   // Set when the file left values open and was planned first: that plan's status.
   std::optional<Plan::Termination> planned;
+  // Set when the file has [variation]: its corners and Monte Carlo run (as analyze runs them).
+  const VariationResult* variation = nullptr;
 };
 
 // {"a": {file, chain, planned, status}, "b": ..., "main_output": {"a": node, "b": node},
@@ -29,8 +32,10 @@ struct CompareSide {
 //  "stages": [{"id", "in": "both" | "a_only" | "b_only", "a": {...} | null, "b": ...,
 //  "delta": {KEY: {"delta", "relative_pct"}}}],
 //  "settings": [{"key", "a", "b"}] (every setting the files differ in, TOML text as written,
-//  null where a file leaves the key out), "signals_differ": bool}. Values SI; null where a
-//  value does not exist.
+//  null where a file leaves the key out), "signals_differ": bool, and when either file has
+//  [variation] "variation": {"worst": {KEY: {"a", "b", "delta", "a_corner", "b_corner"}},
+//  "overall_yield": {"a", "b", "delta"}} (a side without [variation]: null)}. Values SI; null
+//  where a value does not exist.
 nlohmann::json compare_json(const CompareSide& a, const CompareSide& b, const std::vector<SettingDifference>& settings);
 std::string compare_text(const CompareSide& a, const CompareSide& b, const std::vector<SettingDifference>& settings);
 

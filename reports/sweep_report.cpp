@@ -41,6 +41,10 @@ std::string heading(const SweepResult& s) {
   if (s.has_large_signal)
     out += "clipped: the large-signal eye of the main output, differential volts; the swing is the differential "
            "peak-to-peak input\n";
+  if (s.has_variation)
+    out += fmt::format("with [variation]: each metric also at its worst of the {} corners, and the Monte Carlo yield of "
+                       "every target and limit together (as analyze reports them)\n",
+                       s.rows.empty() || !s.rows.front().variation ? 0 : s.rows.front().variation->corners);
   if (s.replan)
     out += "each point re-planned with the varied value fixed\n";
   else if (s.held_plan)
@@ -64,6 +68,11 @@ std::string sweep_text(const SweepResult& s) {
   if (s.has_signal) head += fmt::format(" {:>7}", "eye h");
   if (s.has_large_signal)
     head += fmt::format(" {:>10} {:>9} {:>9} {:>11}", "clipped h", "width", "DDJ pp", "delay shift");
+  if (s.has_variation) {
+    head += fmt::format("  {:>10} {:>10} {:>10} {:>10}", "worst gain", "worst bw", "worst os", "worst rip");
+    if (s.has_signal) head += fmt::format(" {:>9}", "worst eye");
+    head += fmt::format(" {:>8}", "yield");
+  }
   if (s.replan) {
     head += fmt::format("  {:<8}", "status");
     for (size_t i = 0; i < s.open.size(); ++i) head += fmt::format(" {:>{}}", name_of(s.open[i].stage, s.open[i].key), widths[i]);
@@ -81,6 +90,12 @@ std::string sweep_text(const SweepResult& s) {
       else
         line += fmt::format(" {:>10} {:>9} {:>9} {:>11}", "-", "-", "-", "-");
     }
+    if (const auto& v = r.variation) {
+      line += fmt::format("  {:>10} {:>10} {:>10} {:>10}", fixed(v->gain_db, "{:.2f} dB"), shown(v->bandwidth_hz, "Hz"),
+                          fixed(v->overshoot_pct, "{:.2f} %"), shown(v->group_delay_ripple_s, "s"));
+      if (s.has_signal) line += fmt::format(" {:>9}", v->eye_height ? fixed(*v->eye_height, "{:.3f}") : "-");
+      line += fmt::format(" {:>8}", fixed(100.0 * v->overall_yield, "{:.2f} %"));
+    }
     if (s.replan) {
       line += fmt::format("  {:<8}", r.status ? status_name(*r.status) : "-");
       for (size_t i = 0; i < s.open.size(); ++i)
@@ -95,6 +110,11 @@ std::string sweep_csv(const SweepResult& s) {
   std::string out = name_of(s.target, s.key) + ",dc_gain_db,bandwidth_hz,peaking_db,overshoot_pct,group_delay_ripple_s";
   if (s.has_signal) out += ",prbs_height";
   if (s.has_large_signal) out += ",large_signal_height_v,large_signal_width_ui,large_signal_ddj_pp_s,delay_shift_s";
+  if (s.has_variation) {
+    out += ",worst_dc_gain_db,worst_bandwidth_hz,worst_overshoot_pct,worst_group_delay_ripple_s";
+    if (s.has_signal) out += ",worst_prbs_height";
+    out += ",overall_yield,yield_ci95_lo,yield_ci95_hi";
+  }
   if (s.replan) {
     out += ",status";
     for (const auto& o : s.open) out += "," + name_of(o.stage, o.key);
@@ -110,6 +130,12 @@ std::string sweep_csv(const SweepResult& s) {
                            csv_number(ls->delay_shift_s));
       else
         out += ",,,,";
+    }
+    if (const auto& v = r.variation) {
+      out += fmt::format(",{},{},{},{}", csv_number(v->gain_db), csv_number(v->bandwidth_hz), csv_number(v->overshoot_pct),
+                         csv_number(v->group_delay_ripple_s));
+      if (s.has_signal) out += "," + (v->eye_height ? csv_number(*v->eye_height) : std::string());
+      out += fmt::format(",{},{},{}", csv_number(v->overall_yield), csv_number(v->yield_lo), csv_number(v->yield_hi));
     }
     if (s.replan) {
       out += "," + (r.status ? status_name(*r.status) : std::string());
@@ -143,6 +169,17 @@ nlohmann::json sweep_json(const SweepResult& s) {
                              {"width_ui", number(ls->width_ui)},
                              {"ddj_pp_s", number(ls->ddj_pp_s)},
                              {"delay_shift_s", number(ls->delay_shift_s)}};
+    if (const auto& v = r.variation) {
+      nlohmann::json worst{{"dc_gain_db", number(v->gain_db)},
+                           {"bandwidth_hz", number(v->bandwidth_hz)},
+                           {"overshoot_pct", number(v->overshoot_pct)},
+                           {"group_delay_ripple_s", number(v->group_delay_ripple_s)}};
+      if (v->eye_height) worst["prbs_height"] = number(*v->eye_height);
+      row["variation"] = {{"corners", v->corners},
+                          {"worst", std::move(worst)},
+                          {"overall_yield", number(v->overall_yield)},
+                          {"yield_ci95", {number(v->yield_lo), number(v->yield_hi)}}};
+    }
     if (r.status) row["status"] = status_name(*r.status);
     if (s.replan) {
       row["chosen"] = nlohmann::json::object();

@@ -11,7 +11,9 @@ namespace peakplan {
 
 std::string sweep_text(const SweepResult& sweep);
 // Columns: the varied key (named ID.KEY), dc_gain_db, bandwidth_hz, peaking_db, overshoot_pct,
-// group_delay_ripple_s, prbs_height (with [signal]), then with replanning status and one
+// group_delay_ripple_s, prbs_height (with [signal]), the large-signal columns (with a limited
+// stage), with [variation] worst_<metric> for each of those (worst corner), overall_yield and
+// yield_ci95_lo/hi, then with replanning status and one
 // column per open value (ID.KEY). A metric that does not exist is an empty field.
 std::string sweep_csv(const SweepResult& sweep);
 nlohmann::json sweep_json(const SweepResult& sweep);

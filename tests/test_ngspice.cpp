@@ -464,7 +464,7 @@ LargeSignalComparison compare_large_signal(const Chain& chain, const Signal& sig
     for (size_t k = 0; k < y.size(); ++k) y[k] = interpolate(time, v, static_cast<double>(k) * dt);
     return y;
   };
-  r.spice = large_signal_eye_at(chain, out, signal, r.model.steps_per_ui, run);
+  r.spice = large_signal_eye_at(chain, out, signal, r.model.grid_steps_per_ui, run);
   fs::remove_all(dir);
   MESSAGE("large signal: height model " << r.model.height_v << " V, ngspice " << r.spice.height_v
                                         << " V; DDJ model " << r.model.ddj_pp_s << " s, ngspice " << r.spice.ddj_pp_s

@@ -486,3 +486,71 @@ TEST_CASE("variation: plan_for = \"corners\" without a [variation] table is bad 
   const auto line = 1 + std::count(text.begin(), text.begin() + static_cast<long>(text.find("plan_for")), '\n');
   CHECK(run.err.rfind(path + ":" + std::to_string(line) + ":12: error: [target] plan_for = \"corners\" needs a [variation]", 0) == 0);
 }
+
+TEST_CASE("variation: sweep shows each point's worst corner and yield exactly as analyze --set of that point") {
+  // common practice: a sweep row is the analysis of the chain with the point applied, so its
+  // worst-corner values are the extreme of analyze's corners and its yield is analyze's overall
+  // yield (same samples and seed: the samples depend only on the seed and their index).
+  TempDir dir;
+  const auto path = dir.write("two.toml", kTwoStages);
+  const auto sweep = run_cli({"sweep", path, "--vary", "a2.rd=50ohm:70ohm:2", "--format", "json"});
+  REQUIRE(sweep.status == 0);
+  const auto rows = nlohmann::json::parse(sweep.out)["rows"];
+  REQUIRE(rows.size() == 2);
+  const char* points[] = {"50ohm", "70ohm"};
+  for (size_t i = 0; i < 2; ++i) {
+    CAPTURE(i);
+    const auto run = run_cli({"analyze", path, "--json", "--set", std::string("a2.rd=") + points[i]});
+    REQUIRE(run.status == 0);
+    const auto variation = nlohmann::json::parse(run.out)["variation"];
+    const auto& v = rows[i]["variation"];
+    CHECK(v["corners"] == variation["corners"].size());
+    CHECK(v["overall_yield"].get<double>() == variation["monte_carlo"]["overall_yield"].get<double>());
+    for (const auto* key : {"dc_gain_db", "bandwidth_hz", "overshoot_pct", "group_delay_ripple_s", "prbs_height"}) {
+      CAPTURE(key);
+      const bool higher_is_worse = std::string(key) == "overshoot_pct" || std::string(key) == "group_delay_ripple_s";
+      double worst = variation["corners"][0]["metrics"][key].get<double>();
+      for (const auto& c : variation["corners"]) {
+        const double x = c["metrics"][key].get<double>();
+        worst = higher_is_worse ? std::max(worst, x) : std::min(worst, x);
+      }
+      CHECK(v["worst"][key].get<double>() == doctest::Approx(worst).scale(0.0).epsilon(1e-12));
+    }
+  }
+  // The text table carries the same columns beside the nominal ones.
+  const auto text = run_cli({"sweep", path, "--vary", "a2.rd=50ohm:70ohm:2"});
+  REQUIRE(text.status == 0);
+  CHECK(text.out.find("worst gain") != std::string::npos);
+  CHECK(text.out.find("yield") != std::string::npos);
+}
+
+TEST_CASE("variation: compare shows each file's worst corner and yield as analyze reports them") {
+  // common practice: compare reads each side's own analysis, so its worst-corner values are the
+  // values at the corners analyze --json names in `worst`, and its yield is analyze's.
+  TempDir dir;
+  const auto a = dir.write("a.toml", kTwoStages);
+  auto text = std::string(kTwoStages);
+  text.replace(text.find("rd = \"60 ohm\""), 13, "rd = \"70 ohm\"");
+  const auto b = dir.write("b.toml", text);
+  const auto run = run_cli({"compare", a, b, "--json"});
+  REQUIRE(run.status == 0);
+  const auto v = nlohmann::json::parse(run.out)["variation"];
+  for (const auto& [side, path] : {std::pair{"a", a}, std::pair{"b", b}}) {
+    CAPTURE(side);
+    const auto analyzed = run_cli({"analyze", path, "--json"});
+    REQUIRE(analyzed.status == 0);
+    const auto variation = nlohmann::json::parse(analyzed.out)["variation"];
+    CHECK(v["overall_yield"][side].get<double>() == variation["monte_carlo"]["overall_yield"].get<double>());
+    for (const auto* key : {"dc_gain_db", "bandwidth_hz", "overshoot_pct"}) {
+      CAPTURE(key);
+      const auto corner = variation["worst"][key].get<std::string>();
+      CHECK(v["worst"][key][std::string(side) + "_corner"] == corner);
+      for (const auto& c : variation["corners"])
+        if (c["name"] == corner) CHECK(v["worst"][key][side].get<double>() == c["metrics"][key].get<double>());
+    }
+  }
+  const auto shown = run_cli({"compare", a, b});
+  REQUIRE(shown.status == 0);
+  CHECK(shown.out.find("at the worst corner") != std::string::npos);
+  CHECK(shown.out.find("yield (every check)") != std::string::npos);
+}

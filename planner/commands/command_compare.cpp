@@ -8,6 +8,7 @@
 #include "planner/chain_input.hpp"
 #include "planner/chain_settings.hpp"
 #include "planner/planner.hpp"
+#include "planner/variation_analysis.hpp"
 #include "planner/what_if.hpp"
 #include "reports/compare_report.hpp"
 
@@ -26,6 +27,7 @@ struct Loaded {
   Chain chain;
   std::optional<Plan::Termination> planned;
   ChainAnalysis analysis;
+  std::optional<VariationResult> variation;  // with [variation], as analyze runs it
 };
 
 std::optional<Loaded> load_side(const std::string& path, Diagnostics& diagnostics) {
@@ -33,7 +35,7 @@ std::optional<Loaded> load_side(const std::string& path, Diagnostics& diagnostic
   if (!text) return std::nullopt;
   auto spec = parse_chain_spec(*text, diagnostics);
   if (!spec) return std::nullopt;
-  Loaded side{std::move(*text), *spec, {}, std::nullopt, {}};
+  Loaded side{std::move(*text), *spec, {}, std::nullopt, {}, std::nullopt};
   if (std::any_of(spec->stages.begin(), spec->stages.end(), has_open_values)) {
     auto plan = plan_chain(*spec, diagnostics, stopping_plan_options());
     if (!plan) return std::nullopt;
@@ -45,6 +47,11 @@ std::optional<Loaded> load_side(const std::string& path, Diagnostics& diagnostic
     side.chain = std::move(*chain);
   }
   side.analysis = analyze_chain(side.chain, analysis_options(side.spec));
+  if (side.spec.variation) {
+    VariationRunOptions run;
+    run.threads = default_thread_count();
+    side.variation = analyze_variation(side.spec, side.chain, run);
+  }
   return side;
 }
 
@@ -56,8 +63,8 @@ int run_compare(const CompareArgs& args) {
     std::cerr << diagnostics_a.format() << diagnostics_b.format();
     return bad_input;
   }
-  const CompareSide side_a{args.a, a->chain, a->analysis, a->planned};
-  const CompareSide side_b{args.b, b->chain, b->analysis, b->planned};
+  const CompareSide side_a{args.a, a->chain, a->analysis, a->planned, a->variation ? &*a->variation : nullptr};
+  const CompareSide side_b{args.b, b->chain, b->analysis, b->planned, b->variation ? &*b->variation : nullptr};
   const auto settings = setting_differences(a->text, b->text);
   print(args.json ? compare_json(side_a, side_b, settings).dump(2) + "\n" : compare_text(side_a, side_b, settings));
   // Like plan: a side that had to be planned and misses its target makes the comparison exit 1.
