@@ -25,7 +25,7 @@ const Keys kChainKeys{"name"};
 const Keys kInputKeys{"r_source", "noise_density"};
 const Keys kSignalKeys{"bit_rate", "modulation", "pattern", "input_rise", "swing", "target_ber", "receiver_bandwidth"};
 const Keys kTargetKeys{"gain", "bandwidth", "gain_bandwidth", "objective", "plan_for"};
-const Keys kLimitsKeys{"overshoot", "peaking", "group_delay_ripple", "ripple_band"};
+const Keys kLimitsKeys{"overshoot", "peaking", "group_delay_ripple", "ripple_band", "sag", "min_stage_gain"};
 const Keys kTechnologyKeys{"ft", "c_out_ratio", "inductor_q", "max_inductance", "k_range",
                            "min_cb", "max_gm", "gm_over_id", "current_budget", "gamma",
                            "temperature"};
@@ -290,6 +290,15 @@ void read_limits(Reader& reader, const toml::table& root, ChainSpec& spec) {
     spec.limits.group_delay_ripple = reader.bounded(*n, Dimension::time, "[limits] group_delay_ripple", false);
   if (const auto* n = t->get("ripple_band"))
     spec.limits.ripple_band = reader.bounded(*n, Dimension::frequency, "[limits] ripple_band", true);
+  if (const auto* n = t->get("sag")) {
+    spec.limits.sag_db = reader.quantity(*n, Dimension::decibels, "[limits] sag");
+    if (spec.limits.sag_db && *spec.limits.sag_db < 0.0) {
+      reader.error(*n, "[limits] sag is a depth: zero or positive, saw " + shown(*n));
+      spec.limits.sag_db.reset();
+    }
+  }
+  if (const auto* n = t->get("min_stage_gain"))
+    spec.limits.min_stage_gain_db = reader.quantity(*n, Dimension::decibels, "[limits] min_stage_gain");
 }
 
 void read_technology(Reader& reader, const toml::table& root, ChainSpec& spec) {

@@ -68,6 +68,14 @@ struct LimitsSpec {
   std::optional<double> peaking_db;
   std::optional<double> group_delay_ripple;  // s
   std::optional<double> ripple_band;         // Hz
+  // The deepest in-band dip allowed, dB (a positive depth). Unset: plans use kDefaultSagDb and
+  // analyses check none. 3 dB or more allows any shape the first-crossing bandwidth allows.
+  std::optional<double> sag_db;
+  static constexpr double kDefaultSagDb = 1.0;
+  // The least DC gain any planned stage may have, dB (negative allows a loss). Unset: plans use
+  // kDefaultMinStageGainDb (no planned loss), analyses check none.
+  std::optional<double> min_stage_gain_db;
+  static constexpr double kDefaultMinStageGainDb = 0.0;
 };
 
 struct SignalSpec {

@@ -42,12 +42,14 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
     if (t.plan_for != "nominal") out += "plan_for = " + toml_basic_string(t.plan_for) + "\n";
   }
   const auto& l = spec.limits;
-  if (l.overshoot || l.peaking_db || l.group_delay_ripple || l.ripple_band) {
+  if (l.overshoot || l.peaking_db || l.group_delay_ripple || l.ripple_band || l.sag_db || l.min_stage_gain_db) {
     out += "\n[limits]\n";
     if (l.overshoot) out += "overshoot = " + toml_percent(*l.overshoot) + "\n";
     if (l.peaking_db) out += "peaking = " + toml_decibels(*l.peaking_db) + "\n";
     if (l.group_delay_ripple) out += number_line("group_delay_ripple", *l.group_delay_ripple, "s");
     if (l.ripple_band) out += number_line("ripple_band", *l.ripple_band, "Hz");
+    if (l.sag_db) out += "sag = " + toml_decibels(*l.sag_db) + "\n";
+    if (l.min_stage_gain_db) out += "min_stage_gain = " + toml_decibels(*l.min_stage_gain_db) + "\n";
   }
   const auto& tech = spec.technology;
   out += "\n[technology]\n";

@@ -199,6 +199,7 @@ Evaluation Problem::evaluate(const std::vector<double>& u, Fidelity fidelity) co
     w.f.group_delay_ripple_s = std::max(w.f.group_delay_ripple_s, e.f.group_delay_ripple_s);
     w.f.sag_db = std::min(w.f.sag_db, e.f.sag_db);
     w.t.overshoot_pct = std::max(w.t.overshoot_pct, e.t.overshoot_pct);
+    w.min_stage_gain_db = std::min(w.min_stage_gain_db, e.min_stage_gain_db);
   }
   return w;
 }
@@ -227,6 +228,12 @@ Evaluation Problem::measure(const Chain& chain, Fidelity fidelity) const {
     e.t = step_metrics(step_response(cascade, axis));
   }
   for (const auto& s : chain.stages) e.total_gm += s.circuit.gm;
+  // The stages are the cascade's last blocks (a source pole, if any, comes first).
+  const auto& blocks = cascade.blocks();
+  const size_t stages = chain.path_to(chain.outputs().back()).size();
+  e.min_stage_gain_db = std::numeric_limits<double>::infinity();
+  for (size_t k = blocks.size() - stages; k < blocks.size(); ++k)
+    e.min_stage_gain_db = std::min(e.min_stage_gain_db, to_db(std::fabs(blocks[k].dc_value())));
   return e;
 }
 

@@ -48,6 +48,7 @@ struct Evaluation {
   FrequencyMetrics f;
   StepMetrics t;
   double total_gm = 0.0;  // S, every stage copy counted
+  double min_stage_gain_db = 0.0;  // the smallest DC gain of a stage on the main path
 };
 
 class Problem {

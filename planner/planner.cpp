@@ -31,6 +31,9 @@ std::vector<double> violations(const ChainSpec& spec, const Evaluation& e) {
     const double limit = *spec.limits.group_delay_ripple;
     g.push_back((e.f.group_delay_ripple_s - limit * (1.0 - 2e-3)) / std::max(limit, 1e-12));
   }
+  // sag_db is the dip's level against DC (<= 0); its depth must stay within the limit.
+  if (spec.limits.sag_db && *spec.limits.sag_db < 3.0) g.push_back(-e.f.sag_db - (*spec.limits.sag_db - 1e-3));
+  if (spec.limits.min_stage_gain_db) g.push_back((*spec.limits.min_stage_gain_db + 1e-4 - e.min_stage_gain_db) / 3.0);
   const auto& tech = spec.technology;
   if (tech.current_budget && tech.gm_over_id)
     g.push_back(e.total_gm / (*tech.gm_over_id * *tech.current_budget) - 1.0);
@@ -284,13 +287,34 @@ std::vector<PlanCheck> check_targets(const ChainSpec& spec, const FrequencyMetri
   if (spec.limits.peaking_db) maximum("peaking", "dB", f.peaking_db, *spec.limits.peaking_db);
   if (spec.limits.group_delay_ripple)
     maximum("group_delay_ripple", "s", f.group_delay_ripple_s, *spec.limits.group_delay_ripple);
+  // A plan always has a sag limit (plan_chain gives it the default): a response that dips to
+  // -2.99 dB and recovers meets the first-crossing bandwidth but is no amplifier.
+  if (spec.limits.sag_db && *spec.limits.sag_db < 3.0) maximum("sag", "dB", -f.sag_db, *spec.limits.sag_db);
   const auto& tech = spec.technology;
   if (total_gm && tech.current_budget && tech.gm_over_id)
     maximum("current", "A", *total_gm / *tech.gm_over_id, *tech.current_budget);
   return checks;
 }
 
-std::optional<Plan> plan_chain(const ChainSpec& spec, Diagnostics& diagnostics, const PlanOptions& options) {
+namespace {
+
+// The checks of a plan: those of check_targets, and the least stage gain on the main path.
+std::vector<PlanCheck> plan_checks(const ChainSpec& spec, const Evaluation& e) {
+  auto checks = check_targets(spec, e.f, e.t, e.total_gm);
+  if (spec.limits.min_stage_gain_db) {
+    const double limit = *spec.limits.min_stage_gain_db, v = e.min_stage_gain_db;
+    checks.push_back({"min_stage_gain", "dB", v, limit, true, v - limit, v >= limit - 1e-4});
+  }
+  return checks;
+}
+
+}  // namespace
+
+std::optional<Plan> plan_chain(const ChainSpec& input, Diagnostics& diagnostics, const PlanOptions& options) {
+  // Every plan is held to a sag limit, the file's or the default; an analysis only to the file's.
+  ChainSpec spec = input;
+  if (!spec.limits.sag_db) spec.limits.sag_db = LimitsSpec::kDefaultSagDb;
+  if (!spec.limits.min_stage_gain_db) spec.limits.min_stage_gain_db = LimitsSpec::kDefaultMinStageGainDb;
   for (const auto& s : spec.stages) {
     const auto* gm = s.find("gm");
     if (gm && !gm->is_fixed()) {
@@ -358,11 +382,11 @@ std::optional<Plan> plan_chain(const ChainSpec& spec, Diagnostics& diagnostics, 
   auto final_checks = [&](const std::vector<double>& u) {
     const auto each = p.evaluate_corners(u, Fidelity::final);
     FinalChecks r;
-    r.nominal = check_targets(spec, each.front().f, each.front().t, each.front().total_gm);
+    r.nominal = plan_checks(spec, each.front());
     r.worst = r.nominal;
     r.corners.assign(r.worst.size(), "nominal");
     for (size_t c = 1; c < each.size(); ++c) {
-      const auto checks = check_targets(spec, each[c].f, each[c].t, each[c].total_gm);
+      const auto checks = plan_checks(spec, each[c]);
       for (size_t i = 0; i < checks.size(); ++i)
         if (checks[i].margin < r.worst[i].margin || (!checks[i].met && r.worst[i].met)) {
           r.worst[i] = checks[i];

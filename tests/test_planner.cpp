@@ -125,6 +125,52 @@ cb = "auto"
   const double textbook = bandwidth(tcoil_stage(1.0 / std::sqrt(2.0)));
   CHECK(main_metrics(plan.chain).bandwidth_hz >= 0.999 * textbook);
   for (const auto& c : plan.checks) CHECK(c.met);
+  // The file sets no sag: the plan is still held to the default 1 dB, and says so in its checks.
+  bool sag_checked = false;
+  for (const auto& c : plan.checks)
+    if (c.name == "sag") sag_checked = c.limit == 1.0 && c.unit == "dB";
+  CHECK(sag_checked);
+  CHECK(-main_metrics(plan.chain).sag_db <= 1.0 + 1e-4);
+}
+
+TEST_CASE("planner: [limits] sag holds the in-band dip; 3 dB lifts the check") {
+  // derived: a sag is a dip below DC that recovers before the -3 dB edge, so it is >= 0 dB deep
+  // and a 0.1 dB limit must leave a plan whose every dip is within 0.1 dB (to the 1e-4 dB the
+  // check resolves).
+  const std::string chain = R"(
+[target]
+objective = "widest"
+gain = "10 dB"
+[limits]
+SAG
+[[stage]]
+id = "a"
+kind = "shunt"
+gm = "40 mS"
+rd = "auto"
+l = "auto"
+c_load = "60 fF"
+[[stage]]
+id = "b"
+kind = "shunt"
+gm = "40 mS"
+rd = "auto"
+l = "auto"
+c_load = "60 fF"
+)";
+  auto with = [&](const std::string& sag) {
+    std::string text = chain;
+    text.replace(text.find("SAG"), 3, sag);
+    return plan_from(text);
+  };
+  const auto tight = with("sag = \"0.1 dB\"");
+  CHECK(-main_metrics(tight.chain).sag_db <= 0.1 + 1e-4);
+  bool tight_checked = false;
+  for (const auto& c : tight.checks)
+    if (c.name == "sag") tight_checked = c.limit == doctest::Approx(0.1) && c.met;
+  CHECK(tight_checked);
+  const auto lifted = with("sag = \"3 dB\"");
+  for (const auto& c : lifted.checks) CHECK(c.name != "sag");
 }
 
 TEST_CASE("planner: two shunt stages reach at least 99 % of a brute-force grid's best bandwidth") {
@@ -324,4 +370,44 @@ TEST_CASE("planner: progress is reported as the search runs, in order, up to the
   CHECK(seen.front().stage == "design space");
   CHECK(seen.back().stage != "design space");
   CHECK(seen.back().evaluations + 1 == plan->evaluations);
+}
+
+TEST_CASE("planner: no planned stage is a loss unless [limits] min_stage_gain allows it") {
+  // derived: for the widest bandwidth at 0 dB overall, the slow stage (200 fF) would rather lose
+  // gain and the fast one (10 fF) make it up, since a smaller Rd widens the slow pole; the 0 dB
+  // default floor forbids the loss, and a -40 dB floor allows it.
+  const std::string chain = R"(
+[target]
+objective = "widest"
+gain = "0 dB"
+[limits]
+FLOOR
+[[stage]]
+id = "a"
+kind = "plain"
+gm = "40 mS"
+rd = "auto"
+c_load = "200 fF"
+[[stage]]
+id = "b"
+kind = "plain"
+gm = "40 mS"
+rd = "auto"
+c_load = "10 fF"
+)";
+  auto with = [&](const std::string& floor) {
+    std::string text = chain;
+    text.replace(text.find("FLOOR"), 5, floor);
+    return plan_from(text);
+  };
+  const auto held = with("");
+  CHECK(held.termination == Plan::Termination::met);
+  for (const auto& s : held.chain.stages) CHECK(s.circuit.gm * s.circuit.rd >= 1.0 - 1e-4);
+  bool checked = false;
+  for (const auto& c : held.checks)
+    if (c.name == "min_stage_gain") checked = c.limit == 0.0 && c.met;
+  CHECK(checked);
+  const auto loose = with("min_stage_gain = \"-40 dB\"");
+  CHECK(loose.chain.stages[0].circuit.gm * loose.chain.stages[0].circuit.rd < 0.9);
+  CHECK(main_metrics(loose.chain).bandwidth_hz > main_metrics(held.chain).bandwidth_hz);
 }

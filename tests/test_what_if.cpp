@@ -404,3 +404,16 @@ TEST_CASE("what-if: a malformed --vary is an input error naming it") {
     CHECK(r.err.find(message) != std::string::npos);
   }
 }
+
+TEST_CASE("what-if: compare exits 1 and names the side when a side it had to plan misses its target") {
+  TempDir scratch("peakplan_what_if");
+  const auto fixed = scratch.write("fixed.toml", two_stage_chain("100 ohm"));
+  // Two 20 mS plain stages cannot make 200 dB: the plan of B misses, as plan itself reports.
+  const auto open = scratch.write("open.toml", two_open_stages("200 dB"));
+  CHECK(run_cli({"plan", open}).status == 1);
+  const auto run = run_cli({"compare", fixed, open});
+  CHECK(run.status == 1);
+  CHECK(run.err.find("B (") != std::string::npos);
+  CHECK(run.out.find("NOT MET") != std::string::npos);  // the comparison is still printed
+  CHECK(run_cli({"compare", fixed, fixed}).status == 0);
+}

@@ -60,7 +60,15 @@ int run_compare(const CompareArgs& args) {
   const CompareSide side_b{args.b, b->chain, b->analysis, b->planned};
   const auto settings = setting_differences(a->text, b->text);
   print(args.json ? compare_json(side_a, side_b, settings).dump(2) + "\n" : compare_text(side_a, side_b, settings));
-  return ok;
+  // Like plan: a side that had to be planned and misses its target makes the comparison exit 1.
+  bool missed = false;
+  for (const auto* side : {&side_a, &side_b})
+    if (side->planned && *side->planned != Plan::Termination::met) {
+      std::cerr << "compare: " << (side == &side_a ? "A" : "B") << " (" << side->file
+                << ") was planned first and does not meet its target\n";
+      missed = true;
+    }
+  return missed ? target_not_met : ok;
 }
 
 }  // namespace
