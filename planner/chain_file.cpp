@@ -312,6 +312,12 @@ void read_technology(Reader& reader, const toml::table& root, ChainSpec& spec) {
   positive("ft", Dimension::frequency, tech.ft);
   positive("c_out_ratio", Dimension::dimensionless, tech.c_out_ratio);
   positive("inductor_q", Dimension::dimensionless, tech.inductor_q);
+  // Q = 1e-9 makes every coil a resistor of gigaohms and the chain's gain zero.
+  if (tech.inductor_q && !(*tech.inductor_q >= kMinInductorQ && *tech.inductor_q <= kMaxInductorQ)) {
+    reader.error(*t->get("inductor_q"), fmt::format("[technology] inductor_q = {} is outside the plausible range {:g} .. {:g}",
+                                                    shown(*t->get("inductor_q")), kMinInductorQ, kMaxInductorQ));
+    tech.inductor_q.reset();
+  }
   positive("max_inductance", Dimension::inductance, tech.max_inductance);
   positive("max_gm", Dimension::conductance, tech.max_gm);
   positive("gm_over_id", Dimension::dimensionless, tech.gm_over_id);

@@ -115,6 +115,8 @@ inline constexpr int64_t kMaxCombinations = 1024;
 // use m of 0.2 .. 0.7 and T-coils zeta of 0.5 .. 1.5; the bounds are decades wider.
 inline constexpr double kMinDesignM = 0.01, kMaxDesignM = 10.0;
 inline constexpr double kMinDesignZeta = 0.1, kMaxDesignZeta = 10.0;
+// Plausible inductor quality factors ([technology] inductor_q): on-chip coils reach 5 .. 30.
+inline constexpr double kMinInductorQ = 0.1, kMaxInductorQ = 1000.0;
 
 // Parses and validates one chain file. `display_name` is the name errors carry (the path as
 // the user gave it). Returns nullopt when there were errors; they are in `diagnostics`.

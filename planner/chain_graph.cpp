@@ -263,9 +263,10 @@ std::optional<Chain> resolve_chain(const ChainSpec& spec, Diagnostics& diagnosti
       const double gain = c.gm * r;
       if (!(gain >= kMinStageGain && gain <= kMaxStageGain))
         diagnostics.error(rd_at->where,
-                          fmt::format("{}gm x rd = {} x {} is a stage gain of {:.3g} ({:.1f} dB), outside the "
+                          fmt::format("{}gm x {} = {} x {} is a stage gain of {:.3g} ({:.1f} dB), outside the "
                                       "plausible range {:g} .. {:g} ({:.0f} .. {:.0f} dB); check the units of gm and rd",
-                                      who, format_si(c.gm, "S", 4), format_si(r, "ohm", 4), gain,
+                                      who, std::isfinite(c.r_load) ? "(rd || r_load)" : "rd",
+                                      format_si(c.gm, "S", 4), format_si(r, "ohm", 4), gain,
                                       20.0 * std::log10(gain), kMinStageGain, kMaxStageGain,
                                       20.0 * std::log10(kMinStageGain), 20.0 * std::log10(kMaxStageGain)));
     }

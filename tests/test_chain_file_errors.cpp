@@ -225,6 +225,8 @@ const std::vector<Fault>& faults() {
        {"stage 'a1': gm x rd = 45.00 mS x 100.0 Mohm is a stage gain of 4.5e+06", "outside the plausible range"}},
       {"design_inductance_implausible.toml", "an inductance of 0.8 mH set by an m design is reported at m", 8, 5,
        {"stage 'a1': its design sets l = 800.0 uH", "outside the plausible range 10 fH .. 10 uH"}},
+      {"inductor_q_implausible.toml", "inductor_q = 1e-9 is outside the plausible range of a coil's Q", 3, 14,
+       {"[technology] inductor_q = 1e-09 is outside the plausible range 0.1 .. 1000"}},
       {"combinations_over_limit.toml", "six stages of any kind (4096 combinations) are reported at the sixth kind", 29, 8,
        {"stage 's6': the candidate kinds and counts open so far make 4096 combinations", "limit of 1024"}},
   };
