@@ -1,5 +1,5 @@
 // The analysis of a chain as written: every stage alone (driving its actual load) and every
-// output node of the cascade, in the metrics of DESIGN.md section 5.
+// output node of the cascade, in the metrics of docs/physics.md (metrics).
 #pragma once
 
 #include <complex>
@@ -76,7 +76,7 @@ struct OutputSummary {
   int stage = 0;  // the stage whose output node this is
   ResponseSummary response;
   std::optional<EyeSummary> eye;
-  std::optional<LargeSignalEye> large_signal;  // DESIGN.md section 7
+  std::optional<LargeSignalEye> large_signal;  // docs/physics.md (large signals)
 };
 
 struct ChainAnalysis {

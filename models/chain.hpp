@@ -28,7 +28,7 @@ struct ChainStage {
   int driver = -1;       // index of the driving stage; -1 = the chain input
   bool tap = false;      // report this node even though it feeds other stages
   DesignIntent intent;
-  // The pair's output-current limit (DESIGN.md section 7); none = the stage stays linear.
+  // The pair's output-current limit (docs/physics.md (large signals)); none = the stage stays linear.
   std::optional<PairLimit> limit;
 };
 

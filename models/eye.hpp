@@ -1,4 +1,4 @@
-// Eye estimates of a chain for NRZ or PAM4 data (DESIGN.md section 5): the pulse response,
+// Eye estimates of a chain for NRZ or PAM4 data (docs/physics.md (metrics)): the pulse response,
 // peak-distortion analysis, the overlay of a PRBS pattern, and noise-limited (statistical)
 // openings at a target bit-error ratio.
 //
@@ -112,7 +112,7 @@ struct PrbsEye {
 
 inline constexpr std::uint64_t max_overlay_symbols = std::uint64_t{1} << 15;
 
-// The overlay of the signal's pattern (DESIGN.md section 5). Offsets are taken about the
+// The overlay of the signal's pattern (docs/physics.md (metrics)). Offsets are taken about the
 // peak-distortion phase; the traces span +-1 UI around each sampling instant.
 PrbsEye prbs_eye(const PulseResponse& pulse, const Signal& signal);
 

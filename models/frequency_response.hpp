@@ -1,4 +1,4 @@
-// Frequency responses: sampled on a grid for display, and the metrics of DESIGN.md section 5
+// Frequency responses: sampled on a grid for display, and the metrics of docs/physics.md (metrics)
 // found on the continuous response (grid scan, then bisection or golden-section refinement).
 #pragma once
 

@@ -1,4 +1,4 @@
-// The large-signal time response of a chain with limiting stages (DESIGN.md section 7), and the
+// The large-signal time response of a chain with limiting stages (docs/physics.md (large signals)), and the
 // PRBS eye, level compression and AM-to-PM of its clipped waveform.
 //
 // Each gm cell isolates its input from its output, so a limited stage is its static pair curve

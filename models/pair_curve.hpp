@@ -1,4 +1,4 @@
-// The static large-signal transfer curve of a differential pair (DESIGN.md section 7).
+// The static large-signal transfer curve of a differential pair (docs/physics.md (large signals)).
 //
 // Half-circuit convention: v is the half-circuit input voltage (half the differential input),
 // i the half-circuit output current (half the differential output current, I1 - I2 over 2).

@@ -1,4 +1,4 @@
-// Pseudo-random binary sequences and the symbol levels they drive (DESIGN.md section 5).
+// Pseudo-random binary sequences and the symbol levels they drive (docs/physics.md (metrics)).
 //
 // PRBSn is the maximal-length sequence of x^n + x^t + 1 from an n-bit register seeded with all
 // ones: each step computes b(n-1) XOR b(t-1), shifts it in at b0 and outputs it. Its period is

@@ -1,4 +1,4 @@
-// Process variation of a resolved chain (DESIGN.md section 6): classes of elements, their
+// Process variation of a resolved chain (docs/physics.md (process variation)): classes of elements, their
 // chip-to-chip (global) and stage-to-stage (local) spreads, the draws of a Monte Carlo run and
 // the corners, and the chain a draw makes of the nominal one.
 //

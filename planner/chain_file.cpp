@@ -43,7 +43,7 @@ Dimension stage_key_dimension(std::string_view key) {
   return Dimension::capacitance;  // c_in, c_out, c_load
 }
 
-// What to write instead of a bare number for a dB or % key (DESIGN.md section 3): the number
+// What to write instead of a bare number for a dB or % key (docs/chain-format.md): the number
 // with its unit, and for a percentage the reading as a fraction too, since both are common.
 std::string unit_string_hint(double x, Dimension dim) {
   if (dim == Dimension::decibels)
@@ -183,7 +183,7 @@ void read_input(Reader& reader, const toml::table& root, ChainSpec& spec) {
 }
 
 // The input swing: the differential peak-to-peak swing at the chain input (twice what each half
-// circuit sees, DESIGN.md section 7). "20 mV", "20 mVpp" and "20 mVppd" all say that; the
+// circuit sees, docs/physics.md (large signals)). "20 mV", "20 mVpp" and "20 mVppd" all say that; the
 // suffixes are accepted because that is how swings are written, and change nothing.
 std::optional<double> read_swing(Reader& reader, const toml::node& node) {
   const std::string text = node.is_string() ? node.as_string()->get() : std::string();
@@ -267,7 +267,7 @@ void read_target(Reader& reader, const toml::table& root, ChainSpec& spec) {
   }
   if (const auto* n = t->get("objective"))
     if (auto w = reader.word(*n, kObjectives, "[target] objective")) spec.target.objective = *w;
-  if (const auto* n = t->get("plan_for")) {  // DESIGN.md section 6
+  if (const auto* n = t->get("plan_for")) {  // docs/physics.md (process variation)
     spec.target.plan_for_where = position(n->source());
     if (auto w = reader.word(*n, {"nominal", "corners"}, "[target] plan_for")) spec.target.plan_for = *w;
   }

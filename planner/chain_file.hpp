@@ -1,4 +1,4 @@
-// Reading a chain file (DESIGN.md section 3) into a ChainSpec: every value with its source
+// Reading a chain file (docs/chain-format.md) into a ChainSpec: every value with its source
 // position, adjustable values marked as such, nothing resolved yet. All input errors are
 // collected into Diagnostics; the spec is only usable when there are none.
 #pragma once
@@ -37,7 +37,7 @@ struct StageSpec {
   SourcePosition feeds_where;
   Adjustable count;  // default fixed 1
   bool tap = false;
-  // Limiting (DESIGN.md section 7): tail_current is values["tail_current"] (fixed, A); pair
+  // Limiting (docs/physics.md (large signals)): tail_current is values["tail_current"] (fixed, A); pair
   // is "bipolar" or "mos", empty when not given (bipolar when tail_current is).
   std::string pair;
   SourcePosition pair_where;

@@ -97,7 +97,7 @@ KeyValue read_key(const ChainSpec& spec, std::string_view target, std::string_vi
   return {};
 }
 
-// The point as a chain file writes it: dB and % keys take their unit string (DESIGN.md section 3).
+// The point as a chain file writes it: dB and % keys take their unit string (docs/chain-format.md).
 std::string point_text(double value, bool whole, std::string_view unit) {
   if (whole) return fmt::format("{}", static_cast<long long>(std::llround(value)));
   if (unit == "dB") return toml_decibels(value);

@@ -49,20 +49,20 @@ struct ChosenValue {
 
 struct SweepRow {
   double value = 0.0;  // the varied key, SI (dB for decibel keys, a fraction for percentages)
-  // The main output (DESIGN.md section 5 metrics); NaN where a metric does not exist.
+  // The main output (docs/physics.md (metrics) metrics); NaN where a metric does not exist.
   double gain_db = 0.0;
   double bandwidth_hz = 0.0;
   double peaking_db = 0.0;
   double overshoot_pct = 0.0;
   double group_delay_ripple_s = 0.0;
   std::optional<double> eye_height;  // PRBS eye height (fraction of ideal) when [signal]
-  // The main output's large-signal eye (DESIGN.md section 7) when the chain has a limited stage
+  // The main output's large-signal eye (docs/physics.md (large signals)) when the chain has a limited stage
   // and [signal] a swing: differential volts, UI, seconds.
   struct LargeSignal {
     double height_v = 0.0, width_ui = 0.0, ddj_pp_s = 0.0, delay_shift_s = 0.0;
   };
   std::optional<LargeSignal> large_signal;
-  // With [variation] (DESIGN.md section 6): each metric above at its worst corner (the lowest
+  // With [variation] (docs/physics.md (process variation)): each metric above at its worst corner (the lowest
   // gain, bandwidth and eye height, the highest overshoot and ripple) and the Monte Carlo yield of
   // every target and limit together, as `analyze` of the point reports them.
   struct Variation {

@@ -1,4 +1,4 @@
-// A chain file's [variation] analysed (DESIGN.md section 6): every corner with the main
+// A chain file's [variation] analysed (docs/physics.md (process variation)): every corner with the main
 // output's metrics and every target and limit checked there, the worst corner per metric, and
 // the Monte Carlo statistics and yields. Physics is in models/variation and models/monte_carlo;
 // this puts it together with the file's targets and limits.

@@ -1,4 +1,4 @@
-// Reading the [variation] table of a chain file (DESIGN.md section 6) into a VariationSpec;
+// Reading the [variation] table of a chain file (docs/physics.md (process variation)) into a VariationSpec;
 // called by the chain-file reader. Every error is positioned (file:line:col) in `diagnostics`.
 #pragma once
 

@@ -1,4 +1,4 @@
-// The [variation] table of a chain file (DESIGN.md section 6) as read, with source positions:
+// The [variation] table of a chain file (docs/physics.md (process variation)) as read, with source positions:
 // the spreads (models/variation.hpp), the Monte Carlo settings and the corners to analyse.
 #pragma once
 

@@ -82,7 +82,7 @@ nlohmann::json noise_json(const NoiseSummary& n) {
           {"input_density_v_rthz", number(n.equivalent_input_density)}};
 }
 
-// DESIGN.md section 7: the clipped waveform's eye, in differential volts for the [signal]
+// docs/physics.md (large signals): the clipped waveform's eye, in differential volts for the [signal]
 // swing taken as the differential peak-to-peak input.
 nlohmann::json large_signal_json(const Chain& chain, const LargeSignalEye& ls) {
   auto list = [](const std::vector<double>& xs) {

@@ -1,4 +1,4 @@
-// The machine-readable analysis document of DESIGN.md section 4 (keys in SI base units;
+// The machine-readable analysis document of docs/output.md (keys in SI base units;
 // a quantity that does not exist, such as the bandwidth of a response that never falls
 // 3 dB inside the analysed span, is null).
 #pragma once

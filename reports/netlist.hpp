@@ -3,7 +3,7 @@
 // Layout of the netlist:
 //   - title line "peakplan: <chain name>", then one .subckt per stage, ports (in out), the
 //     supply as AC ground (node 0). Inside: the gm cell as a G element drawing gm*v(in) out of
-//     the drain (the stage inverts), the load of DESIGN.md section 2 element by element exactly
+//     the drain (the stage inverts), the load of docs/physics.md (circuits) element by element exactly
 //     as models/load_<kind>.cpp stamps it, the stage's own c_in from its input to ground, and
 //     its c_load and r_load on its output node. Summed over the stages a node joins, the node
 //     carries c_load + the c_in of every stage it feeds: the model's c_node.
@@ -12,7 +12,7 @@
 //     SPICE's dots sit on the drain side of each half and positive k makes the halves aid.
 //   - the source: Vin with "DC 0 AC 1 PULSE(0 1 ...)" behind Rsource, or on the input directly
 //     when r_source is 0.
-//   - a stage with a tail current (DESIGN.md section 7): its gm cell is a behavioural current
+//   - a stage with a tail current (docs/physics.md (large signals)): its gm cell is a behavioural current
 //     source B with the models' pair curve (models/pair_curve.hpp) of x = gm*v(in)/I_T:
 //     I = I_T/2*tanh(2x) (bipolar) or I = |x| < 1/sqrt2 ? I_T*x*sqrt(1 - x^2) : I_T/2*sgn(x)
 //     (MOS); its slope at v(in) = 0 is gm, so .ac is the small-signal response.

@@ -1,4 +1,4 @@
-// The [variation] part of analyze's output (DESIGN.md section 6): the `variation` object of
+// The [variation] part of analyze's output (docs/physics.md (process variation)): the `variation` object of
 // the JSON document and the corner table and Monte Carlo summary of the text view.
 #pragma once
 

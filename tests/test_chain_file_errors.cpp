@@ -58,7 +58,7 @@ struct Fault {
 
 const std::vector<Fault>& faults() {
   static const std::vector<Fault> table{
-      // Silent misreadings that are errors instead (DESIGN.md section 3: dB and % keys take a
+      // Silent misreadings that are errors instead (docs/chain-format.md: dB and % keys take a
       // unit string; a value decades outside any chain's is a missing or wrong prefix).
       {"overshoot_bare_number.toml", "a bare overshoot is ambiguous and the message shows the string to write", 3, 13,
        {"[limits] overshoot: a bare number is ambiguous", "\"3 %\""}},

@@ -34,7 +34,7 @@ TEST_CASE("chain values: enumerations are case-insensitive and read as their low
 }
 
 TEST_CASE("chain values: a symbol rate in baud is bits per symbol times the rate") {
-  // PAM4 carries two bits per symbol, NRZ one (DESIGN.md section 5: symbol rate = bit rate / 2).
+  // PAM4 carries two bits per symbol, NRZ one (docs/physics.md (metrics): symbol rate = bit rate / 2).
   const auto pam4 = spec_of("[signal]\nbit_rate = \"53.125 GBd\"\nmodulation = \"pam4\"\n");
   CHECK(pam4.signal->bit_rate == doctest::Approx(106.25e9).epsilon(1e-15));
   const auto nrz = spec_of("[signal]\nbit_rate = \"25.78125 GBd\"\n");

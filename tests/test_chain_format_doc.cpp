@@ -68,3 +68,17 @@ TEST_CASE("chain format: the README points to the format reference in the reposi
   CHECK(readme.find("docs/chain-format.md") != std::string::npos);
   CHECK(readme.find("DESIGN.md") == std::string::npos);
 }
+
+TEST_CASE("chain format: the code cites the documents in the repository, never notes kept outside it") {
+  namespace fs = std::filesystem;
+  const fs::path root = PEAKPLAN_SOURCE_DIR;
+  for (const auto* doc : {"docs/physics.md", "docs/references.md", "docs/output.md", "docs/architecture.md"})
+    CHECK_MESSAGE(fs::exists(root / doc), doc);
+  for (const auto* dir : {"models", "planner", "reports"})
+    for (const auto& e : fs::recursive_directory_iterator(root / dir)) {
+      if (!e.is_regular_file()) continue;
+      const auto text = peakplan::test::read_file(e.path());
+      CHECK_MESSAGE(text.find("DESIGN.md") == std::string::npos, e.path().string());
+      CHECK_MESSAGE(text.find("REFERENCES.md") == std::string::npos, e.path().string());
+    }
+}

@@ -104,7 +104,7 @@ TEST_CASE("eye: cursors of a single pole at any phase") {
 }
 
 TEST_CASE("eye: first-order DDJ is -ln(1 - exp(-2 pi x)) / (2 pi x) UI") {
-  // derived (REFERENCES.md; B. Analui, J. F. Buckwalter, A. Hajimiri, IEEE T-MTT 53(11), 2005):
+  // derived (docs/references.md; B. Analui, J. F. Buckwalter, A. Hajimiri, IEEE T-MTT 53(11), 2005):
   // a rising edge from v0 crosses 1/2 at tau ln(2(1 - v0)); v0 runs from 0 (after a long run of
   // zeros) to e^(-T/tau) (a lone zero after a long run of ones), so DDJ = -tau ln(1 - e^(-T/tau)).
   // prbs7's runs (6 zeros, 5 ones before a lone zero) leave v0 within e^(-5*2*pi*x) of those
@@ -153,7 +153,7 @@ TEST_CASE("eye: a first-order input edge equals a pole at ln4 / (2 pi rise)") {
 
 TEST_CASE("eye: PAM4 of an ideal chain opens all three eyes to a third of the NRZ swing") {
   // derived: with symbols 0, 1/3, 2/3, 1 and no ISI every eye spans 1/3 of the swing; heights
-  // are fractions of that ideal, so all are 1. REFERENCES.md: 20 log10(3) = 9.54 dB at equal swing.
+  // are fractions of that ideal, so all are 1. docs/references.md: 20 log10(3) = 9.54 dB at equal swing.
   Signal pam4 = nrz(112e9);
   pam4.modulation = Modulation::pam4;
   pam4.swing = 0.4;
@@ -183,7 +183,7 @@ TEST_CASE("eye: PAM4 of an ideal chain opens all three eyes to a third of the NR
 }
 
 TEST_CASE("eye: Q and BER for Gaussian noise") {
-  // derived (REFERENCES.md): BER = 0.5 erfc(Q / sqrt2): Q = 7.0345 at 1e-12, 5.998 at 1e-9;
+  // derived (docs/references.md): BER = 0.5 erfc(Q / sqrt2): Q = 7.0345 at 1e-12, 5.998 at 1e-9;
   // compared at their printed precision.
   CHECK(q_from_ber(1e-12) == doctest::Approx(7.0345).epsilon(1e-5));
   CHECK(q_from_ber(1e-9) == doctest::Approx(5.998).epsilon(1e-4));

@@ -31,7 +31,7 @@ std::vector<fs::path> files_in(const fs::path& dir) {
   return files;
 }
 
-// Exit-2 diagnostics (DESIGN.md section 3): file:line:col: error: ..., a whole-file error
+// Exit-2 diagnostics (docs/chain-format.md): file:line:col: error: ..., a whole-file error
 // without a position, or one naming the --set option that caused it.
 void check_diagnostics(const peakplan::fuzz::PathResult& result, const std::string& name) {
   REQUIRE_FALSE(result.errors.empty());

@@ -1,4 +1,4 @@
-// Limiting stages (DESIGN.md section 7): the pair curves, the cubic-hold discretisation, and the
+// Limiting stages (docs/physics.md (large signals)): the pair curves, the cubic-hold discretisation, and the
 // large-signal eye of a clipped chain against its small-signal limit and its saturation limits.
 #include <doctest/doctest.h>
 

@@ -105,7 +105,7 @@ TEST_CASE("plain: the nodal solve equals -gm R/(1 + s R C)") {
 }
 
 TEST_CASE("load contract: the output node's capacitance includes c_out exactly where the drain is the output") {
-  // DESIGN.md section 2: plain and shunt take their output at the drain, series and tcoil after
+  // docs/physics.md (circuits): plain and shunt take their output at the drain, series and tcoil after
   // a coil, so c_out joins the output node only for the first two (derived from the schematics).
   for (const auto& info : peakplan::all_load_kinds()) {
     peakplan::StageCircuit c;

@@ -1,5 +1,5 @@
 // The outside reference: the netlist peakplan writes, run through ngspice, must give the
-// response peakplan computes (DESIGN.md section 2, last check). ngspice is a required test
+// response peakplan computes (docs/physics.md (circuits), last check). ngspice is a required test
 // dependency (CI installs the Debian package); when it is missing these tests fail.
 //
 // What each side does differently, and so what the tolerances cover:
@@ -309,7 +309,7 @@ Chain series_chain() {
 
 Chain tcoil_ideal_chain() {
   // Battjes' maximally flat design, C = 100 fF at the tap, R = 100 ohm: 2L(1+k) = R^2 C gives
-  // L = 375 pH at k = 1/3, Cb = C/8 (DESIGN.md section 2): the defective double pole pair.
+  // L = 375 pH at k = 1/3, Cb = C/8 (docs/physics.md (circuits)): the defective double pole pair.
   Chain c{"ideal symmetric T-coil, k = 1/3", 0.0, {}};
   c.stages.push_back(make_stage("t1", -1, tcoil(0.04, 100.0, 375e-12, 375e-12, 1.0 / 3.0, 12.5e-15, 0.0), 40e-15));
   c.stages.push_back(make_stage("t2", 0, plain(0.02, 50.0, 10e-15), 100e-15, 20e-15));
@@ -390,7 +390,7 @@ TEST_CASE("ngspice: shunt-peaked stages give peakplan's response") { check_with_
 TEST_CASE("ngspice: series-peaked stage gives peakplan's response") { check_with_ngspice(series_chain()); }
 TEST_CASE("ngspice: ideal T-coil gives peakplan's response") { check_with_ngspice(tcoil_ideal_chain()); }
 TEST_CASE("ngspice: Battjes' maximally flat T-coil overshoots 100*exp(-pi) % with f3dB = 2*sqrt(2)/(2*pi*R*C)") {
-  // Derived from DESIGN.md section 2 (Battjes): k = 1/3, Cb = C/8 gives
+  // Derived from docs/physics.md (circuits) (Battjes): k = 1/3, Cb = C/8 gives
   // 1 / (1 + s*RC/2 + s^2*R^2*C^2/8): w0 = 2*sqrt(2)/(RC), zeta = 1/sqrt(2), so the -3 dB point
   // is w0 and the overshoot exp(-pi*zeta/sqrt(1 - zeta^2)) = exp(-pi) = 4.32 % ("about 4.3 %").
   // This checks ngspice's run of the netlist against the closed form, not against peakplan: the
@@ -416,7 +416,7 @@ TEST_CASE("ngspice: fan-out with a tap gives peakplan's response at every output
   CHECK(c.outputs.size() == 3);  // the tap, the monitor, the main output
 }
 
-// Large signals (DESIGN.md section 7). ngspice integrates the netlist's B sources (the same
+// Large signals (docs/physics.md (large signals)). ngspice integrates the netlist's B sources (the same
 // pair curves) driven by the held PRBS symbols as a PWL with edges of dt/10; the same eye code
 // measures its waveform (resampled linearly onto the model's grid) against the same settled
 // levels. Differences: ngspice's trapezoidal integration at tmax = dt (reltol 1e-7), the edge

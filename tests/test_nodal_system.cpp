@@ -37,7 +37,7 @@ TEST_CASE("nodal: group delay from the exact derivative equals differenced phase
 }
 
 TEST_CASE("nodal: aiding coupling adds 2M to the end-to-end inductance") {
-  // Two coupled coils in series from a node to ground see L1 + L2 + 2k sqrt(L1 L2) (DESIGN.md 2).
+  // Two coupled coils in series from a node to ground see L1 + L2 + 2k sqrt(L1 L2) (docs/physics.md, circuits).
   const double l1 = 300e-12, l2 = 200e-12, k = 0.4;
   NodalSystem sys;
   const int a = sys.add_node("a");

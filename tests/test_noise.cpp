@@ -51,7 +51,7 @@ double output_ms(const Chain& chain, const NoiseOptions& options) {
 }  // namespace
 
 TEST_CASE("noise: noise bandwidths of first- and second-order responses") {
-  // derived (REFERENCES.md closed forms): first order  int df/(1+(f/f3)^2) = pi/2 f3;
+  // derived (docs/references.md closed forms): first order  int df/(1+(f/f3)^2) = pi/2 f3;
   // Butterworth-2 int df/(1+(f/f3)^4) = pi/(2 sqrt2) f3 = 1.1107 f3; two coincident poles
   // 1/(1+s tau)^2: NBW = 1/(8 tau), f3 = sqrt(sqrt2 - 1)/(2 pi tau), ratio 1.2203.
   const double f3 = 20e9, t = 1.0 / (2.0 * kPi * f3) / kTs;
@@ -67,7 +67,7 @@ TEST_CASE("noise: noise bandwidths of first- and second-order responses") {
 }
 
 TEST_CASE("noise: a resistor on a capacitor integrates to kT/C whatever the resistance") {
-  // Equipartition (REFERENCES.md, standard physics); the plain stage's node holds 50 fF.
+  // Equipartition (docs/references.md, standard physics); the plain stage's node holds 50 fF.
   for (double rd : {50.0, 200.0, 1000.0}) {
     CAPTURE(rd);
     const Chain chain = one_stage(plain(0.02, rd, 20e-15), 30e-15);
@@ -190,7 +190,7 @@ TEST_CASE("noise: Q sets the differential eye against the differential noise, sq
   const auto& eye = *analysis.outputs.back().eye;
   const double half = eye.noise.output_rms_v;
   CHECK(eye.noise.differential_rms_v == doctest::Approx(std::sqrt(2.0) * half).epsilon(1e-15));
-  // derived (kT/C, DESIGN.md section 2 by equipartition, with the gm cell's 4kT gamma gm on
+  // derived (kT/C, docs/physics.md (circuits) by equipartition, with the gm cell's 4kT gamma gm on
   // top): the half circuit's noise is at least sqrt(kT/C) of its 60 fF.
   CHECK(half >= std::sqrt(boltzmann * 300.0 / 60e-15) * 0.999);
   REQUIRE(eye.statistical);

@@ -8,7 +8,7 @@
 //   - SIGINT and SIGTERM stop a long plan with 130 and 143 and nothing written;
 //   - the chain file: "-" is standard input, and a directory, an empty, binary or oversized
 //     file and a 200 kB dotted key are positioned errors with exit 2.
-// The statuses are DESIGN.md section 4's contract as extended here (4, 130, 143); 128 + the
+// The statuses are docs/output.md's contract as extended here (4, 130, 143); 128 + the
 // signal number is the shell's convention (POSIX, "common practice"). Checks that need a
 // tmpfs mount or chattr are skipped with a message where the platform does not allow them.
 #include <doctest/doctest.h>
@@ -192,7 +192,7 @@ struct Tmpfs {
 // naming `path` and the system's `reason`.
 void check_cannot_write(const CliRun& r, const fs::path& path, const std::string& reason) {
   INFO("stderr: " << r.err);
-  CHECK(r.status == 4);  // DESIGN.md section 4 as extended: 4 = cannot write output
+  CHECK(r.status == 4);  // docs/output.md as extended: 4 = cannot write output
   CHECK(r.out.empty());
   CHECK(r.err.starts_with(path.string() + ": error: cannot write: " + reason));
   CHECK_FALSE(contains(r.err, "internal error"));

@@ -75,7 +75,7 @@ l = "auto"
 
 TEST_CASE("planner: n identical first-order stages at a fixed total gain: n near 2 ln A, gain near sqrt(e)") {
   // B. Razavi, Design of Integrated Circuits for Optical Communications, limiting-amplifier
-  // chapter (from memory): n_opt -> 2 ln A, stage gain -> sqrt(e). REFERENCES.md (derived): the
+  // chapter (from memory): n_opt -> 2 ln A, stage gain -> sqrt(e). docs/references.md (derived): the
   // exact optimum for 40 dB is n* = 8.9, best integer 9, and the curve is flat, so 8..10 are accepted.
   const auto plan = plan_from(R"(
 [target]

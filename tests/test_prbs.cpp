@@ -72,7 +72,7 @@ void check_maximal_length(PrbsKind kind) {
 }  // namespace
 
 TEST_CASE("prbs: the first bits of prbs7 follow the stated register rule") {
-  // derived by hand from DESIGN.md: seed 1111111, new bit = b6 XOR b5. Output s[j] then obeys
+  // derived by hand from the rule in models/prbs.hpp: seed 1111111, new bit = b6 XOR b5. Output s[j] then obeys
   // s[j] = s[j-7] XOR s[j-6] with s[-1..-7] = 1: s[0..5] = 0 (1 XOR 1), s[6] = s[-1] XOR s[0] = 1,
   // s[7..11] = 0, s[12] = s[5] XOR s[6] = 1, s[13] = s[6] XOR s[7] = 1.
   const std::vector<std::uint8_t> expected{0, 0, 0, 0, 0, 0, 1, 0, 0, 0, 0, 0, 1, 1};

@@ -1,4 +1,4 @@
-// Series peaking against its closed form (derived, REFERENCES.md):
+// Series peaking against its closed form (derived, docs/references.md):
 //   v_out/(-gm R) = 1/(1 + tau s + m x tau^2 s^2 + m x (1-x) tau^3 s^3),
 // C = C_near + C_far, x = C_far/C, tau = R C, m = L/(R^2 C).
 #include <doctest/doctest.h>

@@ -1,7 +1,7 @@
 // Shunt peaking against its closed form Z/R = (1 + m tau s)/(1 + tau s + m tau^2 s^2) and the
 // published design points (T. H. Lee, The Design of CMOS RF ICs, shunt-peaking table;
 // S. Shekhar, J. S. Walling, D. J. Allstot, IEEE JSSC 41(11), 2006). Published ratios are
-// printed to 2-3 digits, so they are compared at that precision; derived values (REFERENCES.md)
+// printed to 2-3 digits, so they are compared at that precision; derived values (docs/references.md)
 // are compared at 1e-3 relative, well above the metric refinement's 1e-10.
 #include <doctest/doctest.h>
 

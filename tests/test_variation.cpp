@@ -1,4 +1,4 @@
-// Process variation (DESIGN.md section 6): draws, corners, Monte Carlo statistics and yields,
+// Process variation (docs/physics.md (process variation)): draws, corners, Monte Carlo statistics and yields,
 // and the analyze output that carries them.
 #include <doctest/doctest.h>
 
@@ -119,7 +119,7 @@ r_load = "400 ohm"
 
 TEST_CASE("variation: one plain stage with a gaussian C spread has the bandwidth yield, mean and sigma the "
           "normal CDF and the delta method give") {
-  // Derived (REFERENCES.md "Process variation"): C = C0 (1 + s z), z standard normal, s = 8 % / 3
+  // Derived (docs/references.md "Process variation"): C = C0 (1 + s z), z standard normal, s = 8 % / 3
   // (the spread is +-3 sigma). f = f0 / (1 + s z) exactly for a plain stage, so
   //   P(f >= B) = P(z <= (f0/B - 1)/s) = Phi((f0/B - 1)/s),
   // and to second order E[f] = f0 (1 + s^2), sd[f] = f0 s (the delta method).

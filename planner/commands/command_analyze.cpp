@@ -32,7 +32,7 @@ int run_analyze(const AnalyzeArgs& args) {
   const auto chain = spec ? resolve_chain(*spec, diagnostics) : std::nullopt;
   if (chain && !spec->variation && (args.samples || args.seed))
     diagnostics.error({0, 0, args.samples ? "--samples" : "--seed"},
-                      "the chain file has no [variation] table to sample; add one (DESIGN.md section 6)");
+                      "the chain file has no [variation] table to sample; add one (docs/physics.md (process variation))");
   if (!chain || !diagnostics.empty()) {
     std::cerr << diagnostics.format();
     return bad_input;

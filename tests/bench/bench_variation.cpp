@@ -25,7 +25,7 @@ const peakplan::Chain& planned_chain() {
 
 peakplan::Variation spreads() {
   using peakplan::VariationClass;
-  peakplan::Variation v;  // the spreads of DESIGN.md section 6's example
+  peakplan::Variation v;  // the spreads of docs/physics.md (process variation)'s example
   v.spread(VariationClass::gm) = {0.10, 0.02};
   v.spread(VariationClass::capacitance) = {0.08, 0.01};
   v.spread(VariationClass::inductance) = {0.04, 0.0};
