@@ -301,15 +301,18 @@ std::optional<Chain> resolve_chain(const ChainSpec& spec, Diagnostics& diagnosti
   for (size_t i = 0; i < chain.stages.size(); ++i) {
     const auto& s = spec.stages[(*graph)[i].spec];
     const auto& c = chain.stages[i].circuit;
-    const bool designed = (s.m && c.kind != LoadKind::plain) || (c.kind == LoadKind::tcoil && (s.zeta || !s.response.empty()));
-    if (!designed || (*graph)[i].copy > 1) continue;
-    const double l = c.kind == LoadKind::tcoil ? c.l1 : c.l;
-    auto why = implausibility(l, Dimension::inductance);
-    why = why.substr(0, why.find("; did you mean"));  // another prefix is no fix for a derived value
-    if (!why.empty())
-      diagnostics.error(s.design_where, fmt::format("stage '{}': its design sets {} = {}: {}", s.id,
-                                                    c.kind == LoadKind::tcoil ? "l1 = l2" : "l", format_si(l, "H", 4),
-                                                    why));
+    const auto& info = load_kind_info(c.kind);
+    if (!gives_design(s) || info.design == DesignFactor::none || (*graph)[i].copy > 1) continue;
+    for (const auto& p : info.parameters) {  // the inductances the design set, not given
+      if (p.role != ParameterRole::element || p.dimension != Dimension::inductance || s.find(p.key)) continue;
+      const double l = c.*p.field;
+      auto why = implausibility(l, Dimension::inductance);
+      why = why.substr(0, why.find("; did you mean"));  // another prefix is no fix for a derived value
+      if (why.empty()) continue;
+      diagnostics.error(s.design_where,
+                        fmt::format("stage '{}': its design sets {} = {}: {}", s.id, p.key, format_si(l, "H", 4), why));
+      break;  // one error per design
+    }
   }
   if (spec.variation) check_variation(*spec.variation, chain, diagnostics);
   if (!diagnostics.empty()) return std::nullopt;

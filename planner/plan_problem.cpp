@@ -115,7 +115,7 @@ Problem::Problem(const ChainSpec& spec, Combination combo, std::vector<GraphStag
   auto any = [&](auto predicate) { return std::any_of(variables_.begin(), variables_.end(), predicate); };
   auto add = [&](Axis axis, double lo, double hi) {
     design_.push_back(axis);
-    design_kind_.push_back(LoadKind::plain);
+    design_kind_.push_back(std::nullopt);
     design_lo_.push_back(lo);
     design_hi_.push_back(hi);
   };
@@ -263,7 +263,7 @@ std::vector<double> Problem::design_seed() const {
       case Axis::stage_gain: z[d] = std::log(from_db(stage_db)); break;
       case Axis::size: z[d] = 0.5 * (design_lo_[d] + design_hi_[d]); break;
       case Axis::taper: z[d] = 0.0; break;
-      case Axis::design: z[d] = load_kind_info(design_kind_[d]).design_seed; break;
+      case Axis::design: z[d] = load_kind_info(*design_kind_[d]).design_seed; break;
     }
     z[d] = std::clamp(z[d], design_lo_[d], design_hi_[d]);
   }

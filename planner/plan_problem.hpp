@@ -10,6 +10,7 @@
 // space first and then refines every value in the full space.
 #pragma once
 
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -93,7 +94,7 @@ class Problem {
   std::vector<GraphStage> graph_;
   std::vector<Variable> variables_;
   std::vector<Axis> design_;
-  std::vector<LoadKind> design_kind_;  // per design axis; meaningful for Axis::design
+  std::vector<std::optional<LoadKind>> design_kind_;  // per design axis; set for Axis::design only
   std::vector<double> design_lo_, design_hi_;
   std::vector<Corner> corners_;
   int corner_threads_ = 1;  // default_thread_count(): the results do not depend on it

@@ -66,7 +66,7 @@ struct PlanCheck {
 // What the planner chose for one [[stage]] of the file.
 struct PlannedStage {
   size_t spec = 0;
-  LoadKind kind = LoadKind::plain;
+  LoadKind kind{};  // set by whoever fills it
   int count = 1;
 };
 

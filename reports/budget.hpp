@@ -26,7 +26,7 @@ namespace peakplan {
 // marks a value the stage does not have (no inductor, no bandwidth inside the analysed span).
 struct BudgetRow {
   std::string id;
-  LoadKind kind = LoadKind::plain;
+  LoadKind kind{};  // set by whoever fills it
   double gm = 0.0, rd = 0.0;
   // The kind's main elements (parameter role element), by chain-file key in table order.
   std::vector<std::pair<std::string, double>> elements;
