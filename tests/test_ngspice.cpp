@@ -108,6 +108,22 @@ double interpolate(const std::vector<double>& t, const std::vector<double>& y, d
   return y[i - 1] + u * (y[i] - y[i - 1]);
 }
 
+// Writes the chain's netlist in batch form (tight tolerances, wrdata files under dir/run) and
+// runs ngspice on it; throws with the log when it fails.
+void run_batch(const std::string& ngspice, const Chain& chain, NetlistOptions& options, const fs::path& dir) {
+  options.batch_control = true;
+  options.precise = true;
+  options.data_prefix = (dir / "run").string();
+  const fs::path netlist = dir / "chain.cir";
+  std::ofstream(netlist) << write_spice_netlist(chain, options);
+  const fs::path log = dir / "ngspice.log";
+  const int rc = test::run_shell(test::shell_quoted(ngspice) + " -b " + test::shell_quoted(netlist.string()) + " > " +
+                                 test::shell_quoted(log.string()) + " 2>&1");
+  if (rc != 0 || !fs::exists(options.data_prefix + ".tran.txt"))
+    throw std::runtime_error("ngspice failed (status " + std::to_string(rc) + ") on " + netlist.string() + ":\n" +
+                             test::read_file(log));
+}
+
 // Writes the chain's netlist, runs ngspice on it and measures every output node against
 // analyze_chain. Throws with the log when ngspice fails; the work directory is then kept.
 NgspiceComparison compare_with_ngspice(const Chain& chain) {
@@ -131,19 +147,7 @@ NgspiceComparison compare_with_ngspice(const Chain& chain) {
   options.ac_stop_hz = bw * 20.0;
   options.tran_step_s = analysis.outputs.back().response.step_wave.dt;
   options.step_rise_s = options.tran_step_s / 10.0;
-  options.batch_control = true;
-  options.precise = true;
-  options.data_prefix = (dir / "run").string();
-  const fs::path netlist = dir / "chain.cir";
-  std::ofstream(netlist) << write_spice_netlist(chain, options);
-
-  const fs::path log = dir / "ngspice.log";
-  const std::string command =
-      "'" + ngspice + "' -b '" + netlist.string() + "' > '" + log.string() + "' 2>&1";
-  const int rc = std::system(command.c_str());
-  if (rc != 0 || !fs::exists(options.data_prefix + ".tran.txt"))
-    throw std::runtime_error("ngspice failed (status " + std::to_string(rc) + ") on " +
-                             netlist.string() + ":\n" + test::read_file(log));
+  run_batch(ngspice, chain, options, dir);
 
   const auto dc_rows = read_wrdata(options.data_prefix + ".dc.txt");
   const auto ac_rows = read_wrdata(options.data_prefix + ".ac.txt");
@@ -571,15 +575,7 @@ namespace {
 
 // Runs a netlist in batch mode and returns its .tran rows (time, then the output nodes).
 std::vector<std::vector<double>> ngspice_tran(const Chain& chain, NetlistOptions options, const fs::path& dir) {
-  options.batch_control = true;
-  options.precise = true;
-  options.data_prefix = (dir / "run").string();
-  const fs::path netlist = dir / "chain.cir";
-  std::ofstream(netlist) << write_spice_netlist(chain, options);
-  const fs::path log = dir / "ngspice.log";
-  const int rc = test::run_shell("ngspice -b " + test::shell_quoted(netlist.string()) + " > " +
-                                 test::shell_quoted(log.string()) + " 2>&1");
-  if (rc != 0) throw std::runtime_error("ngspice failed on " + netlist.string() + ":\n" + test::read_file(log));
+  run_batch("ngspice", chain, options, dir);
   return read_wrdata(options.data_prefix + ".tran.txt");
 }
 
