@@ -18,6 +18,24 @@ ResponseSummary summarise_rational_only(const Cascade& cascade, const AnalysisOp
   return summarise(cascade, {}, options);
 }
 
+ReceiverSummary receiver_summary(const Chain& chain, const ChainNoise& noise, const NoiseSummary& totals,
+                                 const AnalysisOptions& options, std::optional<std::pair<double, double>> span) {
+  ReceiverSummary r;
+  r.transimpedance_ohm = std::fabs(noise.dc_gain());
+  r.input_rms_a = totals.output_rms_v / r.transimpedance_ohm;
+  r.noise_bandwidth_hz = totals.noise_bandwidth_hz;
+  r.input_density_avg = totals.equivalent_input_density;
+  if (options.keep_waveforms) {
+    const auto [lo, hi] = span ? *span : natural_span(noise.cascade(), 1.0);
+    r.spectrum = noise_spectrum(noise, FrequencyGrid::log(lo, hi, std::max(2, options.points)));
+  }
+  if (chain.photodiode && options.signal && r.input_rms_a > 0.0 && std::isfinite(r.input_rms_a))
+    r.sensitivity = optical_sensitivity(r.input_rms_a, chain.photodiode->responsivity,
+                                        q_from_ber(options.signal->target_ber), options.signal->extinction_ratio,
+                                        options.signal->modulation);
+  return r;
+}
+
 }  // namespace
 
 ResponseSummary summarise(const Cascade& cascade, const std::vector<const NodalSystem*>& exact,
@@ -65,8 +83,7 @@ ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) 
   }
 
   NodalSystem source_system;
-  const bool driven_through_source =
-      chain.r_source > 0.0 && chain.stages[static_cast<size_t>(chain.input_stage())].c_in > 0.0;
+  const bool driven_through_source = has_source_network(chain);
   if (driven_through_source) {
     const int in = source_system.add_node("in");
     source_system.add_source(in, chain.r_source);
@@ -145,13 +162,15 @@ ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) 
       samples.push_back(&result.stages[static_cast<size_t>(s)].alone.sampled);
     }
     const auto presampled = options.keep_waveforms && span ? std::optional(in_series(samples)) : std::nullopt;
-    OutputSummary summary{out, {}, std::nullopt, std::nullopt};
+    OutputSummary summary{out, {}, std::nullopt, std::nullopt, std::nullopt};
     EyeSummary eye;
+    // A photocurrent-driven chain is signed off on its noise, signal or not.
+    const bool receiver = chain.current_input();
     // Three independent parts, each into its own slot: the response, the eye and the noise.
-    parallel_for(options.signal ? 3 : 1, options.threads, [&](size_t part) {
+    parallel_for(options.signal ? 3 : (receiver ? 2 : 1), options.threads, [&](size_t part) {
       if (part == 0) {
         summary.response = summarise(cascade, exact, options, span, presampled ? &*presampled : nullptr);
-      } else if (part == 1) {
+      } else if (part == 1 && options.signal) {
         const Signal& signal = *options.signal;
         if (options.keep_waveforms) {
           // Measure and draw the eye from one overlay.
@@ -164,7 +183,9 @@ ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) 
           eye.estimate = estimate_eye(cascade, signal);
         }
       } else {
-        eye.noise = summarise_noise(ChainNoise(chain, out, options.noise));
+        const ChainNoise noise(chain, out, options.noise);
+        eye.noise = summarise_noise(noise);
+        if (receiver) summary.receiver = receiver_summary(chain, noise, eye.noise, options, span);
       }
     });
     if (options.signal) {

@@ -11,6 +11,7 @@
 #include "models/eye_traces.hpp"
 #include "models/large_signal.hpp"
 #include "models/noise.hpp"
+#include "models/receiver.hpp"
 #include "models/frequency_response.hpp"
 #include "models/step_response.hpp"
 
@@ -77,6 +78,7 @@ struct OutputSummary {
   ResponseSummary response;
   std::optional<EyeSummary> eye;
   std::optional<LargeSignalEye> large_signal;  // docs/physics.md (large signals)
+  std::optional<ReceiverSummary> receiver;     // a chain driven by a photocurrent (models/receiver.hpp)
 };
 
 struct ChainAnalysis {

@@ -49,21 +49,39 @@ bool Chain::has_limited_stage() const {
   return false;
 }
 
+bool Chain::current_input() const {
+  return load_kind_info(stages[static_cast<size_t>(input_stage())].circuit.kind).current_input;
+}
+
 void fill_node_capacitances(Chain& chain) {
-  for (auto& s : chain.stages) s.circuit.c_node = s.c_load;
+  for (auto& s : chain.stages) {
+    s.circuit.c_node = s.c_load;
+    s.circuit.c_cell_in = s.c_in;
+    s.circuit.c_pd = s.circuit.i_dark = 0.0;
+  }
+  if (chain.photodiode && !chain.stages.empty()) {
+    auto& first = chain.stages[static_cast<size_t>(chain.input_stage())].circuit;
+    first.c_pd = chain.photodiode->capacitance;
+    first.i_dark = chain.photodiode->dark_current;
+  }
   for (const auto& s : chain.stages)
     if (s.driver >= 0) chain.stages[static_cast<size_t>(s.driver)].circuit.c_node += s.c_in;
 }
 
 Rational source_rational(const Chain& chain) {
   const double c_in = chain.stages[static_cast<size_t>(chain.input_stage())].c_in;
-  if (chain.r_source <= 0.0 || c_in <= 0.0) return Rational();
+  if (chain.r_source <= 0.0 || c_in <= 0.0 || chain.current_input()) return Rational();
   NodalSystem source;
   const int in = source.add_node("in");
   source.add_source(in, chain.r_source);
   source.add_capacitor(in, NodalSystem::ground, c_in);
   source.set_output(in);
   return source.rational();
+}
+
+bool has_source_network(const Chain& chain) {
+  const auto& input = chain.stages[static_cast<size_t>(chain.input_stage())];
+  return chain.r_source > 0.0 && input.c_in > 0.0 && !chain.current_input();
 }
 
 Rational stage_rational(const ChainStage& stage) {
@@ -74,8 +92,7 @@ Cascade output_cascade(const Chain& chain, int output) {
   Cascade cascade;
   // The source pole only when there is one (r_source and c_in both given), as analyze_chain and
   // the noise model see the source; otherwise no block at all rather than H = 1.
-  const auto& input = chain.stages[static_cast<size_t>(chain.input_stage())];
-  if (chain.r_source > 0.0 && input.c_in > 0.0) cascade.append(source_rational(chain));
+  if (has_source_network(chain)) cascade.append(source_rational(chain));
   // Copies of a counted stage are the same circuit: derive each distinct circuit once.
   const ChainStage* previous = nullptr;
   for (int s : chain.path_to(output)) {

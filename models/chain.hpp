@@ -32,10 +32,21 @@ struct ChainStage {
   std::optional<PairLimit> limit;
 };
 
+// A photodiode driving the chain's first stage (a tia) with its photocurrent.
+struct Photodiode {
+  double capacitance = 0.0;   // F, on the tia's input node
+  double responsivity = 0.0;  // A/W
+  double dark_current = 0.0;  // A, its shot noise 2 q I
+  bool operator==(const Photodiode&) const = default;
+};
+
 struct Chain {
   std::string name;
   double r_source = 0.0;  // 0 = ideal voltage drive
   std::vector<ChainStage> stages;  // file order
+  // Set: the input is a photocurrent into the first stage (a tia), and every transfer from the
+  // input is a transimpedance in ohms. A tia without one is driven by an ideal current.
+  std::optional<Photodiode> photodiode;
 
   int input_stage() const;                 // the stage the input drives
   std::vector<int> fed_by(int stage) const;
@@ -44,11 +55,17 @@ struct Chain {
   // Stage indices from the input stage to `stage`, inclusive.
   std::vector<int> path_to(int stage) const;
   bool has_limited_stage() const;
+  // The input stage takes a current (a tia): gains from the input are in ohms.
+  bool current_input() const;
 };
 
-// circuit.c_node = sum of c_in of every stage fed + c_load, for every stage.
+// circuit.c_node = sum of c_in of every stage fed + c_load, for every stage; circuit.c_cell_in =
+// c_in, and the input stage's c_pd and i_dark from the photodiode.
 void fill_node_capacitances(Chain& chain);
 
+// Whether the input reaches the first stage through a source network with a pole of its own
+// (r_source and c_in both given, and a voltage input: a tia's c_in is inside its own circuit).
+bool has_source_network(const Chain& chain);
 // The source network: r_source with the input stage's c_in (1 when r_source is 0).
 Rational source_rational(const Chain& chain);
 Rational stage_rational(const ChainStage& stage);

@@ -34,6 +34,8 @@ struct Signal {
   double input_rise = 0.0;
   double swing = 1.0;                     // V peak to peak at the chain's input
   double target_ber = 1e-12;
+  // P1/P0 of an optical signal (linear), for the average power of a sensitivity; inf = ideal.
+  double extinction_ratio = std::numeric_limits<double>::infinity();
 
   double symbol_rate() const { return modulation == Modulation::pam4 ? bit_rate / 2 : bit_rate; }
   double ui() const { return 1.0 / symbol_rate(); }

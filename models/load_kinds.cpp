@@ -7,8 +7,8 @@ namespace peakplan {
 namespace {
 
 // The table: one entry per kind, in the order kinds are listed to users.
-const std::array<const LoadKindInfo*, 4> kKinds{&plain_load, &shunt_load, &series_load,
-                                                &tcoil_load};
+const std::array<const LoadKindInfo*, 5> kKinds{&plain_load, &shunt_load, &series_load,
+                                                &tcoil_load, &tia_load};
 
 }  // namespace
 

@@ -21,7 +21,7 @@
 
 namespace peakplan {
 
-enum class LoadKind { plain, shunt, series, tcoil };
+enum class LoadKind { plain, shunt, series, tcoil, tia };
 
 // Every element value of one stage, SI. Values a kind does not use are ignored.
 struct StageCircuit {
@@ -33,6 +33,13 @@ struct StageCircuit {
   double l1 = 0.0, l2 = 0.0, k = 0.0, cb = 0.0;  // tcoil
   double r_l1 = 0.0, r_l2 = 0.0;                 // tcoil coil losses
   double c_w = 0.0;                              // tcoil inter-winding capacitance, each half
+  // tia: the feedback from the output to the input node, and the core's identical gm-Rd cells.
+  double rf = 0.0, cf = 0.0;
+  double core_stages = 1.0;
+  // tia: the core cell's input capacitance (the stage's c_in) and what the chain's photodiode
+  // puts on the input node beside it; filled by fill_node_capacitances.
+  double c_cell_in = 0.0;
+  double c_pd = 0.0, i_dark = 0.0;
   double c_out = 0.0;   // the stage's own drain-node parasitic
   double c_node = 0.0;  // on the output node: c_in of every stage fed, plus c_load
   double r_load = std::numeric_limits<double>::infinity();  // on the output node; inf = open
@@ -46,6 +53,7 @@ enum class ParameterRole {
   parasitic,  // an extra element (a winding capacitance): written and reported, not planned
   alias,      // a shorthand that gives other keys their fallback (tcoil r_l); not an element
   design,     // a normalised design input (m, zeta, response): no field, sets the elements
+  structure,  // a whole number that shapes the circuit (a tia's core cells): written, not planned or varied
 };
 
 // Where the planner's default bounds of an "auto" key come from when [technology] says more.
@@ -83,6 +91,8 @@ class ElementSink {
   virtual ~ElementSink() = default;
   // The stage's gm cell, controlled by v(in), drawing its current out of `node`.
   virtual void gm_cell(std::string_view node) = 0;
+  // A gm cell inside the stage: gm * v(control) drawn out of `node` (negative gm: pushed into it).
+  virtual void inner_gm_cell(std::string_view name, std::string_view control, std::string_view node, double gm) = 0;
   virtual void resistor(std::string_view name, std::string_view a, std::string_view b, double ohms) = 0;
   virtual void capacitor(std::string_view name, std::string_view a, std::string_view b, double farads) = 0;
   // Returns whether an L element was written (a coupling may refer to it only then).
@@ -100,6 +110,11 @@ struct LoadKindInfo {
   int (*stamp)(const StageCircuit&, NodalSystem&);
   // True when the stage's output node is its drain (plain, shunt), so c_out loads the output.
   bool drain_is_output = false;
+  // The stage takes a current into an input node of its own (a transimpedance stage): its stamp
+  // builds that node, drives it with 1 A and returns the output, so its transfer is in ohms. It
+  // can only be the chain's first stage, "auto" kinds never include it, and its feedback makes
+  // its driving-point impedance active (no passivity to check).
+  bool current_input = false;
   // One-line schematic for the netlist's comment, and the elements the stamp stamps, minus the
   // output node's c_node and r_load (the netlist writes those from c_load and the stages fed).
   std::string_view netlist_comment;
@@ -142,5 +157,6 @@ extern const LoadKindInfo plain_load;
 extern const LoadKindInfo shunt_load;
 extern const LoadKindInfo series_load;
 extern const LoadKindInfo tcoil_load;
+extern const LoadKindInfo tia_load;
 
 }  // namespace peakplan

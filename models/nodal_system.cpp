@@ -62,6 +62,23 @@ void NodalSystem::add_gm_drive(int node, double siemens) { assembled_.reset();
   gm_cells_.emplace_back(node, siemens);
 }
 
+void NodalSystem::add_transconductance(int control, int node, double siemens) {
+  assembled_.reset();
+  if (siemens == 0.0) return;
+  // KCL at `node`: the current drawn out, gm v(control), moves to the left-hand side.
+  g_entries_.push_back({node, control, siemens});
+  gm_cells_.emplace_back(node, std::fabs(siemens));
+}
+
+void NodalSystem::add_current_drive(int node) {
+  assembled_.reset();
+  drive_.emplace_back(node, 1.0);
+}
+
+void NodalSystem::add_shot_noise(int node, double amperes) {
+  if (amperes > 0.0) shot_currents_.emplace_back(node, amperes);
+}
+
 void NodalSystem::add_source(int node, double ohms) {
   assembled_.reset();
   if (absent_resistor(ohms))
@@ -120,6 +137,7 @@ std::vector<NodalSystem::NoiseGenerator> NodalSystem::noise_generators() const {
       out.push_back({NoiseGenerator::Kind::coil_loss, node_count() + l.branch, ground, l.r});
   for (const auto& [node, gm] : gm_cells_)
     if (gm != 0.0) out.push_back({NoiseGenerator::Kind::gm_cell, node, ground, gm});
+  for (const auto& [node, amperes] : shot_currents_) out.push_back({NoiseGenerator::Kind::shot, node, ground, amperes});
   return out;
 }
 

@@ -36,6 +36,12 @@ class NodalSystem {
   void add_mutual(int branch1, int branch2, double henries);
   // Draws gm * v_in (v_in = 1 V) out of `node` to ground.
   void add_gm_drive(int node, double siemens);
+  // A gm cell inside the circuit: gm * v(control) drawn out of `node` (negative gm: pushed in).
+  void add_transconductance(int control, int node, double siemens);
+  // Drives `node` with a current of 1 A into it (a photocurrent); the transfer is then in ohms.
+  void add_current_drive(int node);
+  // A shot-noise current 2 q I at `node` (a photodiode's dark current), for noise_generators.
+  void add_shot_noise(int node, double amperes);
   // Drives `node` through a Thevenin source of 1 V behind `ohms` (a Norton equivalent).
   void add_source(int node, double ohms);
   void set_output(int node);
@@ -65,9 +71,10 @@ class NodalSystem {
   // its branch row; a gm cell is a current at the node it drives. models/noise.hpp gives each
   // its density (4kT/R, 4kT*r, 4kT*gamma*gm).
   struct NoiseGenerator {
-    enum class Kind { resistor, coil_loss, gm_cell } kind;
+    enum class Kind { resistor, coil_loss, gm_cell, shot } kind;
     int plus, minus;
-    double value;  // resistor: conductance (S); coil_loss: series resistance (ohm); gm_cell: gm (S)
+    // resistor: conductance (S); coil_loss: series resistance (ohm); gm_cell: gm (S); shot: current (A)
+    double value;
   };
   std::vector<NoiseGenerator> noise_generators() const;
   int output_node() const { return output_; }
@@ -104,6 +111,7 @@ class NodalSystem {
   // Kept for noise_generators(): the stamps above merge them into matrix entries.
   std::vector<std::tuple<int, int, double>> conductances_;  // (a, b, siemens)
   std::vector<std::pair<int, double>> gm_cells_;            // (node, gm)
+  std::vector<std::pair<int, double>> shot_currents_;       // (node, A)
 };
 
 }  // namespace peakplan

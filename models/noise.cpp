@@ -17,6 +17,7 @@ double generator_psd(const NodalSystem::NoiseGenerator& g, const NoiseOptions& o
     case Kind::resistor: return o.resistor_noise ? four_kt * g.value : 0.0;   // A^2/Hz
     case Kind::coil_loss: return o.resistor_noise ? four_kt * g.value : 0.0;  // V^2/Hz
     case Kind::gm_cell: return o.gm_noise ? four_kt * o.gamma * g.value : 0.0;  // A^2/Hz
+    case Kind::shot: return 2.0 * elementary_charge * g.value;                  // A^2/Hz
   }
   return 0.0;
 }
@@ -86,7 +87,7 @@ ChainNoise::ChainNoise(const Chain& chain, int output, NoiseOptions options) : o
     throw std::logic_error("ChainNoise: output is not a stage of the chain");
   // The source network as analyze_chain and output_cascade see it; with c_in = 0 it is a plain
   // resistor whose noise reaches the first gate unfiltered.
-  if (chain.r_source > 0.0) {
+  if (chain.r_source > 0.0 && !chain.current_input()) {
     NodalSystem source;
     const int in = source.add_node("in");
     source.add_source(in, chain.r_source);

@@ -24,6 +24,7 @@
 namespace peakplan {
 
 inline constexpr double boltzmann = 1.380649e-23;  // J/K (exact, SI 2019)
+inline constexpr double elementary_charge = 1.602176634e-19;  // C (exact, SI 2019)
 
 struct NoiseOptions {
   double temperature = 300.0;  // K

@@ -31,11 +31,15 @@ constexpr std::array kSpellings{
     UnitSpelling{"bps", Dimension::bit_rate, true},
     UnitSpelling{"V/rtHz", Dimension::noise_density, true},
     UnitSpelling{"V/sqrtHz", Dimension::noise_density, true},
+    UnitSpelling{"A/W", Dimension::responsivity, true},  // before "W" and "A"
+    UnitSpelling{"dBm", Dimension::power, false},        // before "dB" and "m"
+    UnitSpelling{"W", Dimension::power, true},
     UnitSpelling{"V", Dimension::voltage, true},
     UnitSpelling{"A", Dimension::current, true},  // after "A/V", which it would otherwise shadow
     UnitSpelling{"K", Dimension::temperature, false},
     UnitSpelling{"dB", Dimension::decibels, false},
     UnitSpelling{"%", Dimension::fraction, false},
+    UnitSpelling{"m", Dimension::length, true},  // last: "ohm" and "dBm" end in m too
 };
 
 struct Prefix {
@@ -88,6 +92,9 @@ std::string_view unit_symbol(Dimension d) {
     case Dimension::current: return "A";
     case Dimension::temperature: return "K";
     case Dimension::noise_density: return "V/rtHz";
+    case Dimension::responsivity: return "A/W";
+    case Dimension::length: return "m";
+    case Dimension::power: return "W";
     case Dimension::decibels: return "dB";
     case Dimension::fraction: return "%";
     case Dimension::dimensionless: return "";
@@ -108,6 +115,9 @@ std::string describe(Dimension d) {
     case Dimension::current: return "a current (A, e.g. \"20 mA\")";
     case Dimension::temperature: return "a temperature (K, e.g. 300)";
     case Dimension::noise_density: return "a noise density (V/rtHz, e.g. \"10 nV/rtHz\")";
+    case Dimension::responsivity: return "a responsivity (A/W, e.g. \"0.8 A/W\")";
+    case Dimension::length: return "a length (m, e.g. \"1310 nm\")";
+    case Dimension::power: return "an optical power (W or dBm, e.g. \"-12 dBm\")";
     case Dimension::decibels: return "a level in dB (e.g. \"30 dB\")";
     case Dimension::fraction: return "a percentage (e.g. \"5 %\")";
     case Dimension::dimensionless: return "a plain number";
@@ -144,6 +154,9 @@ ParsedQuantity parse_quantity(std::string_view text, Dimension expected) {
   switch (dimension) {
     case Dimension::decibels: return {number, {}};
     case Dimension::fraction: return {number / 100.0, {}};
+    case Dimension::power:
+      if (unit == "dBm") return {from_dbm(number), {}};
+      return {number * factor, {}};
     default: return {number * factor, {}};
   }
 }
@@ -168,6 +181,9 @@ std::string format_si(double value, std::string_view unit, int digits) {
                 static_cast<int>(unit.size()), unit.data());
   return buffer;
 }
+
+double to_dbm(double watts) { return 10.0 * std::log10(watts / 1e-3); }
+double from_dbm(double dbm) { return 1e-3 * std::pow(10.0, dbm / 10.0); }
 
 double to_db(double ratio) { return 20.0 * std::log10(std::fabs(ratio)); }
 double from_db(double db) { return std::pow(10.0, db / 20.0); }

@@ -1,6 +1,6 @@
 // Physical quantities as written in a chain file, and engineering notation for display.
 //
-// Inside peakplan every value is a double in SI base units (F, H, ohm, S, Hz, s, b/s, K, V, A).
+// Inside peakplan every value is a double in SI base units (F, H, ohm, S, Hz, s, b/s, K, V, A, W, m).
 // Units matter only at the edges: parsing what a user wrote and formatting what a user reads.
 #pragma once
 
@@ -22,6 +22,9 @@ enum class Dimension {
   current,        // A
   temperature,    // K
   noise_density,  // V/rtHz
+  responsivity,   // A/W (a photodiode's)
+  length,         // m (a wavelength)
+  power,          // W: "-12 dBm" or "63 uW"
   decibels,       // dB: "30 dB" (a chain file must give the unit)
   fraction,       // "5 %" = 0.05 (a chain file must give the unit)
   dimensionless,  // plain number only
@@ -46,6 +49,10 @@ double from_plain_number(double x, Dimension d);
 
 // Engineering notation with an SI prefix and `digits` significant digits: 4.5e-14 F -> "45 fF".
 std::string format_si(double value, std::string_view unit, int digits = 3);
+
+// 10*log10(P / 1 mW), and back.
+double to_dbm(double watts);
+double from_dbm(double dbm);
 
 // 20*log10(|x|).
 double to_db(double ratio);

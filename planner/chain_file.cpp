@@ -22,8 +22,10 @@ using Keys = std::vector<std::string_view>;
 const Keys kTopKeys{"chain", "input", "signal", "target", "limits", "technology", "stage",
                  "variation"};
 const Keys kChainKeys{"name"};
-const Keys kInputKeys{"r_source", "noise_density"};
-const Keys kSignalKeys{"bit_rate", "modulation", "pattern", "input_rise", "swing", "target_ber", "receiver_bandwidth"};
+const Keys kInputKeys{"r_source", "noise_density", "photodiode"};
+const Keys kPhotodiodeKeys{"capacitance", "responsivity", "dark_current", "wavelength"};
+const Keys kSignalKeys{"bit_rate", "modulation", "pattern", "input_rise", "swing", "target_ber", "receiver_bandwidth",
+                          "extinction_ratio"};
 const Keys kTargetKeys{"gain", "bandwidth", "gain_bandwidth", "objective", "plan_for"};
 const Keys kLimitsKeys{"overshoot", "peaking", "group_delay_ripple", "ripple_band", "sag", "min_stage_gain"};
 const Keys kTechnologyKeys{"ft", "c_out_ratio", "inductor_q", "max_inductance", "k_range",
@@ -172,14 +174,69 @@ const toml::table* sub_table(Reader& reader, const toml::table& root, std::strin
   return nullptr;
 }
 
+// Planck constant times the speed of light over the elementary charge: a photodiode of quantum
+// efficiency 1 gives q lambda/(h c) = lambda / 1.23984 um amperes per watt (CODATA 2018, exact).
+constexpr double kPhotonVoltMetre = 6.62607015e-34 * 299792458.0 / 1.602176634e-19;
+
+void read_photodiode(Reader& reader, const toml::node& node, ChainSpec& spec) {
+  const auto* t = node.as_table();
+  if (!t) {
+    reader.error(node, "[input] photodiode must be a table: [input.photodiode] with capacitance, responsivity and "
+                       "dark_current");
+    return;
+  }
+  reader.check_keys(*t, kPhotodiodeKeys, "[input.photodiode]: ");
+  PhotodiodeSpec pd;
+  pd.where = position(t->source());
+  bool ok = true;
+  auto read = [&](const char* key, Dimension dim, bool required, bool positive, double& into) {
+    const auto* n = t->get(key);
+    if (!n) {
+      if (required) {
+        reader.error(pd.where, std::string("[input.photodiode]: missing ") + key + ", " + describe(dim));
+        ok = false;
+      }
+      return;
+    }
+    const auto v = reader.bounded(*n, dim, std::string("[input.photodiode] ") + key, positive);
+    if (v) into = *v;
+    else ok = false;
+  };
+  read("capacitance", Dimension::capacitance, true, false, pd.capacitance);
+  read("responsivity", Dimension::responsivity, true, true, pd.responsivity);
+  read("dark_current", Dimension::current, false, false, pd.dark_current);
+  if (const auto* n = t->get("wavelength")) {
+    double lambda = 0.0;
+    read("wavelength", Dimension::length, false, true, lambda);
+    if (lambda > 0.0) {
+      pd.wavelength = lambda;
+      const double limit = lambda / kPhotonVoltMetre;
+      if (pd.responsivity > limit * (1.0 + 1e-12)) {
+        reader.error(*t->get("responsivity"),
+                     fmt::format("[input.photodiode] responsivity {} is above the quantum limit q lambda/(h c) = "
+                                 "{:.4g} A/W at {} (an efficiency over 100 %)",
+                                 format_si(pd.responsivity, "A/W", 4), limit, format_si(lambda, "m", 4)));
+        ok = false;
+      }
+    }
+    (void)n;
+  }
+  if (ok) spec.photodiode = pd;
+}
+
 void read_input(Reader& reader, const toml::table& root, ChainSpec& spec) {
   const auto* t = sub_table(reader, root, "input");
   if (!t) return;
   reader.check_keys(*t, kInputKeys, "[input]: ");
-  if (const auto* n = t->get("r_source"))
+  if (const auto* n = t->get("r_source")) {
+    spec.r_source_where = position(n->source());
     if (auto v = reader.bounded(*n, Dimension::resistance, "[input] r_source", false)) spec.r_source = *v;
-  if (const auto* n = t->get("noise_density"))
+  }
+  if (const auto* n = t->get("noise_density")) {
+    spec.noise_density_where = position(n->source());
     spec.input_noise_density = reader.bounded(*n, Dimension::noise_density, "[input] noise_density", false);
+  }
+  if (const auto* n = t->get("photodiode")) read_photodiode(reader, *n, spec);
 }
 
 // The input swing: the differential peak-to-peak swing at the chain input (twice what each half
@@ -240,9 +297,20 @@ void read_signal(Reader& reader, const toml::table& root, ChainSpec& spec) {
     }
   if (const auto* n = t->get("input_rise"))
     signal.input_rise = reader.bounded(*n, Dimension::time, "[signal] input_rise", false);
-  if (const auto* n = t->get("swing")) signal.swing = read_swing(reader, *n);
+  if (const auto* n = t->get("swing")) {
+    signal.swing_where = position(n->source());
+    signal.swing = read_swing(reader, *n);
+  }
   if (const auto* n = t->get("receiver_bandwidth"))
     signal.receiver_bandwidth = reader.bounded(*n, Dimension::frequency, "[signal] receiver_bandwidth", true);
+  if (const auto* n = t->get("extinction_ratio")) {
+    // An optical power ratio: 10 log10(P1/P0), so "9 dB" is a ratio of 7.94.
+    const auto v = reader.quantity(*n, Dimension::decibels, "[signal] extinction_ratio");
+    if (v && !(*v > 0.0 && *v <= 40.0))
+      reader.error(*n, "[signal] extinction_ratio must be above 0 dB (P1 > P0) and at most 40 dB, saw " + shown(*n));
+    else if (v)
+      signal.extinction_ratio_db = *v;
+  }
   if (const auto* n = t->get("target_ber")) {
     const auto v = reader.quantity(*n, Dimension::dimensionless, "[signal] target_ber");
     if (v && (*v <= 0.0 || *v >= 0.5))
@@ -364,6 +432,15 @@ std::vector<LoadKind> every_kind() {
   return kinds;
 }
 
+// What kind = "auto" lets the planner choose among: the voltage-gain kinds. A transimpedance
+// stage is a receiver's front end, never a candidate for a post-amplifier stage.
+std::vector<LoadKind> auto_kinds() {
+  std::vector<LoadKind> kinds;
+  for (const auto& info : all_load_kinds())
+    if (!info.current_input) kinds.push_back(info.kind);
+  return kinds;
+}
+
 Keys kind_names_and_auto() {
   Keys names;
   for (const auto& info : all_load_kinds()) names.push_back(info.name);
@@ -378,7 +455,7 @@ std::optional<std::vector<LoadKind>> read_kind(Reader& reader, const toml::node&
     if (!w || *w == "auto") return std::nullopt;
     return load_kind_from_name(*w);
   };
-  if (node.is_string() && node.as_string()->get() == "auto") return every_kind();
+  if (node.is_string() && node.as_string()->get() == "auto") return auto_kinds();
   if (const auto* array = node.as_array()) {
     if (array->empty()) {
       reader.error(node, who + "kind: an empty list of candidates; list at least one kind");
@@ -498,6 +575,19 @@ void read_stage(Reader& reader, const toml::table& t, size_t index, ChainSpec& s
         stage.design_where = position(n->source());
         if (auto w = reader.word(*n, kResponses, who + "response")) stage.response = *w;
         stage.values["response"] = {};
+        continue;
+      }
+      if (p.role == ParameterRole::structure) {  // a whole number of cells
+        const auto whole = n->value<int64_t>();
+        const bool integral = whole && (n->is_integer() || static_cast<double>(*whole) == *n->value<double>());
+        if (!integral || *whole < 1 || *whole > kMaxCoreStages) {
+          reader.error(*n, fmt::format("{}{} must be a whole number 1 .. {}, saw {}", who, p.key, kMaxCoreStages, shown(*n)));
+          continue;
+        }
+        Adjustable a;
+        a.where = position(n->source());
+        a.value = static_cast<double>(*whole);
+        stage.values[std::string(p.key)] = a;
         continue;
       }
       if (p.key == "k") {
@@ -659,7 +749,8 @@ const Adjustable* StageSpec::find(std::string_view key) const {
 const std::vector<std::string_view>& common_stage_keys() { return kStageKeys; }
 
 std::vector<FileTable> chain_file_tables() {
-  return {{"chain", kChainKeys},   {"input", kInputKeys},           {"signal", kSignalKeys},
+  return {{"chain", kChainKeys},   {"input", kInputKeys},           {"input.photodiode", kPhotodiodeKeys},
+          {"signal", kSignalKeys},
           {"target", kTargetKeys}, {"limits", kLimitsKeys},         {"technology", kTechnologyKeys},
           {"stage", stage_keys_for(every_kind())}};
 }

@@ -84,15 +84,29 @@ struct SignalSpec {
   std::string pattern = "prbs7";
   std::optional<double> input_rise;  // s, 20-80 %
   std::optional<double> swing;       // V at the input
+  SourcePosition swing_where;
   double target_ber = 1e-12;
   std::optional<double> receiver_bandwidth;  // Hz: a first-order limit on the noise behind Q
+  std::optional<double> extinction_ratio_db;  // optical P1/P0 in dB (10 log10); none = ideal
+};
+
+// [input.photodiode]: the photodiode in front of a tia.
+struct PhotodiodeSpec {
+  double capacitance = 0.0;   // F
+  double responsivity = 0.0;  // A/W
+  double dark_current = 0.0;  // A
+  std::optional<double> wavelength;  // m; bounds the responsivity by the quantum limit
+  SourcePosition where;
 };
 
 struct ChainSpec {
   std::string file;
   std::string name;
   double r_source = 0.0;
+  SourcePosition r_source_where;  // line 0: not given
   std::optional<double> input_noise_density;  // V/rtHz
+  SourcePosition noise_density_where;
+  std::optional<PhotodiodeSpec> photodiode;
   std::optional<SignalSpec> signal;
   TargetSpec target;
   LimitsSpec limits;
@@ -115,6 +129,8 @@ inline constexpr int64_t kMaxCombinations = 1024;
 // use m of 0.2 .. 0.7 and T-coils zeta of 0.5 .. 1.5; the bounds are decades wider.
 inline constexpr double kMinDesignM = 0.01, kMaxDesignM = 10.0;
 inline constexpr double kMinDesignZeta = 0.1, kMaxDesignZeta = 10.0;
+// A tia's core: 1 .. kMaxCoreStages identical gm-Rd cells.
+inline constexpr int kMaxCoreStages = 5;
 // Plausible inductor quality factors ([technology] inductor_q): on-chip coils reach 5 .. 30.
 inline constexpr double kMinInductorQ = 0.1, kMaxInductorQ = 1000.0;
 

@@ -209,9 +209,51 @@ void read_kind_values(StageCircuit& c, const std::function<double(std::string_vi
   }
 }
 
+// A transimpedance stage (a kind that takes a current) is the chain's front end: the first stage,
+// one of it, never a candidate among voltage-gain kinds; a photodiode needs one, and what only a
+// voltage input has (r_source, a source noise density, a swing in volts) cannot go with it.
+void check_current_input(const ChainSpec& spec, const std::vector<GraphStage>& graph, Diagnostics& diagnostics) {
+  bool current_input = false;
+  for (const auto& g : graph) {
+    const auto& s = spec.stages[g.spec];
+    const bool has_tia = std::any_of(s.kinds.begin(), s.kinds.end(),
+                                     [](LoadKind k) { return load_kind_info(k).current_input; });
+    if (!has_tia || g.copy > 1) continue;
+    const std::string who = "stage '" + s.id + "': ";
+    if (s.kinds.size() > 1)
+      diagnostics.error(s.kind_where, who + "a tia is a receiver's front end, not a candidate among voltage-gain "
+                                            "kinds; give kind = \"tia\" alone");
+    if (g.driver >= 0)
+      diagnostics.error(s.kind_where, who + "a tia stage takes the photocurrent, so it must be the first stage "
+                                            "(no stage may feed it)");
+    else
+      current_input = true;
+    if (const auto* tail = s.find("tail_current"))
+      diagnostics.error(tail->where, who + "a tia stage is linear here; tail_current belongs to a limiting stage after it");
+    if (!s.count.is_fixed() || s.count.value != 1.0)
+      diagnostics.error(s.count.where.line > 0 ? s.count.where : s.where,
+                        who + "a tia stage is one stage; for more gain cells in its core use core_stages");
+  }
+  if (spec.photodiode && !current_input)
+    diagnostics.error(spec.photodiode->where, "[input.photodiode]: a photodiode drives a transimpedance stage; make "
+                                              "the first stage kind = \"tia\"");
+  if (!current_input) return;
+  if (spec.r_source > 0.0)
+    diagnostics.error(spec.r_source_where, "[input] r_source: the chain starts with a tia, which takes a current; "
+                                           "leave r_source out (the photodiode is the source)");
+  if (spec.input_noise_density)
+    diagnostics.error(spec.noise_density_where, "[input] noise_density is a voltage density for a voltage input; the "
+                                                "chain starts with a tia (its input noise is the photodiode's and the tia's own)");
+  if (spec.signal && spec.signal->swing)
+    diagnostics.error(spec.signal->swing_where, "[signal] swing is an input voltage; the chain starts with a tia, "
+                                                "whose input is a photocurrent: the sensitivity is reported instead");
+}
+
 std::optional<Chain> resolve_chain(const ChainSpec& spec, Diagnostics& diagnostics) {
   const auto graph = build_stage_graph(spec, diagnostics);
   if (!graph) return std::nullopt;
+  check_current_input(spec, *graph, diagnostics);
+  if (!diagnostics.empty()) return std::nullopt;
 
   // Per spec stage, reported once even when it has copies.
   std::vector<StageCircuit> circuits(spec.stages.size());
@@ -325,6 +367,9 @@ Chain assemble_chain(const ChainSpec& spec, const std::vector<GraphStage>& graph
   Chain chain;
   chain.name = spec.name;
   chain.r_source = spec.r_source;
+  if (spec.photodiode)
+    chain.photodiode = Photodiode{spec.photodiode->capacitance, spec.photodiode->responsivity,
+                                  spec.photodiode->dark_current};
   for (const auto& g : graph) {
     ChainStage stage;
     stage.id = g.id;
@@ -366,6 +411,7 @@ AnalysisOptions analysis_options(const ChainSpec& spec, int points) {
     signal.input_rise = spec.signal->input_rise.value_or(0.0);
     signal.swing = spec.signal->swing.value_or(1.0);
     signal.target_ber = spec.signal->target_ber;
+    if (spec.signal->extinction_ratio_db) signal.extinction_ratio = std::pow(10.0, *spec.signal->extinction_ratio_db / 10.0);
     options.signal = signal;
     options.swing_given = spec.signal->swing.has_value();
     options.noise.receiver_bandwidth_hz = spec.signal->receiver_bandwidth.value_or(0.0);

@@ -21,6 +21,11 @@ struct GraphStage {
   int driver = -1;      // index of the driving GraphStage; -1 = the chain input
 };
 
+// The rules of a chain that starts with a transimpedance stage (docs/chain-format.md): a tia is
+// the first stage and one stage, a photodiode needs one, and r_source, noise_density and a swing
+// (all of a voltage input) cannot go with it. Errors at their keys.
+void check_current_input(const ChainSpec& spec, const std::vector<GraphStage>& graph, Diagnostics& diagnostics);
+
 // Stages in file order (copies in sequence). `counts` overrides each spec stage's count (the
 // planner's choice); without it every count must be fixed.
 std::optional<std::vector<GraphStage>> build_stage_graph(const ChainSpec& spec, Diagnostics& diagnostics,

@@ -24,6 +24,11 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
       spec.file, plan.termination == Plan::Termination::met ? "every target and limit met" : "NOT MET (" + plan.message + ")");
   out += "[chain]\nname = " + toml_basic_string(spec.name) + "\n\n[input]\n" + number_line("r_source", spec.r_source, "ohm");
   if (spec.input_noise_density) out += number_line("noise_density", *spec.input_noise_density, "V/rtHz");
+  if (const auto& pd = spec.photodiode) {
+    out += "\n[input.photodiode]\n" + number_line("capacitance", pd->capacitance, "F") +
+           number_line("responsivity", pd->responsivity, "A/W") + number_line("dark_current", pd->dark_current, "A");
+    if (pd->wavelength) out += number_line("wavelength", *pd->wavelength, "m");
+  }
   if (spec.signal) {
     const auto& s = *spec.signal;
     out += "\n[signal]\n" + number_line("bit_rate", s.bit_rate, "b/s");
@@ -31,6 +36,7 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
     if (s.input_rise) out += number_line("input_rise", *s.input_rise, "s");
     if (s.swing) out += number_line("swing", *s.swing, "V");
     out += "target_ber = " + toml_number(s.target_ber) + "\n";
+    if (s.extinction_ratio_db) out += "extinction_ratio = " + toml_decibels(*s.extinction_ratio_db) + "\n";
   }
   const auto& t = spec.target;
   if (t.gain_db || t.bandwidth || t.gain_bandwidth) {
@@ -87,6 +93,10 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
       if (!p.field || p.role == ParameterRole::alias || p.role == ParameterRole::design) continue;
       const double v = c.*(p.field);
       if (p.omit_when_zero && !(v > 0.0)) continue;
+      if (p.role == ParameterRole::structure) {
+        out += fmt::format("{} = {}\n", p.key, std::lround(v));
+        continue;
+      }
       out += p.dimension == Dimension::dimensionless ? std::string(p.key) + " = " + toml_number(v) + "\n"
                                                      : number_line(p.key, v, unit_symbol(p.dimension));
     }

@@ -344,6 +344,8 @@ std::optional<Plan> plan_chain(const ChainSpec& input, Diagnostics& diagnostics,
   for (auto& combo : combinations(spec)) {
     auto graph = build_stage_graph(spec, diagnostics, &combo.counts);
     if (!graph) return std::nullopt;
+    if (problems.empty()) check_current_input(spec, *graph, diagnostics);
+    if (!diagnostics.empty()) return std::nullopt;
     problems.emplace_back(spec, std::move(combo), std::move(*graph));
   }
 

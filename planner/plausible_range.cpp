@@ -21,6 +21,9 @@ std::optional<PlausibleRange> plausible_range(Dimension d) {
     case Dimension::current: return PlausibleRange{1e-12, 10.0, 1e-5, 0.2};
     case Dimension::temperature: return PlausibleRange{1.0, 1000.0, 200.0, 450.0};
     case Dimension::noise_density: return PlausibleRange{1e-13, 1e-3, 1e-10, 1e-7};
+    case Dimension::responsivity: return PlausibleRange{1e-3, 10.0, 0.05, 1.3};
+    case Dimension::length: return PlausibleRange{1e-7, 1e-4, 4e-7, 2e-6};
+    case Dimension::power: return PlausibleRange{1e-12, 1.0, 1e-7, 1e-2};
     case Dimension::decibels:
     case Dimension::fraction:
     case Dimension::dimensionless: return std::nullopt;

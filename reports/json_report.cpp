@@ -113,6 +113,34 @@ nlohmann::json large_signal_json(const Chain& chain, const LargeSignalEye& ls) {
   return j;
 }
 
+// models/receiver.hpp: a photocurrent-driven chain's transimpedance, input noise and sensitivity.
+nlohmann::json receiver_json(const ReceiverSummary& r, const Chain& chain, const std::optional<Signal>& signal) {
+  std::vector<double> f, density;
+  for (const auto& p : r.spectrum) {
+    f.push_back(p.frequency_hz);
+    density.push_back(p.input_density);
+  }
+  nlohmann::json j{{"transimpedance_ohm", number(r.transimpedance_ohm)},
+                   {"transimpedance_dbohm", number(to_db(r.transimpedance_ohm))},
+                   {"input_noise_rms_a", number(r.input_rms_a)},
+                   {"input_noise_density_avg_a_rthz", number(r.input_density_avg)},
+                   {"noise_bandwidth_hz", number(r.noise_bandwidth_hz)},
+                   {"input_noise_spectrum", {{"frequency_hz", f}, {"density_a_rthz", density}}},
+                   {"sensitivity", nullptr}};
+  if (r.sensitivity && signal) {
+    const auto& s = *r.sensitivity;
+    j["sensitivity"] = {{"target_ber", signal->target_ber},
+                        {"q", number(s.q)},
+                        {"responsivity_a_w", chain.photodiode ? number(chain.photodiode->responsivity) : nlohmann::json(nullptr)},
+                        {"extinction_ratio", number(s.extinction_ratio)},
+                        {"oma_w", number(s.oma_w)},
+                        {"oma_dbm", number(to_dbm(s.oma_w))},
+                        {"average_w", number(s.average_w)},
+                        {"average_dbm", number(to_dbm(s.average_w))}};
+  }
+  return j;
+}
+
 }  // namespace
 
 nlohmann::json stage_values_json(const ChainStage& stage) {
@@ -131,6 +159,14 @@ nlohmann::json stage_values_json(const ChainStage& stage) {
 nlohmann::json analysis_json(const Chain& chain, const ChainAnalysis& analysis, const JsonOptions& options) {
   nlohmann::json doc;
   doc["chain"] = chain.name;
+  // What the chain's gains are per: volts in (V/V) or a photocurrent (ohm, and dBohm in *_db).
+  doc["input"] = {{"kind", chain.current_input() ? "current" : "voltage"},
+                  {"gain_unit", chain.current_input() ? "ohm" : "V/V"},
+                  {"photodiode", nullptr}};
+  if (chain.photodiode)
+    doc["input"]["photodiode"] = {{"capacitance_f", chain.photodiode->capacitance},
+                                  {"responsivity_a_w", chain.photodiode->responsivity},
+                                  {"dark_current_a", chain.photodiode->dark_current}};
   doc["outputs"] = nlohmann::json::array();
   for (const auto& out : analysis.outputs) {
     nlohmann::json o;
@@ -141,6 +177,7 @@ nlohmann::json analysis_json(const Chain& chain, const ChainAnalysis& analysis, 
       o["noise"] = noise_json(out.eye->noise);
     }
     if (out.large_signal) o["large_signal"] = large_signal_json(chain, *out.large_signal);
+    if (out.receiver) o["receiver"] = receiver_json(*out.receiver, chain, analysis.signal);
     if (options.include_response && !out.response.sampled.frequency_hz.empty()) {
       o["response"] = {{"frequency_hz", out.response.sampled.frequency_hz},
                        {"magnitude_db", out.response.sampled.magnitude_db()},

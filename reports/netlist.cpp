@@ -26,6 +26,9 @@ class SubcktWriter final : public ElementSink {
       : out_(out), stage_(stage), limit_(limit) {}
 
   void gm_cell(std::string_view node) override;
+  void inner_gm_cell(std::string_view name, std::string_view control, std::string_view node, double gm) override {
+    out_ << 'G' << name << ' ' << node << " 0 " << control << " 0 " << spice_number(gm) << '\n';
+  }
   void resistor(std::string_view name, std::string_view a, std::string_view b, double r) override {
     if (resistor_present(r)) line(name, a, b, spice_number(r));
   }
@@ -307,8 +310,19 @@ std::string write_spice_netlist(const Chain& chain, const NetlistOptions& option
   } else {
     out << "* source: 1 V AC, and a 0 -> 1 V step for .tran\n";
   }
-  out << "Vin " << (through_resistor ? "src" : "in") << " 0 DC 0 AC 1 " << pulse << '\n';
-  if (through_resistor) out << "Rsource src in " << spice_number(chain.r_source) << '\n';
+  if (chain.current_input()) {
+    // A photocurrent of 1 A (AC and the step) into the tia's input node: the outputs read in ohms.
+    out << "* the input is a current: 1 A into node in, so every output reads as a transimpedance\n";
+    out << "Iin 0 in DC 0 AC 1 " << pulse << '\n';
+    if (chain.photodiode) {
+      out << "* photodiode: responsivity " << card(chain.photodiode->responsivity) << " A/W, dark current "
+          << card(chain.photodiode->dark_current) << " A (its shot noise is not in a SPICE .noise)\n";
+      SubcktWriter(out).capacitor("Cpd", "in", "0", chain.photodiode->capacitance);
+    }
+  } else {
+    out << "Vin " << (through_resistor ? "src" : "in") << " 0 DC 0 AC 1 " << pulse << '\n';
+    if (through_resistor) out << "Rsource src in " << spice_number(chain.r_source) << '\n';
+  }
   out << '\n';
 
   for (size_t i = 0; i < chain.stages.size(); ++i) {
@@ -356,8 +370,8 @@ std::string write_spice_netlist(const Chain& chain, const NetlistOptions& option
            "set wr_singlescale\n"
            "set wr_vecnames\n"
            "set numdgt=15\n"
-           // dc first: ngspice-39 gives a stale DC sweep with coupled inductors after a tran.
-           "dc Vin 1 1 1\n"
+        // dc first: ngspice-39 gives a stale DC sweep with coupled inductors after a tran.
+        << (chain.current_input() ? "dc Iin 1 1 1\n" : "dc Vin 1 1 1\n")
         << "wrdata " << p << ".dc.txt" << vectors << '\n'
         << "ac " << ac << '\n'
         << "wrdata " << p << ".ac.txt" << vectors << '\n'

@@ -59,8 +59,14 @@ std::string analysis_text(const Chain& chain, const ChainAnalysis& analysis) {
         chain.stages[static_cast<size_t>(s.stage)].id, d.label, format_si(d.ideal_bandwidth_hz, "Hz"),
         d.ideal_peaking_db, 100.0 * d.bandwidth_departure, d.peaking_departure_db, 100.0 * d.input_impedance_error);
   }
-  out += "\noutputs (the cascade from the input)\n";
-  out += fmt::format("  {:<10} {:>8} {:>4} {:>10} {:>8} {:>9} {:>9} {:>10} {:>9} {:>9}\n", "node", "gain dB", "pol",
+  const bool current_input = chain.current_input();
+  if (current_input)
+    out += fmt::format("  note: {}'s gain is a transimpedance, dB re 1 ohm (dBohm); the other stages' are voltage gains\n",
+                       chain.stages[static_cast<size_t>(chain.input_stage())].id);
+  out += current_input ? "\noutputs (the cascade from the photocurrent: gains are transimpedances)\n"
+                       : "\noutputs (the cascade from the input)\n";
+  out += fmt::format("  {:<10} {:>8} {:>4} {:>10} {:>8} {:>9} {:>9} {:>10} {:>9} {:>9}\n", "node",
+                     current_input ? "dBohm" : "gain dB", "pol",
                      "bandwidth", "peak dB", "delay", "ripple", "overshoot", "rise", "settle");
   for (const auto& o : analysis.outputs) {
     const auto& f = o.response.frequency;
@@ -97,7 +103,38 @@ std::string analysis_text(const Chain& chain, const ChainAnalysis& analysis) {
       out += fmt::format("  note: the pattern is longer than the simulation bound; {} symbols were overlaid\n",
                          p.symbols_overlaid);
   }
+  out += receiver_text(chain, analysis);
   out += large_signal_text(chain, analysis);
+  return out;
+}
+
+std::string receiver_text(const Chain& chain, const ChainAnalysis& analysis) {
+  std::string out;
+  bool header = false;
+  for (const auto& o : analysis.outputs) {
+    if (!o.receiver) continue;
+    const auto& r = *o.receiver;
+    if (!header) {
+      out += "\nreceiver (the photocurrent into one half circuit; noise referred to the input as a current)\n";
+      out += fmt::format("  {:<10} {:>13} {:>9} {:>12} {:>13} {:>10} {:>11} {:>12}\n", "node", "transimpedance",
+                         "dBohm", "in noise rms", "avg density", "noise BW", "OMA", "avg power");
+      header = true;
+    }
+    const auto& sens = r.sensitivity;
+    out += fmt::format("  {:<10} {:>13} {:>9} {:>12} {:>13} {:>10} {:>11} {:>12}\n",
+                       chain.stages[static_cast<size_t>(o.stage)].id, format_si(r.transimpedance_ohm, "ohm"),
+                       db(to_db(r.transimpedance_ohm)), format_si(r.input_rms_a, "A"),
+                       format_si(r.input_density_avg, "A/rtHz"), format_si(r.noise_bandwidth_hz, "Hz"),
+                       sens ? fmt::format("{:.2f} dBm", to_dbm(sens->oma_w)) : std::string("-"),
+                       sens ? fmt::format("{:.2f} dBm", to_dbm(sens->average_w)) : std::string("-"));
+    if (sens && analysis.signal)
+      out += fmt::format("  {:<10} sensitivity at BER {:.0e} (Q = {:.2f}), responsivity {}, extinction ratio {}; "
+                         "PIN estimate: no signal-dependent noise\n",
+                         "", analysis.signal->target_ber, sens->q,
+                         format_si(chain.photodiode->responsivity, "A/W"),
+                         std::isinf(sens->extinction_ratio) ? std::string("ideal")
+                                                            : fmt::format("{:.1f} dB", 10.0 * std::log10(sens->extinction_ratio)));
+  }
   return out;
 }
 

@@ -99,7 +99,7 @@ const std::vector<Fault>& faults() {
       {"missing_id.toml", "a stage without id is reported by its position in the file", 8, 1,
        {"stage 2: missing id"}},
       {"missing_kind.toml", "a stage without kind lists the kinds", 2, 1,
-       {"stage 'a1': missing kind", "plain, shunt, series, tcoil, auto"}},
+       {"stage 'a1': missing kind", "plain, shunt, series, tcoil, tia, auto"}},
       {"unknown_kind.toml", "kind \"tcoyl\" suggests tcoil", 4, 8,
        {"stage 'a1': kind: unknown value \"tcoyl\"", "did you mean \"tcoil\"?"}},
       {"duplicate_id.toml", "a duplicate id is reported at the second stage, naming the first one's line", 8, 1,

@@ -19,7 +19,7 @@ namespace {
 // (or "## [[name]]") heading, up to the next "## " or "### " heading.
 std::map<std::string, std::set<std::string>> documented_keys(const std::string& page) {
   std::map<std::string, std::set<std::string>> keys;
-  const std::regex heading(R"(^## \[\[?([a-z_]+)\]\]?\s*$)");
+  const std::regex heading(R"(^## \[\[?([a-z_.]+)\]\]?\s*$)");
   const std::regex row(R"(^\| `([a-z_0-9]+)` \|)");
   std::istringstream in(page);
   std::string current;

@@ -285,7 +285,7 @@ Chain finish(Chain chain) {
 
 // Element values are invented, sized like a 20-40 GHz post-amplifier (RC of a few ps).
 Chain plain_chain() {
-  Chain c{"plain pair, 50 ohm source, 100 ohm off-chip load", 50.0, {}};
+  Chain c{"plain pair, 50 ohm source, 100 ohm off-chip load", 50.0, {}, std::nullopt};
   c.stages.push_back(make_stage("p1", -1, plain(0.04, 120.0, 30e-15), 60e-15));
   StageCircuit p2 = plain(0.03, 150.0, 25e-15);
   p2.r_load = 100.0;
@@ -295,7 +295,7 @@ Chain plain_chain() {
 
 Chain shunt_chain() {
   // m = L/(Rd^2 C) near 0.4 on each stage; r_l from a Q of about 10 at 30 GHz.
-  Chain c{"shunt-peaked pair with lossy coils", 50.0, {}};
+  Chain c{"shunt-peaked pair with lossy coils", 50.0, {}, std::nullopt};
   c.stages.push_back(make_stage("s1", -1, inductive(LoadKind::shunt, 0.04, 100.0, 0.38e-9, 7.0, 35e-15), 60e-15));
   c.stages.push_back(make_stage("s2", 0, inductive(LoadKind::shunt, 0.04, 100.0, 0.30e-9, 5.5, 30e-15), 60e-15, 15e-15));
   return finish(c);
@@ -303,7 +303,7 @@ Chain shunt_chain() {
 
 Chain series_chain() {
   // Ideal voltage drive (r_source = 0): the netlist's source sits on the input node itself.
-  Chain c{"series-peaked stage into a 50 ohm termination", 0.0, {}};
+  Chain c{"series-peaked stage into a 50 ohm termination", 0.0, {}, std::nullopt};
   c.stages.push_back(make_stage("r1", -1, plain(0.03, 100.0, 40e-15), 50e-15));
   StageCircuit r2 = inductive(LoadKind::series, 0.05, 100.0, 0.45e-9, 6.0, 30e-15);
   r2.r_load = 200.0;
@@ -314,14 +314,14 @@ Chain series_chain() {
 Chain tcoil_ideal_chain() {
   // Battjes' maximally flat design, C = 100 fF at the tap, R = 100 ohm: 2L(1+k) = R^2 C gives
   // L = 375 pH at k = 1/3, Cb = C/8 (docs/physics.md (circuits)): the defective double pole pair.
-  Chain c{"ideal symmetric T-coil, k = 1/3", 0.0, {}};
+  Chain c{"ideal symmetric T-coil, k = 1/3", 0.0, {}, std::nullopt};
   c.stages.push_back(make_stage("t1", -1, tcoil(0.04, 100.0, 375e-12, 375e-12, 1.0 / 3.0, 12.5e-15, 0.0), 40e-15));
   c.stages.push_back(make_stage("t2", 0, plain(0.02, 50.0, 10e-15), 100e-15, 20e-15));
   return finish(c);
 }
 
 Chain tcoil_lossy_chain() {
-  Chain c{"asymmetric lossy T-coil with winding capacitance", 50.0, {}};
+  Chain c{"asymmetric lossy T-coil with winding capacitance", 50.0, {}, std::nullopt};
   StageCircuit t = tcoil(0.04, 100.0, 420e-12, 330e-12, 0.42, 9e-15, 25e-15);
   t.r_l1 = 6.0;
   t.r_l2 = 4.0;
@@ -336,7 +336,7 @@ Chain fan_out_chain() {
   // A T-coil stage feeding a shunt stage (then a series stage, the main output) and a plain
   // monitor stage; the T-coil node is tapped. Ids carry what a netlist must survive: a
   // newline followed by ".end", upper/lower case twins, a SPICE comment character, non-ASCII.
-  Chain c{"fan-out\n.end\nwith a tap", 50.0, {}};
+  Chain c{"fan-out\n.end\nwith a tap", 50.0, {}, std::nullopt};
   StageCircuit t = tcoil(0.04, 100.0, 400e-12, 360e-12, 0.35, 10e-15, 20e-15);
   t.c_w = 2e-15;
   t.r_l1 = 3.0;
@@ -401,7 +401,7 @@ TEST_CASE("ngspice: Battjes' maximally flat T-coil overshoots 100*exp(-pi) % wit
   // sign convention of the K element included. Tolerances: the interpolation (1e-5) and
   // integration (1e-5 of the swing) errors of the comparison above, with a margin of ten.
   constexpr double r = 100.0, c = 100e-15;
-  Chain chain{"Battjes T-coil alone, k = 1/3", 0.0, {}};
+  Chain chain{"Battjes T-coil alone, k = 1/3", 0.0, {}, std::nullopt};
   chain.stages.push_back(make_stage("t", -1, tcoil(0.04, r, 375e-12, 375e-12, 1.0 / 3.0, c / 8.0, 0.0), 0.0, c));
   const auto cmp = check_with_ngspice(finish(chain));
   REQUIRE(cmp.outputs.size() == 1);
@@ -587,7 +587,7 @@ TEST_CASE("ngspice: the netlist's step carries the [signal] input edge the eye m
   // (tau1 - tau). The PWL samples the edge at tau/8 (linear-interpolation error < 0.2 % of the
   // step, derived: h^2/(8 tau^2) = 1/512), so ngspice must agree to 0.3 % of the step.
   test::TempDir dir("peakplan_ngspice_edge");
-  Chain chain{"one plain stage behind an input edge (test)", 0.0, {}};
+  Chain chain{"one plain stage behind an input edge (test)", 0.0, {}, std::nullopt};
   chain.stages.push_back(make_stage("p1", -1, plain(0.04, 100.0, 50e-15), 0.0));  // tau1 = 5 ps
   chain = finish(chain);
   Signal signal;
