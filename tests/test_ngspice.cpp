@@ -23,6 +23,7 @@
 #include <cmath>
 #include <cstdlib>
 #include <filesystem>
+#include <fmt/format.h>
 #include <fstream>
 #include <nlohmann/json.hpp>
 #include <numbers>
@@ -634,3 +635,91 @@ TEST_CASE("ngspice: netlist --prbs drives one PRBS period at the swing's half-ci
 }
 
 }  // namespace peakplan
+
+namespace peakplan {
+namespace {
+
+// ngspice's .noise of the netlist: the input-referred noise current density of a chain driven
+// by a photocurrent (inoise_spectrum, A/rtHz, for the current source Iin) at each frequency.
+// SPICE's controlled sources (the gm cells) and current sources are noiseless, so peakplan is
+// compared with its resistor and coil-loss noise only; ngspice runs at 27 C = 300.15 K.
+std::vector<std::pair<double, double>> ngspice_input_noise(const Chain& chain, const fs::path& dir, double f_lo,
+                                                           double f_hi) {
+  NetlistOptions options;
+  options.precise = true;
+  std::string netlist = write_spice_netlist(chain, options);
+  netlist.erase(netlist.rfind(".end"));
+  // The netlist's .save keeps only the main output, which would leave .noise nothing to record.
+  const auto save = netlist.find("\n.save ");
+  if (save != std::string::npos) netlist.erase(save + 1, netlist.find('\n', save + 1) - save);
+  const std::string out = stage_output_node(chain, chain.outputs().back());
+  const std::string data = (dir / "noise.txt").string();
+  netlist += fmt::format(".control\nset wr_singlescale\nset wr_vecnames\nset numdgt=15\nnoise v({}) Iin dec 40 {} {}\n"
+                         "setplot noise1\nwrdata {} inoise_spectrum\nquit\n.endc\n.end\n",
+                         out, spice_number(f_lo), spice_number(f_hi), data);
+  const fs::path file = dir / "noise.cir";
+  std::ofstream(file) << netlist;
+  const int rc = test::run_shell("ngspice -b " + test::shell_quoted(file.string()) + " > " +
+                                 test::shell_quoted((dir / "noise.log").string()) + " 2>&1");
+  if (rc != 0 || !fs::exists(data)) throw std::runtime_error("ngspice .noise failed:\n" + test::read_file(dir / "noise.log"));
+  std::vector<std::pair<double, double>> rows;
+  for (const auto& r : read_wrdata(data)) rows.emplace_back(r.at(0), r.at(1));
+  return rows;
+}
+
+void check_input_noise(Chain chain) {
+  // No shot noise on the SPICE side: the dark current is tested against 2qI in test_tia.cpp.
+  if (chain.photodiode) chain.photodiode->dark_current = 0.0;
+  fill_node_capacitances(chain);
+  test::TempDir dir("peakplan_ngspice_noise");
+  const double bw = analyze_chain(chain).outputs.back().response.frequency.bandwidth_hz;
+  const auto spice = ngspice_input_noise(chain, dir.path, bw / 100.0, bw * 3.0);
+  NoiseOptions options;
+  options.gm_noise = false;
+  options.temperature = 300.15;
+  const ChainNoise model(chain, chain.outputs().back(), options);
+  REQUIRE(spice.size() > 50);
+  double worst = 0.0;
+  for (const auto& [f, density] : spice) {
+    const auto [h, psd] = model.evaluate(f);
+    worst = std::max(worst, std::fabs(density / std::sqrt(psd / std::norm(h)) - 1.0));
+  }
+  MESSAGE("ngspice .noise vs peakplan, chain '" << chain.name << "': worst input-referred density error "
+                                                 << 100.0 * worst << " % over " << spice.size() << " frequencies");
+  // The contract is 1 %; both sides solve the same linear network exactly, and what is left
+  // (1.7e-7) is ngspice's Boltzmann constant (CODATA 2014, 1.38064852e-23) against the exact SI one.
+  CHECK(worst < 0.01);
+}
+
+}  // namespace
+}  // namespace peakplan
+
+TEST_CASE("ngspice .noise: the shipped receiver's input-referred noise current is peakplan's within 1 %") {
+  const std::string path = std::string(PEAKPLAN_SOURCE_DIR) + "/chains/receiver_front_end.toml";
+  peakplan::Diagnostics d(path);
+  const auto chain = peakplan::load_chain_file(path, d);
+  REQUIRE_MESSAGE(chain, d.format());
+  peakplan::check_input_noise(*chain);
+}
+
+TEST_CASE("ngspice .noise: a three-cell TIA with Cf into a lossy shunt stage, within 1 %") {
+  using namespace peakplan;
+  // Invented values: a 3-cell core of gm 30 mS, Rd 250 ohm, Rf 2 kohm with 4 fF across it.
+  StageCircuit tia;
+  tia.kind = LoadKind::tia;
+  tia.gm = 0.03;
+  tia.rd = 250.0;
+  tia.c_out = 8e-15;
+  tia.rf = 2000.0;
+  tia.cf = 4e-15;
+  tia.core_stages = 3;
+  StageCircuit shunt = test::plain_circuit(0.04, 120.0, 12e-15);
+  shunt.kind = LoadKind::shunt;
+  shunt.l = 300e-12;
+  shunt.r_l = 6.0;
+  shunt.r_load = 100.0;
+  Chain chain{"three-cell tia into a shunt stage", 0.0, {}, Photodiode{200e-15, 0.9, 0.0}};
+  chain.stages.push_back(test::make_stage("t", -1, tia, 20e-15));
+  chain.stages.push_back(test::make_stage("s", 0, shunt, 25e-15, 30e-15));
+  check_input_noise(chain);
+}
