@@ -229,6 +229,26 @@ const std::vector<Fault>& faults() {
        {"[technology] inductor_q = 1e-09 is outside the plausible range 0.1 .. 1000"}},
       {"combinations_over_limit.toml", "six stages of any kind (4096 combinations) are reported at the sixth kind", 29, 8,
        {"stage 's6': the candidate kinds and counts open so far make 4096 combinations", "limit of 1024"}},
+      // The receiver front end (docs/chain-format.md, [input.photodiode] and the tia kind).
+      {"tia_not_first.toml", "a tia fed by another stage is an error at its kind", 10, 8,
+       {"stage 't1': a tia stage takes the photocurrent, so it must be the first stage"}},
+      {"photodiode_without_tia.toml", "a photodiode needs a tia first stage", 2, 1,
+       {"[input.photodiode]: a photodiode drives a transimpedance stage"}},
+      {"photodiode_negative_capacitance.toml", "a negative photodiode capacitance is an error", 3, 15,
+       {"[input.photodiode] capacitance must be zero or positive"}},
+      {"responsivity_above_quantum_limit.toml", "1.2 A/W at 850 nm is over the quantum limit 0.686 A/W", 4, 16,
+       {"above the quantum limit", "0.6856 A/W"}},
+      {"tia_without_rf.toml", "a tia stage without rf names the key", 2, 1, {"a tia stage needs rf"}},
+      {"tia_core_stages_fraction.toml", "core_stages = 2.5 is not a whole number of cells", 8, 15,
+       {"core_stages must be a whole number 1 .. 5"}},
+      {"tia_with_r_source.toml", "r_source with a tia is an error at r_source", 3, 12,
+       {"[input] r_source: the chain starts with a tia"}},
+      {"tia_with_swing.toml", "a voltage swing into a tia chain is an error at swing", 4, 9,
+       {"[signal] swing is an input voltage"}},
+      {"tia_with_tail_current.toml", "a tia with a tail current is an error at the key", 8, 16,
+       {"tail_current belongs to a limiting stage"}},
+      {"extinction_ratio_zero.toml", "an extinction ratio of 0 dB is no signal", 8, 20,
+       {"[signal] extinction_ratio must be above 0 dB"}},
   };
   return table;
 }
