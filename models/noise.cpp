@@ -1,5 +1,6 @@
 #include "models/noise.hpp"
 
+#include <algorithm>
 #include <cmath>
 #include <limits>
 #include <numbers>
@@ -133,8 +134,8 @@ std::vector<NoisePoint> noise_spectrum(const ChainNoise& noise, const FrequencyG
   return out;
 }
 
-double integrate_psd(const std::function<double(double)>& psd, double f_lo, double f_hi) {
-  constexpr int kPerDecade = 160;  // even, for Simpson's pairs
+double integrate_psd(const std::function<double(double)>& psd, double f_lo, double f_hi, int per_decade) {
+  const int kPerDecade = std::max(2, per_decade);
   const double u_lo = std::log(f_lo), u_hi = std::log(f_hi);
   int intervals = static_cast<int>(std::ceil((u_hi - u_lo) / std::log(10.0) * kPerDecade));
   intervals += intervals % 2;
@@ -168,22 +169,37 @@ double noise_bandwidth(const Cascade& cascade) {
       [&](double f) { return std::norm(cascade.evaluate({0.0, kTwoPi * f}) / h0); }, f_lo, f_hi);
 }
 
-NoiseSummary summarise_noise(const ChainNoise& noise) {
-  NoiseSummary r;
+namespace {
+
+// The integrated output PSD with the receiver's first-order limit, over a span that grows (up to
+// six decades) while the PSD still falls too slowly at its end; returns it and the span's end.
+std::pair<double, double> integrated_output_psd(const ChainNoise& noise, int per_decade) {
   auto [f_lo, f_hi] = natural_span(noise.cascade(), 3.0);
-  // A generator may see a mode the signal path cancels; if the PSD still falls slowly at the
-  // end of the span, the span grows (up to six decades) before the tail is trusted.
   const double fr = noise.options().receiver_bandwidth_hz;
   const auto psd = [&](double f) {
     const double psd_out = noise.output_psd(f);
     return fr > 0.0 ? psd_out / (1.0 + (f / fr) * (f / fr)) : psd_out;
   };
-  r.receiver_bandwidth_hz = fr;
-  double total = integrate_psd(psd, f_lo, f_hi);
+  double total = integrate_psd(psd, f_lo, f_hi, per_decade);
   for (int extra = 0; extra < 6 && !std::isfinite(total); ++extra) {
     f_hi *= 10.0;
-    total = integrate_psd(psd, f_lo, f_hi);
+    total = integrate_psd(psd, f_lo, f_hi, per_decade);
   }
+  return {total, f_hi};
+}
+
+}  // namespace
+
+double output_rms_noise(const ChainNoise& noise, int per_decade) {
+  return std::sqrt(integrated_output_psd(noise, per_decade).first);
+}
+
+NoiseSummary summarise_noise(const ChainNoise& noise) {
+  NoiseSummary r;
+  // A generator may see a mode the signal path cancels; if the PSD still falls slowly at the
+  // end of the span, the span grows before the tail is trusted (integrated_output_psd).
+  r.receiver_bandwidth_hz = noise.options().receiver_bandwidth_hz;
+  const auto [total, f_hi] = integrated_output_psd(noise, 160);
   r.output_rms_v = std::sqrt(total);
   r.differential_rms_v = std::sqrt(2.0) * r.output_rms_v;
   r.integration_limit_hz = f_hi;

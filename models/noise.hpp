@@ -103,7 +103,11 @@ NoiseSummary summarise_noise(const ChainNoise& noise);
 // as fast as 1/f^1.5 above f_hi: a constant below f_lo, Simpson's rule in ln f from f_lo to f_hi
 // (160 points per decade), and beyond f_hi the power-law tail its log-log slope there implies,
 // S(f_hi) f_hi / (-slope - 1). Returns +inf when the PSD does not fall fast enough at f_hi.
-double integrate_psd(const std::function<double(double)>& psd, double f_lo, double f_hi);
+double integrate_psd(const std::function<double(double)>& psd, double f_lo, double f_hi, int per_decade = 160);
+
+// The output rms noise alone, V (summarise_noise's output_rms_v without the noise bandwidth), at
+// `per_decade` integration points: what a planner's search needs, many times over.
+double output_rms_noise(const ChainNoise& noise, int per_decade = 160);
 
 // Integral of |H(j 2 pi f)/H(0)|^2 over f in (0, inf), Hz, over the cascade's natural span
 // (3 decades beyond every pole and zero); +inf for a biproper cascade (a direct path).

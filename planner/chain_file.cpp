@@ -26,7 +26,8 @@ const Keys kInputKeys{"r_source", "noise_density", "photodiode"};
 const Keys kPhotodiodeKeys{"capacitance", "responsivity", "dark_current", "wavelength"};
 const Keys kSignalKeys{"bit_rate", "modulation", "pattern", "input_rise", "swing", "target_ber", "receiver_bandwidth",
                           "extinction_ratio"};
-const Keys kTargetKeys{"gain", "bandwidth", "gain_bandwidth", "objective", "plan_for"};
+const Keys kTargetKeys{"gain", "bandwidth", "gain_bandwidth", "objective", "plan_for", "transimpedance",
+                       "sensitivity"};
 const Keys kLimitsKeys{"overshoot", "peaking", "group_delay_ripple", "ripple_band", "sag", "min_stage_gain"};
 const Keys kTechnologyKeys{"ft", "c_out_ratio", "inductor_q", "max_inductance", "k_range",
                            "min_cb", "max_gm", "gm_over_id", "current_budget", "gamma",
@@ -36,7 +37,7 @@ const Keys kStageKeys{"id", "kind", "gm", "rd", "c_in", "c_out", "c_load", "r_lo
 const Keys kPairs{"bipolar", "mos"};
 const Keys kModulations{"nrz", "pam4"};
 const Keys kPatterns{"prbs7", "prbs9", "prbs13", "prbs13q", "prbs15", "prbs23", "prbs31"};
-const Keys kObjectives{"flattest", "widest", "leanest"};
+const Keys kObjectives{"flattest", "widest", "leanest", "quietest"};
 const Keys kResponses{"butterworth", "bessel", "critical"};
 
 Dimension stage_key_dimension(std::string_view key) {
@@ -325,7 +326,18 @@ void read_target(Reader& reader, const toml::table& root, ChainSpec& spec) {
   const auto* t = sub_table(reader, root, "target");
   if (!t) return;
   reader.check_keys(*t, kTargetKeys, "[target]: ");
-  if (const auto* n = t->get("gain")) spec.target.gain_db = reader.quantity(*n, Dimension::decibels, "[target] gain");
+  if (const auto* n = t->get("gain")) {
+    spec.target.gain_where = position(n->source());
+    spec.target.gain_db = reader.quantity(*n, Dimension::decibels, "[target] gain");
+  }
+  if (const auto* n = t->get("transimpedance")) {
+    spec.target.transimpedance_where = position(n->source());
+    spec.target.transimpedance = reader.bounded(*n, Dimension::resistance, "[target] transimpedance", true);
+  }
+  if (const auto* n = t->get("sensitivity")) {
+    spec.target.sensitivity_where = position(n->source());
+    spec.target.sensitivity_w = reader.bounded(*n, Dimension::power, "[target] sensitivity", true);
+  }
   if (const auto* n = t->get("bandwidth"))
     spec.target.bandwidth = reader.bounded(*n, Dimension::frequency, "[target] bandwidth", true);
   if (const auto* n = t->get("gain_bandwidth")) {
@@ -333,8 +345,10 @@ void read_target(Reader& reader, const toml::table& root, ChainSpec& spec) {
     if (t->get("bandwidth"))
       reader.error(*n, "[target]: give bandwidth or gain_bandwidth, not both");
   }
-  if (const auto* n = t->get("objective"))
+  if (const auto* n = t->get("objective")) {
+    spec.target.objective_where = position(n->source());
     if (auto w = reader.word(*n, kObjectives, "[target] objective")) spec.target.objective = *w;
+  }
   if (const auto* n = t->get("plan_for")) {  // docs/physics.md (process variation)
     spec.target.plan_for_where = position(n->source());
     if (auto w = reader.word(*n, {"nominal", "corners"}, "[target] plan_for")) spec.target.plan_for = *w;

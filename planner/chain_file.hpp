@@ -56,6 +56,14 @@ struct TechnologySpec {
 
 struct TargetSpec {
   std::optional<double> gain_db;         // a minimum
+  SourcePosition gain_where;
+  // A chain driven by a photocurrent (a tia first): the least transimpedance, ohm, and the
+  // largest average optical power the receiver may need at the target BER (its sensitivity), W.
+  std::optional<double> transimpedance;
+  SourcePosition transimpedance_where;
+  std::optional<double> sensitivity_w;
+  SourcePosition sensitivity_where;
+  SourcePosition objective_where;
   std::optional<double> bandwidth;       // Hz, a minimum
   std::optional<double> gain_bandwidth;  // Hz
   std::string objective = "flattest";

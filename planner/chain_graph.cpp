@@ -237,7 +237,22 @@ void check_current_input(const ChainSpec& spec, const std::vector<GraphStage>& g
   if (spec.photodiode && !current_input)
     diagnostics.error(spec.photodiode->where, "[input.photodiode]: a photodiode drives a transimpedance stage; make "
                                               "the first stage kind = \"tia\"");
-  if (!current_input) return;
+  const auto& target = spec.target;
+  if (!current_input) {
+    const std::string needs = " is a receiver's target: the chain must start with a tia stage (and a photodiode)";
+    if (target.transimpedance) diagnostics.error(target.transimpedance_where, "[target] transimpedance" + needs);
+    if (target.sensitivity_w) diagnostics.error(target.sensitivity_where, "[target] sensitivity" + needs);
+    if (target.objective == "quietest")
+      diagnostics.error(target.objective_where, "[target] objective \"quietest\" (the least input-referred noise "
+                                                "current)" + needs);
+    return;
+  }
+  if (target.gain_db)
+    diagnostics.error(target.gain_where, "[target] gain is a voltage gain; a chain driven by a photocurrent has a "
+                                         "transimpedance: give [target] transimpedance (e.g. \"5 kohm\") instead");
+  if (target.sensitivity_w && (!spec.photodiode || !spec.signal))
+    diagnostics.error(target.sensitivity_where, "[target] sensitivity needs [input.photodiode] (its responsivity) and "
+                                                "a [signal] (the bit rate, modulation and target BER)");
   if (spec.r_source > 0.0)
     diagnostics.error(spec.r_source_where, "[input] r_source: the chain starts with a tia, which takes a current; "
                                            "leave r_source out (the photodiode is the source)");

@@ -39,9 +39,11 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
     if (s.extinction_ratio_db) out += "extinction_ratio = " + toml_decibels(*s.extinction_ratio_db) + "\n";
   }
   const auto& t = spec.target;
-  if (t.gain_db || t.bandwidth || t.gain_bandwidth) {
+  if (t.gain_db || t.bandwidth || t.gain_bandwidth || t.transimpedance || t.sensitivity_w) {
     out += "\n[target]\n";
     if (t.gain_db) out += "gain = " + toml_decibels(*t.gain_db) + "\n";
+    if (t.transimpedance) out += number_line("transimpedance", *t.transimpedance, "ohm");
+    if (t.sensitivity_w) out += number_line("sensitivity", *t.sensitivity_w, "W");
     if (t.bandwidth) out += number_line("bandwidth", *t.bandwidth, "Hz");
     if (t.gain_bandwidth) out += number_line("gain_bandwidth", *t.gain_bandwidth, "Hz");
     out += "objective = " + toml_basic_string(t.objective) + "\n";

@@ -5,6 +5,7 @@
 #include <limits>
 #include <numbers>
 
+#include "models/noise.hpp"
 #include "models/parallel.hpp"
 #include "models/peaking_design.hpp"
 #include "models/units.hpp"
@@ -50,6 +51,14 @@ std::vector<const LoadParameter*> plannable_elements(LoadKind kind) {
 // frequency, so a notch or a sharp peak is caught at any density; the low side must still reach
 // far, because a barely peaking response has its faint maximum far below its roots.
 ScanResolution search_scan() { return {2.0, 30}; }
+
+}  // namespace
+
+bool needs_input_noise(const ChainSpec& spec) {
+  return spec.target.sensitivity_w.has_value() || spec.target.objective == "quietest";
+}
+
+namespace {
 
 bool needs_step(const ChainSpec& spec) {
   return spec.limits.overshoot.has_value() || spec.target.objective == "flattest";
@@ -206,6 +215,7 @@ Evaluation Problem::evaluate(const std::vector<double>& u, Fidelity fidelity) co
     w.f.sag_db = std::min(w.f.sag_db, e.f.sag_db);
     w.t.overshoot_pct = std::max(w.t.overshoot_pct, e.t.overshoot_pct);
     w.min_stage_gain_db = std::min(w.min_stage_gain_db, e.min_stage_gain_db);
+    w.input_noise_rms_a = std::max(w.input_noise_rms_a, e.input_noise_rms_a);
   }
   return w;
 }
@@ -234,6 +244,15 @@ Evaluation Problem::measure(const Chain& chain, Fidelity fidelity) const {
     e.t = step_metrics(step_response(cascade, axis));
   }
   for (const auto& s : chain.stages) e.total_gm += s.circuit.gm;
+  if (needs_input_noise(spec_) && chain.current_input()) {
+    NoiseOptions noise;
+    noise.temperature = spec_.technology.temperature;
+    noise.gamma = spec_.technology.gamma;
+    const ChainNoise model(chain, chain.outputs().back(), noise);
+    // The search's coarser integration (40 points a decade, Simpson in ln f) moves the rms by
+    // far less than its margins; the final measurement uses the analysis's 160.
+    e.input_noise_rms_a = output_rms_noise(model, fidelity == Fidelity::final ? 160 : 40) / std::fabs(model.dc_gain());
+  }
   // The stages are the cascade's last blocks (a source pole, if any, comes first).
   const auto& blocks = cascade.blocks();
   const size_t stages = chain.path_to(chain.outputs().back()).size();

@@ -10,6 +10,7 @@
 // space first and then refines every value in the full space.
 #pragma once
 
+#include <limits>
 #include <optional>
 #include <string>
 #include <vector>
@@ -50,7 +51,13 @@ struct Evaluation {
   StepMetrics t;
   double total_gm = 0.0;  // S, every stage copy counted
   double min_stage_gain_db = 0.0;  // the smallest DC gain of a stage on the main path
+  // The input-referred rms noise current, A, of a chain driven by a photocurrent when a target
+  // or the objective needs it (needs_input_noise); NaN otherwise.
+  double input_noise_rms_a = std::numeric_limits<double>::quiet_NaN();
 };
+
+// Whether a plan must measure the input-referred noise: a sensitivity target or "quietest".
+bool needs_input_noise(const ChainSpec& spec);
 
 class Problem {
  public:

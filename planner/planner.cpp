@@ -7,6 +7,7 @@
 #include <nlopt.hpp>
 #include <random>
 
+#include "models/receiver.hpp"
 #include "models/units.hpp"
 #include "planner/plan_problem.hpp"
 
@@ -37,6 +38,11 @@ std::vector<double> violations(const ChainSpec& spec, const Evaluation& e) {
   const auto& tech = spec.technology;
   if (tech.current_budget && tech.gm_over_id)
     g.push_back(e.total_gm / (*tech.gm_over_id * *tech.current_budget) - 1.0);
+  if (spec.target.transimpedance) g.push_back(1.0 + 2e-5 - std::fabs(e.f.dc_gain) / *spec.target.transimpedance);
+  if (spec.target.sensitivity_w) {  // in dB of optical power, aimed 1e-3 dB inside
+    const double need = sensitivity_power(spec, e.input_noise_rms_a);
+    g.push_back(std::isfinite(need) ? to_dbm(need) - to_dbm(*spec.target.sensitivity_w) + 1e-3 : 10.0);
+  }
   return g;
 }
 
@@ -49,6 +55,7 @@ double objective(const ChainSpec& spec, const Evaluation& e) {
   const auto& name = spec.target.objective;
   if (name == "widest") return -(std::isfinite(e.f.bandwidth_hz) ? e.f.bandwidth_hz / 1e9 : 0.0);
   if (name == "leanest") return e.total_gm * 1e3;
+  if (name == "quietest") return std::isfinite(e.input_noise_rms_a) ? e.input_noise_rms_a * 1e6 : 1e6;  // uA
   // flattest: overshoot and group-delay ripple, each against its limit (or 1 % and 1 ps).
   const double os_scale = spec.limits.overshoot ? std::max(100.0 * *spec.limits.overshoot, 0.1) : 1.0;
   const double gd_scale = spec.limits.group_delay_ripple ? std::max(*spec.limits.group_delay_ripple, 1e-13) : 1e-12;
@@ -260,6 +267,17 @@ std::string plan_message(Plan& plan, bool met, bool nothing_to_choose) {
 
 }  // namespace
 
+double sensitivity_power(const ChainSpec& spec, double input_noise_rms_a) {
+  if (!spec.photodiode || !spec.signal || !(input_noise_rms_a > 0.0) || !std::isfinite(input_noise_rms_a))
+    return std::numeric_limits<double>::quiet_NaN();
+  const auto& s = *spec.signal;
+  const double er = s.extinction_ratio_db ? std::pow(10.0, *s.extinction_ratio_db / 10.0)
+                                          : std::numeric_limits<double>::infinity();
+  return optical_sensitivity(input_noise_rms_a, spec.photodiode->responsivity, q_from_ber(s.target_ber), er,
+                             s.modulation == "pam4" ? Modulation::pam4 : Modulation::nrz)
+      .average_w;
+}
+
 double total_gm(const Chain& chain) {
   double sum = 0.0;
   for (const auto& s : chain.stages) sum += s.circuit.gm;
@@ -267,7 +285,7 @@ double total_gm(const Chain& chain) {
 }
 
 std::vector<PlanCheck> check_targets(const ChainSpec& spec, const FrequencyMetrics& f, const StepMetrics& t,
-                                     std::optional<double> total_gm) {
+                                     std::optional<double> total_gm, std::optional<double> input_noise_rms_a) {
   std::vector<PlanCheck> checks;
   auto minimum = [&](std::string name, std::string unit, double value, double limit) {
     const double v = std::isfinite(value) ? value : 0.0;
@@ -276,7 +294,7 @@ std::vector<PlanCheck> check_targets(const ChainSpec& spec, const FrequencyMetri
   // A limit is met to the resolution the metric is computed at: 1e-4 dB or percentage points
   // (the step response is sampled, its peak refined by a parabola), 1e-9 relative for times.
   auto maximum = [&](std::string name, std::string unit, double value, double limit) {
-    const double slack = unit == "s" || unit == "A" ? 1e-9 * std::fabs(limit) : 1e-4;
+    const double slack = unit == "s" || unit == "A" ? 1e-9 * std::fabs(limit) : 1e-4;  // dB, dBm, %
     checks.push_back({std::move(name), std::move(unit), value, limit, false, limit - value, value <= limit + slack});
   };
   if (spec.target.gain_db) minimum("gain", "dB", to_db(f.dc_gain), *spec.target.gain_db);
@@ -289,10 +307,16 @@ std::vector<PlanCheck> check_targets(const ChainSpec& spec, const FrequencyMetri
     maximum("group_delay_ripple", "s", f.group_delay_ripple_s, *spec.limits.group_delay_ripple);
   // A plan always has a sag limit (plan_chain gives it the default): a response that dips to
   // -2.99 dB and recovers meets the first-crossing bandwidth but is no amplifier.
-  if (spec.limits.sag_db && *spec.limits.sag_db < 3.0) maximum("sag", "dB", -f.sag_db, *spec.limits.sag_db);
+  if (spec.limits.sag_db && *spec.limits.sag_db < 3.0) maximum("sag", "dB", 0.0 - f.sag_db, *spec.limits.sag_db);
   const auto& tech = spec.technology;
   if (total_gm && tech.current_budget && tech.gm_over_id)
     maximum("current", "A", *total_gm / *tech.gm_over_id, *tech.current_budget);
+  if (spec.target.transimpedance) minimum("transimpedance", "ohm", std::fabs(f.dc_gain), *spec.target.transimpedance);
+  if (spec.target.sensitivity_w && input_noise_rms_a) {
+    const double need = sensitivity_power(spec, *input_noise_rms_a);
+    maximum("sensitivity", "dBm", std::isfinite(need) ? to_dbm(need) : std::numeric_limits<double>::infinity(),
+            to_dbm(*spec.target.sensitivity_w));
+  }
   return checks;
 }
 
@@ -300,7 +324,8 @@ namespace {
 
 // The checks of a plan: those of check_targets, and the least stage gain on the main path.
 std::vector<PlanCheck> plan_checks(const ChainSpec& spec, const Evaluation& e) {
-  auto checks = check_targets(spec, e.f, e.t, e.total_gm);
+  auto checks = check_targets(spec, e.f, e.t, e.total_gm,
+                              std::isfinite(e.input_noise_rms_a) ? std::optional(e.input_noise_rms_a) : std::nullopt);
   if (spec.limits.min_stage_gain_db) {
     const double limit = *spec.limits.min_stage_gain_db, v = e.min_stage_gain_db;
     checks.push_back({"min_stage_gain", "dB", v, limit, true, v - limit, v >= limit - 1e-4});

@@ -101,8 +101,13 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan);
 // The checks of `spec`'s targets and limits against an analysed output. `total_gm` (every stage
 // copy of the chain) adds the supply-current check when [technology] gives gm_over_id and a
 // current_budget.
+// `input_noise_rms_a` (a chain driven by a photocurrent) adds the sensitivity check.
 std::vector<PlanCheck> check_targets(const ChainSpec& spec, const FrequencyMetrics& f, const StepMetrics& t,
-                                     std::optional<double> total_gm = std::nullopt);
+                                     std::optional<double> total_gm = std::nullopt,
+                                     std::optional<double> input_noise_rms_a = std::nullopt);
+// The average optical power the receiver needs at the target BER for that input noise
+// (models/receiver.hpp), W; NaN without a photodiode, a signal or a finite noise.
+double sensitivity_power(const ChainSpec& spec, double input_noise_rms_a);
 // Sum of gm over every stage of a chain (copies counted), S.
 double total_gm(const Chain& chain);
 
