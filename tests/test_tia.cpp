@@ -7,8 +7,13 @@
 #include <doctest/doctest.h>
 
 #include <cmath>
+#include <limits>
+#include <string>
 
 #include "models/noise.hpp"
+#include "models/receiver.hpp"
+#include "planner/chain_graph.hpp"
+#include "planner/planner.hpp"
 #include "test_support.hpp"
 
 using namespace peakplan;
@@ -154,4 +159,57 @@ TEST_CASE("tia: the photodiode's capacitance sits on the input node beside c_in"
   CHECK(with_pd.current_input());
   // The chain's cascade is the stage alone: no source network with a current input.
   CHECK(output_cascade(with_pd, 0).blocks().size() == 1);
+}
+
+TEST_CASE("sensitivity: OMA and average power from Q, the noise current, responsivity and ER (hand computation)") {
+  // Hand computation: i_n = 1.5 uA rms, R = 0.8 A/W, BER 1e-12 so Q = 7.0345 (erfc table;
+  // common practice quotes 7.03). NRZ: OMA = 2 Q i_n / R = 2 x 7.0345 x 1.5e-6 / 0.8 = 26.38 uW
+  // (-15.79 dBm); ideal ER: P_avg = OMA/2 = 13.19 uW (-18.80 dBm); ER = 10 (10 dB):
+  // P_avg = OMA/2 x 11/9 = 16.12 uW (-17.93 dBm). PAM4: three eyes of OMA/3 each, OMA x 3.
+  const double q = q_from_ber(1e-12);
+  CHECK(q == doctest::Approx(7.0345).epsilon(1e-4));
+  const auto ideal = optical_sensitivity(1.5e-6, 0.8, q, std::numeric_limits<double>::infinity(), Modulation::nrz);
+  CHECK(ideal.oma_w == doctest::Approx(26.379e-6).epsilon(1e-4));
+  CHECK(to_dbm(ideal.oma_w) == doctest::Approx(-15.787).epsilon(1e-4));
+  CHECK(ideal.average_w == doctest::Approx(13.190e-6).epsilon(1e-4));
+  const auto er10 = optical_sensitivity(1.5e-6, 0.8, q, 10.0, Modulation::nrz);
+  CHECK(er10.average_w == doctest::Approx(16.121e-6).epsilon(1e-4));
+  CHECK(to_dbm(er10.average_w) == doctest::Approx(-17.926).epsilon(1e-4));
+  const auto pam4 = optical_sensitivity(1.5e-6, 0.8, q, 10.0, Modulation::pam4);
+  CHECK(pam4.oma_w == doctest::Approx(3.0 * er10.oma_w).epsilon(1e-12));
+  CHECK_THROWS(optical_sensitivity(1.5e-6, 0.8, q, 1.0, Modulation::nrz));  // ER = 1: no signal
+}
+
+TEST_CASE("receiver plan: Rf, the core and two post-amplifier stages open; the written plan re-analysed meets "
+          "transimpedance, sensitivity and every limit") {
+  const std::string path = std::string(PEAKPLAN_SOURCE_DIR) + "/chains/plan_optical_receiver.toml";
+  Diagnostics d(path);
+  const auto spec = load_chain_spec(path, d);
+  REQUIRE_MESSAGE(spec, d.format());
+  const auto plan = plan_chain(*spec, d);
+  REQUIRE_MESSAGE(plan, d.format());
+  CHECK(plan->termination == Plan::Termination::met);
+  Diagnostics rd("written.toml");
+  const auto written = parse_chain_spec(planned_chain_toml(*spec, *plan), rd);
+  REQUIRE_MESSAGE(written, rd.format());
+  const auto chain = resolve_chain(*written, rd);
+  REQUIRE(chain);
+  const auto analysis = analyze_chain(*chain, analysis_options(*written));
+  const auto& main = analysis.outputs.back();
+  REQUIRE(main.receiver);
+  REQUIRE(main.receiver->sensitivity);
+  // The receiver's own figures agree with each other (definitions in models/receiver.hpp).
+  CHECK(main.receiver->input_rms_a ==
+        doctest::Approx(main.eye->noise.output_rms_v / main.receiver->transimpedance_ohm).epsilon(1e-12));
+  CHECK(main.receiver->transimpedance_ohm == doctest::Approx(std::fabs(main.response.frequency.dc_gain)).epsilon(1e-12));
+  bool sensitivity_checked = false;
+  for (const auto& c : check_targets(*spec, main.response.frequency, main.response.step, total_gm(*chain),
+                                     main.receiver->input_rms_a)) {
+    CAPTURE(c.name);
+    CHECK(c.met);
+    sensitivity_checked |= c.name == "sensitivity";
+  }
+  CHECK(sensitivity_checked);
+  CHECK(to_dbm(main.receiver->sensitivity->average_w) <= -15.0);
+  CHECK(main.receiver->transimpedance_ohm >= 5e3);
 }
