@@ -1,6 +1,8 @@
 // How long a plan takes: six stages of mixed kinds with every value left to the planner.
 #include <benchmark/benchmark.h>
 
+#include <string>
+
 #include "planner/plan_problem.hpp"
 #include "planner/planner.hpp"
 #include "../six_open_stages.hpp"
@@ -38,6 +40,23 @@ void evaluate_candidate(benchmark::State& state) {
   state.SetLabel(state.range(0) ? "final" : "search");
 }
 BENCHMARK(evaluate_candidate)->Arg(0)->Arg(1)->Unit(benchmark::kMicrosecond);
+
+// The shipped receiver plan: a tia's Rf and core cell and two post-amplifier stages open, for
+// the least input-referred noise under transimpedance, sensitivity and shape limits.
+void plan_optical_receiver(benchmark::State& state) {
+  const std::string path = std::string(PEAKPLAN_SOURCE_DIR) + "/chains/plan_optical_receiver.toml";
+  peakplan::Diagnostics d(path);
+  const auto spec = peakplan::load_chain_spec(path, d);
+  int evaluations = 0;
+  for (auto _ : state) {
+    peakplan::Diagnostics pd(path);
+    const auto plan = peakplan::plan_chain(*spec, pd);
+    evaluations = plan->evaluations;
+    state.counters["met"] = plan->termination == peakplan::Plan::Termination::met ? 1 : 0;
+  }
+  state.counters["evaluations"] = evaluations;
+}
+BENCHMARK(plan_optical_receiver)->Unit(benchmark::kMillisecond)->Iterations(3);
 
 }  // namespace
 
