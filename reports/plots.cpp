@@ -413,6 +413,40 @@ PlotFile pole_zero_plot(const Chain& chain, const ChainAnalysis& analysis) {
   return {"pole_zero.svg", "Poles and zeros of the cascade to the main output", chart.render()};
 }
 
+// A receiver's input-referred noise current density against frequency (models/receiver.hpp), with
+// its average over the noise bandwidth: what the sensitivity is computed from.
+PlotFile input_noise_plot(const Chain& chain, const ChainAnalysis& analysis) {
+  const auto& main = analysis.outputs.back();
+  const auto& r = *main.receiver;
+  std::vector<double> f, density;
+  double lo = kInf, hi = 0.0;
+  for (const auto& p : r.spectrum) {
+    if (!std::isfinite(p.input_density) || !(p.input_density > 0.0)) continue;
+    // Drawn in pA/rtHz, the unit densities are quoted in, so that tick labels stay short.
+    f.push_back(p.frequency_hz);
+    density.push_back(p.input_density * 1e12);
+    lo = std::min(lo, density.back());
+    hi = std::max(hi, density.back());
+  }
+  const double average = r.input_density_avg * 1e12;
+  if (!(hi > lo)) hi = lo * 10.0;
+  // Up to two decades above the average at most: far above the bandwidth the density rises with
+  // f (the input capacitance's share), which matters only where the chain has rolled off.
+  const double top = std::min(hi * 1.5, std::max(average, lo) * 100.0);
+  Chart chart("input_noise", "Input-referred noise current density",
+              fmt::format("{}: {} rms over {} (noise bandwidth), average {}", chain.name, engineering(r.input_rms_a, "A"),
+                          engineering(r.noise_bandwidth_hz, "Hz"), engineering(r.input_density_avg, "A/rtHz")),
+              AxisSpec{"Frequency", kHz, Scale::log, f.front(), f.back()},
+              AxisSpec{"Noise current density (pA/rtHz)", kPlain, Scale::log, lo / 1.5, top});
+  chart.line(f, density, stroke(svg::theme::series_colour(0), 2.0), "referred to the photocurrent");
+  chart.segment(-kInf, average, kInf, average, stroke("#b58a2a", 1.2, "4 3"));
+  chart.text(f.front(), average, fmt::format("average {}", engineering(r.input_density_avg, "A/rtHz")),
+             text_style(TextStyle::Anchor::start, "#8a6412", 6.0, -6.0, true));
+  const double bw = main.response.frequency.bandwidth_hz;
+  if (std::isfinite(bw)) chart.segment(bw, -kInf, bw, kInf, stroke(svg::theme::frame, 1.0, "2 3"));
+  return {"input_noise.svg", "Input-referred noise current density of the receiver", chart.render()};
+}
+
 }  // namespace
 
 std::vector<PlotFile> chain_plots(const Chain& chain, const ChainAnalysis& analysis) {
@@ -428,6 +462,8 @@ std::vector<PlotFile> chain_plots(const Chain& chain, const ChainAnalysis& analy
   const auto& eye = analysis.outputs.back().eye;
   if (eye && eye->traces && !eye->traces->traces.empty()) plots.push_back(eye_plot(chain, analysis));
   plots.push_back(pole_zero_plot(chain, analysis));
+  if (analysis.outputs.back().receiver && !analysis.outputs.back().receiver->spectrum.empty())
+    plots.push_back(input_noise_plot(chain, analysis));
   return plots;
 }
 

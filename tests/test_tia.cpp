@@ -6,6 +6,7 @@
 // memory), and the noise of Rf and of a dark current.
 #include <doctest/doctest.h>
 
+#include <algorithm>
 #include <cmath>
 #include <limits>
 #include <string>
@@ -14,6 +15,8 @@
 #include "models/receiver.hpp"
 #include "planner/chain_graph.hpp"
 #include "planner/planner.hpp"
+#include "reports/plots.hpp"
+#include "reports/svg_chart.hpp"
 #include "test_support.hpp"
 
 using namespace peakplan;
@@ -212,4 +215,29 @@ TEST_CASE("receiver plan: Rf, the core and two post-amplifier stages open; the w
   CHECK(sensitivity_checked);
   CHECK(to_dbm(main.receiver->sensitivity->average_w) <= -15.0);
   CHECK(main.receiver->transimpedance_ohm >= 5e3);
+}
+
+TEST_CASE("report: a receiver chain's plots add the input noise density with its average; others do not") {
+  const std::string path = std::string(PEAKPLAN_SOURCE_DIR) + "/chains/receiver_front_end.toml";
+  Diagnostics d(path);
+  const auto spec = load_chain_spec(path, d);
+  REQUIRE(spec);
+  const auto chain = resolve_chain(*spec, d);
+  REQUIRE(chain);
+  const auto analysis = analyze_chain(*chain, analysis_options(*spec));
+  const auto plots = chain_plots(*chain, analysis);
+  const auto noise = std::find_if(plots.begin(), plots.end(), [](const PlotFile& p) { return p.name == "input_noise.svg"; });
+  REQUIRE(noise != plots.end());
+  const auto& r = *analysis.outputs.back().receiver;
+  // The average drawn is the analysis's own figure, in the subtitle and on its line's label.
+  const std::string average = svg::engineering(r.input_density_avg, "A/rtHz");
+  CHECK(noise->svg.find("average " + average) != std::string::npos);
+  CHECK(r.spectrum.size() == static_cast<size_t>(analysis_options(*spec).points));
+  // A voltage-driven chain has no receiver section and no such plot.
+  Diagnostics dd("demo");
+  const auto demo = load_chain_file(std::string(PEAKPLAN_SOURCE_DIR) + "/chains/demo_postamp.toml", dd);
+  REQUIRE(demo);
+  const auto demo_analysis = analyze_chain(*demo);
+  CHECK_FALSE(demo_analysis.outputs.back().receiver);
+  for (const auto& p : chain_plots(*demo, demo_analysis)) CHECK(p.name != "input_noise.svg");
 }
