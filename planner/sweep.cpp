@@ -229,6 +229,9 @@ void fill_metrics(SweepRow& row, const Chain& chain, const ChainSpec& spec) {
   if (main.eye) row.eye_height = main.eye->estimate.prbs.eye.height;
   if (const auto& ls = main.large_signal)
     row.large_signal = SweepRow::LargeSignal{ls->height_v, ls->width_ui, ls->ddj_pp_s, ls->delay_shift_s};
+  if (const auto& rx = main.receiver)
+    row.receiver = SweepRow::Receiver{rx->input_rms_a, rx->sensitivity ? std::optional(to_dbm(rx->sensitivity->average_w))
+                                                                        : std::nullopt};
   if (spec.variation) row.variation = variation_of(spec, chain);
 }
 
@@ -309,6 +312,7 @@ std::optional<SweepResult> run_sweep(const SweepRequest& request, Diagnostics& d
       fill_metrics(row, *chain, *spec);
     }
     result.has_large_signal = result.has_large_signal || row.large_signal.has_value();
+    result.has_receiver = result.has_receiver || row.receiver.has_value();
     result.has_variation = result.has_variation || row.variation.has_value();
     result.rows.push_back(std::move(row));
   }

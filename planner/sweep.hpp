@@ -62,6 +62,13 @@ struct SweepRow {
     double height_v = 0.0, width_ui = 0.0, ddj_pp_s = 0.0, delay_shift_s = 0.0;
   };
   std::optional<LargeSignal> large_signal;
+  // A chain driven by a photocurrent (models/receiver.hpp): its input-referred rms noise current
+  // and, with a photodiode and a signal, the average optical power needed at the target BER.
+  struct Receiver {
+    double input_noise_rms_a = 0.0;
+    std::optional<double> sensitivity_dbm;
+  };
+  std::optional<Receiver> receiver;
   // With [variation] (docs/physics.md (process variation)): each metric above at its worst corner (the lowest
   // gain, bandwidth and eye height, the highest overshoot and ripple) and the Monte Carlo yield of
   // every target and limit together, as `analyze` of the point reports them.
@@ -87,6 +94,7 @@ struct SweepResult {
   std::optional<Plan::Termination> held_plan;
   bool has_signal = false;
   bool has_large_signal = false;  // some row has large_signal
+  bool has_receiver = false;      // some row has receiver
   bool has_variation = false;     // the file has [variation]: every row has variation
   bool log = false;
   std::vector<OpenValue> open;

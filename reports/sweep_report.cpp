@@ -68,6 +68,7 @@ std::string sweep_text(const SweepResult& s) {
   if (s.has_signal) head += fmt::format(" {:>7}", "eye h");
   if (s.has_large_signal)
     head += fmt::format(" {:>10} {:>9} {:>9} {:>11}", "clipped h", "width", "DDJ pp", "delay shift");
+  if (s.has_receiver) head += fmt::format(" {:>12} {:>12}", "in noise rms", "sensitivity");
   if (s.has_variation) {
     head += fmt::format("  {:>10} {:>10} {:>10} {:>10}", "worst gain", "worst bw", "worst os", "worst rip");
     if (s.has_signal) head += fmt::format(" {:>9}", "worst eye");
@@ -90,6 +91,11 @@ std::string sweep_text(const SweepResult& s) {
       else
         line += fmt::format(" {:>10} {:>9} {:>9} {:>11}", "-", "-", "-", "-");
     }
+    if (s.has_receiver) {
+      const auto& rx = r.receiver;
+      line += fmt::format(" {:>12} {:>12}", rx ? shown(rx->input_noise_rms_a, "A") : "-",
+                          rx && rx->sensitivity_dbm ? fmt::format("{:.2f} dBm", *rx->sensitivity_dbm) : "-");
+    }
     if (const auto& v = r.variation) {
       line += fmt::format("  {:>10} {:>10} {:>10} {:>10}", fixed(v->gain_db, "{:.2f} dB"), shown(v->bandwidth_hz, "Hz"),
                           fixed(v->overshoot_pct, "{:.2f} %"), shown(v->group_delay_ripple_s, "s"));
@@ -110,6 +116,7 @@ std::string sweep_csv(const SweepResult& s) {
   std::string out = name_of(s.target, s.key) + ",dc_gain_db,bandwidth_hz,peaking_db,overshoot_pct,group_delay_ripple_s";
   if (s.has_signal) out += ",prbs_height";
   if (s.has_large_signal) out += ",large_signal_height_v,large_signal_width_ui,large_signal_ddj_pp_s,delay_shift_s";
+  if (s.has_receiver) out += ",input_noise_rms_a,sensitivity_dbm";
   if (s.has_variation) {
     out += ",worst_dc_gain_db,worst_bandwidth_hz,worst_overshoot_pct,worst_group_delay_ripple_s";
     if (s.has_signal) out += ",worst_prbs_height";
@@ -130,6 +137,11 @@ std::string sweep_csv(const SweepResult& s) {
                            csv_number(ls->delay_shift_s));
       else
         out += ",,,,";
+    }
+    if (s.has_receiver) {
+      const auto& rx = r.receiver;
+      out += "," + (rx ? csv_number(rx->input_noise_rms_a) : std::string()) + "," +
+             (rx && rx->sensitivity_dbm ? csv_number(*rx->sensitivity_dbm) : std::string());
     }
     if (const auto& v = r.variation) {
       out += fmt::format(",{},{},{},{}", csv_number(v->gain_db), csv_number(v->bandwidth_hz), csv_number(v->overshoot_pct),
@@ -169,6 +181,9 @@ nlohmann::json sweep_json(const SweepResult& s) {
                              {"width_ui", number(ls->width_ui)},
                              {"ddj_pp_s", number(ls->ddj_pp_s)},
                              {"delay_shift_s", number(ls->delay_shift_s)}};
+    if (const auto& rx = r.receiver)
+      row["receiver"] = {{"input_noise_rms_a", number(rx->input_noise_rms_a)},
+                         {"sensitivity_dbm", rx->sensitivity_dbm ? number(*rx->sensitivity_dbm) : nlohmann::json(nullptr)}};
     if (const auto& v = r.variation) {
       nlohmann::json worst{{"dc_gain_db", number(v->gain_db)},
                            {"bandwidth_hz", number(v->bandwidth_hz)},
