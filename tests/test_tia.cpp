@@ -9,8 +9,10 @@
 #include <algorithm>
 #include <cmath>
 #include <limits>
+#include <nlohmann/json.hpp>
 #include <string>
 
+#include "cli_support.hpp"
 #include "models/noise.hpp"
 #include "models/receiver.hpp"
 #include "planner/chain_graph.hpp"
@@ -240,4 +242,20 @@ TEST_CASE("report: a receiver chain's plots add the input noise density with its
   const auto demo_analysis = analyze_chain(*demo);
   CHECK_FALSE(demo_analysis.outputs.back().receiver);
   for (const auto& p : chain_plots(*demo, demo_analysis)) CHECK(p.name != "input_noise.svg");
+}
+
+TEST_CASE("sweep of rf: a larger feedback resistor lowers the input noise and the sensitivity, and narrows the band") {
+  // Common practice (the receiver's central trade): Rf's own noise 4kT/Rf falls as Rf grows, and
+  // the closed-loop bandwidth falls with it (w0^2 ~ 1/Rf, derived above).
+  const auto run = test::run_cli({"sweep", std::string(PEAKPLAN_SOURCE_DIR) + "/chains/receiver_front_end.toml", "--vary",
+                                  "tia.rf=300ohm:900ohm:4", "--format", "json"});
+  REQUIRE_MESSAGE(run.status == 0, run.err);
+  const auto doc = nlohmann::json::parse(run.out);
+  const auto& rows = doc["rows"];
+  REQUIRE(rows.size() == 4);
+  for (size_t i = 1; i < rows.size(); ++i) {
+    CHECK(rows[i]["receiver"]["input_noise_rms_a"].get<double>() < rows[i - 1]["receiver"]["input_noise_rms_a"].get<double>());
+    CHECK(rows[i]["receiver"]["sensitivity_dbm"].get<double>() < rows[i - 1]["receiver"]["sensitivity_dbm"].get<double>());
+    CHECK(rows[i]["bandwidth_hz"].get<double>() < rows[i - 1]["bandwidth_hz"].get<double>());
+  }
 }
