@@ -10,40 +10,16 @@
 #include "models/receiver.hpp"
 #include "models/units.hpp"
 #include "planner/plan_problem.hpp"
+#include "planner/requirements.hpp"
 
 namespace peakplan {
 namespace {
 
-// Constraint values, each <= 0 when met, scaled so that 1 is a large miss. The search aims a
-// little inside every limit, so that the final, finer measurement lands within it too.
+std::optional<double> finite(double x) { return std::isfinite(x) ? std::optional(x) : std::nullopt; }
+
+// The search's constraints (planner/requirements.hpp), from a candidate's evaluation.
 std::vector<double> violations(const ChainSpec& spec, const Evaluation& e) {
-  std::vector<double> g;
-  const double gain_db = to_db(e.f.dc_gain);
-  const double bw = std::isfinite(e.f.bandwidth_hz) ? e.f.bandwidth_hz : 0.0;
-  if (spec.target.gain_db) g.push_back((*spec.target.gain_db + 1e-4 - gain_db) / 3.0);
-  if (spec.target.bandwidth) g.push_back(1.0 + 2e-5 - bw / *spec.target.bandwidth);
-  if (spec.target.gain_bandwidth) g.push_back(1.0 + 2e-5 - std::fabs(e.f.dc_gain) * bw / *spec.target.gain_bandwidth);
-  if (spec.limits.overshoot) g.push_back((e.t.overshoot_pct - 100.0 * *spec.limits.overshoot + 5e-3) / 5.0);
-  if (spec.limits.peaking_db) {
-    const double limit = *spec.limits.peaking_db;  // a 0 dB limit is aimed at exactly: peaking is never below 0
-    g.push_back(e.f.peaking_db - (limit - std::min(1e-4, 0.1 * limit)));
-  }
-  if (spec.limits.group_delay_ripple) {
-    const double limit = *spec.limits.group_delay_ripple;
-    g.push_back((e.f.group_delay_ripple_s - limit * (1.0 - 2e-3)) / std::max(limit, 1e-12));
-  }
-  // sag_db is the dip's level against DC (<= 0); its depth must stay within the limit.
-  if (spec.limits.sag_db && *spec.limits.sag_db < 3.0) g.push_back(-e.f.sag_db - (*spec.limits.sag_db - 1e-3));
-  if (spec.limits.min_stage_gain_db) g.push_back((*spec.limits.min_stage_gain_db + 1e-4 - e.min_stage_gain_db) / 3.0);
-  const auto& tech = spec.technology;
-  if (tech.current_budget && tech.gm_over_id)
-    g.push_back(e.total_gm / (*tech.gm_over_id * *tech.current_budget) - 1.0);
-  if (spec.target.transimpedance) g.push_back(1.0 + 2e-5 - std::fabs(e.f.dc_gain) / *spec.target.transimpedance);
-  if (spec.target.sensitivity_w) {  // in dB of optical power, aimed 1e-3 dB inside
-    const double need = sensitivity_power(spec, e.input_noise_rms_a);
-    g.push_back(std::isfinite(need) ? to_dbm(need) - to_dbm(*spec.target.sensitivity_w) + 1e-3 : 10.0);
-  }
-  return g;
+  return requirement_violations(spec, {e.f, e.t, e.total_gm, finite(e.input_noise_rms_a), e.min_stage_gain_db});
 }
 
 size_t constraint_count(const ChainSpec& spec) {
@@ -286,51 +262,14 @@ double total_gm(const Chain& chain) {
 
 std::vector<PlanCheck> check_targets(const ChainSpec& spec, const FrequencyMetrics& f, const StepMetrics& t,
                                      std::optional<double> total_gm, std::optional<double> input_noise_rms_a) {
-  std::vector<PlanCheck> checks;
-  auto minimum = [&](std::string name, std::string unit, double value, double limit) {
-    const double v = std::isfinite(value) ? value : 0.0;
-    checks.push_back({std::move(name), std::move(unit), v, limit, true, v - limit, v >= limit * (1.0 - 1e-9)});
-  };
-  // A limit is met to the resolution the metric is computed at: 1e-4 dB or percentage points
-  // (the step response is sampled, its peak refined by a parabola), 1e-9 relative for times.
-  auto maximum = [&](std::string name, std::string unit, double value, double limit) {
-    const double slack = unit == "s" || unit == "A" ? 1e-9 * std::fabs(limit) : 1e-4;  // dB, dBm, %
-    checks.push_back({std::move(name), std::move(unit), value, limit, false, limit - value, value <= limit + slack});
-  };
-  if (spec.target.gain_db) minimum("gain", "dB", to_db(f.dc_gain), *spec.target.gain_db);
-  if (spec.target.bandwidth) minimum("bandwidth", "Hz", f.bandwidth_hz, *spec.target.bandwidth);
-  if (spec.target.gain_bandwidth)
-    minimum("gain_bandwidth", "Hz", std::fabs(f.dc_gain) * f.bandwidth_hz, *spec.target.gain_bandwidth);
-  if (spec.limits.overshoot) maximum("overshoot", "%", t.overshoot_pct, 100.0 * *spec.limits.overshoot);
-  if (spec.limits.peaking_db) maximum("peaking", "dB", f.peaking_db, *spec.limits.peaking_db);
-  if (spec.limits.group_delay_ripple)
-    maximum("group_delay_ripple", "s", f.group_delay_ripple_s, *spec.limits.group_delay_ripple);
-  // A plan always has a sag limit (plan_chain gives it the default): a response that dips to
-  // -2.99 dB and recovers meets the first-crossing bandwidth but is no amplifier.
-  if (spec.limits.sag_db && *spec.limits.sag_db < 3.0) maximum("sag", "dB", 0.0 - f.sag_db, *spec.limits.sag_db);
-  const auto& tech = spec.technology;
-  if (total_gm && tech.current_budget && tech.gm_over_id)
-    maximum("current", "A", *total_gm / *tech.gm_over_id, *tech.current_budget);
-  if (spec.target.transimpedance) minimum("transimpedance", "ohm", std::fabs(f.dc_gain), *spec.target.transimpedance);
-  if (spec.target.sensitivity_w && input_noise_rms_a) {
-    const double need = sensitivity_power(spec, *input_noise_rms_a);
-    maximum("sensitivity", "dBm", std::isfinite(need) ? to_dbm(need) : std::numeric_limits<double>::infinity(),
-            to_dbm(*spec.target.sensitivity_w));
-  }
-  return checks;
+  return requirement_checks(spec, {f, t, total_gm, input_noise_rms_a, std::nullopt});
 }
 
 namespace {
 
 // The checks of a plan: those of check_targets, and the least stage gain on the main path.
 std::vector<PlanCheck> plan_checks(const ChainSpec& spec, const Evaluation& e) {
-  auto checks = check_targets(spec, e.f, e.t, e.total_gm,
-                              std::isfinite(e.input_noise_rms_a) ? std::optional(e.input_noise_rms_a) : std::nullopt);
-  if (spec.limits.min_stage_gain_db) {
-    const double limit = *spec.limits.min_stage_gain_db, v = e.min_stage_gain_db;
-    checks.push_back({"min_stage_gain", "dB", v, limit, true, v - limit, v >= limit - 1e-4});
-  }
-  return checks;
+  return requirement_checks(spec, {e.f, e.t, e.total_gm, finite(e.input_noise_rms_a), e.min_stage_gain_db});
 }
 
 }  // namespace
