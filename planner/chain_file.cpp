@@ -27,7 +27,7 @@ const Keys kPhotodiodeKeys{"capacitance", "responsivity", "dark_current", "wavel
 const Keys kSignalKeys{"bit_rate", "modulation", "pattern", "input_rise", "swing", "target_ber", "receiver_bandwidth",
                           "extinction_ratio"};
 const Keys kTargetKeys{"gain", "bandwidth", "gain_bandwidth", "objective", "plan_for", "transimpedance",
-                       "sensitivity"};
+                       "sensitivity", "yield"};
 const Keys kLimitsKeys{"overshoot", "peaking", "group_delay_ripple", "ripple_band", "sag", "min_stage_gain"};
 const Keys kTechnologyKeys{"ft", "c_out_ratio", "inductor_q", "max_inductance", "k_range",
                            "min_cb", "max_gm", "gm_over_id", "current_budget", "gamma",
@@ -351,7 +351,15 @@ void read_target(Reader& reader, const toml::table& root, ChainSpec& spec) {
   }
   if (const auto* n = t->get("plan_for")) {  // docs/physics.md (process variation)
     spec.target.plan_for_where = position(n->source());
-    if (auto w = reader.word(*n, {"nominal", "corners"}, "[target] plan_for")) spec.target.plan_for = *w;
+    if (auto w = reader.word(*n, {"nominal", "corners", "yield"}, "[target] plan_for")) spec.target.plan_for = *w;
+  }
+  if (const auto* n = t->get("yield")) {
+    spec.target.yield_where = position(n->source());
+    const auto v = reader.quantity(*n, Dimension::fraction, "[target] yield");
+    if (v && !(*v > 0.0 && *v < 1.0))
+      reader.error(*n, "[target] yield must be above 0 % and below 100 %, saw " + shown(*n));
+    else if (v)
+      spec.target.yield = *v;
   }
 }
 

@@ -68,7 +68,9 @@ struct TargetSpec {
   std::optional<double> gain_bandwidth;  // Hz
   std::string objective = "flattest";
   std::string plan_for = "nominal";  // or "corners": every check at every [variation] corner
-  SourcePosition plan_for_where;
+  SourcePosition plan_for_where;     // or "yield": at the corners the yield target implies
+  std::optional<double> yield;       // fraction in (0, 1), for plan_for = "yield"
+  SourcePosition yield_where;
 };
 
 struct LimitsSpec {

@@ -48,6 +48,7 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
     if (t.gain_bandwidth) out += number_line("gain_bandwidth", *t.gain_bandwidth, "Hz");
     out += "objective = " + toml_basic_string(t.objective) + "\n";
     if (t.plan_for != "nominal") out += "plan_for = " + toml_basic_string(t.plan_for) + "\n";
+    if (t.yield) out += "yield = " + toml_percent(*t.yield) + "\n";
   }
   const auto& l = spec.limits;
   if (l.overshoot || l.peaking_db || l.group_delay_ripple || l.ripple_band || l.sag_db || l.min_stage_gain_db) {

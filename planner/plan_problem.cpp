@@ -1,6 +1,7 @@
 #include "planner/plan_problem.hpp"
 
 #include <algorithm>
+#include <fmt/format.h>
 #include <cmath>
 #include <limits>
 #include <numbers>
@@ -53,6 +54,23 @@ std::vector<const LoadParameter*> plannable_elements(LoadKind kind) {
 ScanResolution search_scan() { return {2.0, 30}; }
 
 }  // namespace
+
+double yield_corner_scale(const ChainSpec& spec) {
+  if (!spec.variation || !spec.target.yield) return 0.0;
+  int classes = 0;
+  for (auto c : all_variation_classes) classes += spec.variation->variation.spread(c).global > 0.0;
+  if (classes == 0) return 0.0;
+  const double per_class = std::pow(*spec.target.yield, 1.0 / classes);
+  if (spec.variation->variation.distribution == Distribution::uniform) return per_class;
+  // Phi^-1(p) = sqrt(2) erfinv(2p - 1), found by bisection on erf (monotone; 60 halvings).
+  const double p = 0.5 * (1.0 + per_class);
+  double lo = 0.0, hi = 12.0;
+  for (int i = 0; i < 60; ++i) {
+    const double mid = 0.5 * (lo + hi);
+    (0.5 * std::erfc(-mid / std::sqrt(2.0)) < p ? lo : hi) = mid;
+  }
+  return 0.5 * (lo + hi) / 3.0;
+}
 
 bool needs_input_noise(const ChainSpec& spec) {
   return spec.target.sensitivity_w.has_value() || spec.target.objective == "quietest";
@@ -156,6 +174,17 @@ Problem::Problem(const ChainSpec& spec, Combination combo, std::vector<GraphStag
     if (spec.variation->extremes)
       for (auto& c : extreme_corners(spec.variation->variation)) corners_.push_back(std::move(c));
     for (const auto& named : spec.variation->corners) corners_.push_back(named.corner);
+  }
+  if (const double a = yield_corner_scale(spec); spec.target.plan_for == "yield" && a > 0.0) {
+    corner_threads_ = default_thread_count();
+    corners_.push_back(nominal_corner());
+    const bool gaussian = spec.variation->variation.distribution == Distribution::gaussian;
+    const std::string at = gaussian ? fmt::format(" at {:.2f} sigma", 3.0 * a) : fmt::format(" at {:.1f} %", 100.0 * a);
+    for (auto c : extreme_corners(spec.variation->variation)) {
+      for (double& x : c.offset) x *= a;
+      c.name += at;
+      corners_.push_back(std::move(c));
+    }
   }
 }
 

@@ -56,6 +56,15 @@ struct Evaluation {
   double input_noise_rms_a = std::numeric_limits<double>::quiet_NaN();
 };
 
+// plan_for = "yield": the corners are the global extremes scaled by this factor (0 when the spec
+// has no [variation] global spread or no yield). With c classes spread, each drawn independently,
+// a chip whose every global offset lies within +-a of its spread's range holds with probability
+// P^c; asking P^c = yield gives a, the box the plan must hold on (exact for a check monotone in
+// each class, the corner method's assumption; local mismatch is left to the Monte Carlo check):
+// gaussian, a = z/3 with z = Phi^-1((1 + yield^(1/c))/2) (the spread is 3 sigma); uniform,
+// a = yield^(1/c) of the half-width (derived).
+double yield_corner_scale(const ChainSpec& spec);
+
 // Whether a plan must measure the input-referred noise: a sensitivity target or "quietest".
 bool needs_input_noise(const ChainSpec& spec);
 

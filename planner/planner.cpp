@@ -11,6 +11,7 @@
 #include "models/units.hpp"
 #include "planner/plan_problem.hpp"
 #include "planner/requirements.hpp"
+#include "planner/variation_analysis.hpp"
 
 namespace peakplan {
 namespace {
@@ -291,6 +292,16 @@ std::optional<Plan> plan_chain(const ChainSpec& input, Diagnostics& diagnostics,
                                       "by the planner; remove it (or fix gm)");
     }
   }
+  if (spec.target.plan_for == "yield") {
+    if (!spec.target.yield)
+      diagnostics.error(spec.target.plan_for_where, "[target] plan_for = \"yield\" needs [target] yield, e.g. yield = \"99 %\"");
+    if (!spec.variation || yield_corner_scale(spec) == 0.0)
+      diagnostics.error(spec.target.plan_for_where, "[target] plan_for = \"yield\" needs a [variation] table with a "
+                                                    "global spread in at least one class");
+  } else if (spec.target.yield) {
+    diagnostics.error(spec.target.yield_where, "[target] yield is the target of plan_for = \"yield\"; add it, or "
+                                               "remove yield");
+  }
   if (spec.target.plan_for == "corners" && !spec.variation)
     diagnostics.error(spec.target.plan_for_where,
                       "[target] plan_for = \"corners\" needs a [variation] table (spreads with corners = "
@@ -384,13 +395,31 @@ std::optional<Plan> plan_chain(const ChainSpec& input, Diagnostics& diagnostics,
   plan.graph = p.graph();
   for (size_t i = 0; i < spec.stages.size(); ++i)
     plan.stages.push_back({i, p.combination().kinds[i], p.combination().counts[i]});
-  const bool met = all_met(final_result);
+  bool met = all_met(final_result);
   plan.checks = std::move(final_result.worst);
   plan.for_corners = !p.corners().empty();
   if (plan.for_corners) {
     plan.corner_count = static_cast<int>(p.corners().size());
     plan.nominal_checks = std::move(final_result.nominal);
     plan.check_corners = std::move(final_result.corners);
+  }
+  std::string yield_note;
+  if (spec.target.plan_for == "yield" && spec.target.yield) {
+    // The corners stand for the yield; the Monte Carlo run of the plan (locals included) says
+    // whether they did, and is a check of its own.
+    VariationRunOptions run;
+    run.threads = default_thread_count();
+    const auto mc = analyze_variation(spec, plan.chain, run).monte_carlo;
+    if (mc) {
+      const double y = mc->overall_yield, target = *spec.target.yield;
+      plan.checks.push_back({"yield", "%", 100.0 * y, 100.0 * target, true, 100.0 * (y - target), y >= target});
+      plan.check_corners.push_back("Monte Carlo");
+      plan.nominal_checks.push_back(plan.checks.back());
+      met = met && y >= target;
+      yield_note = fmt::format("; Monte Carlo yield {:.2f} % (95 % interval {:.2f} .. {:.2f} %) of {} samples, corners at "
+                               "{:.2f} of each global spread",
+                               100.0 * y, 100.0 * mc->ci95.lo, 100.0 * mc->ci95.hi, mc->samples, yield_corner_scale(spec));
+    }
   }
   plan.objective = objective(spec, final_eval);
   plan.termination = met ? Plan::Termination::met : Plan::Termination::not_met;
@@ -408,6 +437,7 @@ std::optional<Plan> plan_chain(const ChainSpec& input, Diagnostics& diagnostics,
   plan.message = plan_message(plan, met, problems.size() == 1 && p.variables().empty());
   if (plan.for_corners && !plan.checks.empty())
     plan.message += fmt::format(" (planned for {} corners; binding corner: {})", plan.corner_count, plan.binding_corner);
+  plan.message += yield_note;
   // A -3 dB edge far beyond a deep in-band sag meets the letter of a bandwidth target, not its
   // intent; say so rather than let the figure stand alone.
   if (final_eval.f.sag_db < -1.0)
