@@ -49,6 +49,29 @@ void full_analysis(benchmark::State& state) {
 }
 BENCHMARK(full_analysis)->Unit(benchmark::kMillisecond);
 
+// The same chain behind a photodiode and a one-cell tia (the first stage replaced): the tia is
+// one nodal circuit of two nodes, and a current-driven chain adds its noise and receiver figures
+// even without a [signal]. Argument: 0 without a signal, 1 with a 25.78 Gb/s NRZ PRBS7 signal.
+void full_analysis_receiver(benchmark::State& state) {
+  auto chain = six_stage_chain();
+  chain.r_source = 0.0;
+  chain.photodiode = peakplan::Photodiode{150e-15, 0.8, 10e-9};
+  auto& tia = chain.stages.front().circuit;
+  tia.kind = peakplan::LoadKind::tia;
+  tia.rf = 600.0;
+  tia.rd = 200.0;
+  peakplan::fill_node_capacitances(chain);
+  peakplan::AnalysisOptions options;
+  options.points = 2000;
+  if (state.range(0)) {
+    peakplan::Signal signal;
+    signal.bit_rate = 25.78125e9;
+    options.signal = signal;
+  }
+  for (auto _ : state) benchmark::DoNotOptimize(peakplan::analyze_chain(chain, options));
+}
+BENCHMARK(full_analysis_receiver)->Arg(0)->Arg(1)->Unit(benchmark::kMillisecond);
+
 // The same with a 56 Gb/s NRZ PRBS7 eye, its noise and a swing (Q, BER, eye at the BER): what
 // `analyze --json --points 2000` of a six-stage chain with a [signal] does in the process.
 void full_analysis_prbs7(benchmark::State& state) {
