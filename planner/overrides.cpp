@@ -43,6 +43,26 @@ void set_value(toml::table& table, const Override& o) {
   doc->get("v")->visit([&](auto& concrete) { table.insert_or_assign(key, std::move(concrete)); });
 }
 
+// A design and the elements it sets exclude each other in a file; an override of one replaces
+// the other (--set a1.zeta=0.8 on a stage written with response = "bessel", or --set a2.l=...
+// on one written with m), so that sweeping a design or an element just works. Only for a stage
+// of one fixed kind: with candidates the loader's own message is the clearer one.
+void clear_replaced_design(toml::table& stage, std::string_view key) {
+  const auto* kind_node = stage.get("kind");
+  const auto kind = kind_node && kind_node->is_string() ? load_kind_from_name(kind_node->as_string()->get()) : std::nullopt;
+  if (!kind) return;
+  const auto& info = load_kind_info(*kind);
+  const auto* p = find_parameter(info, key);
+  if (!p || info.design == DesignFactor::none) return;
+  for (const auto& q : info.parameters) {
+    if (q.key == key) continue;
+    const bool replaced = p->role == ParameterRole::design ? (q.role == ParameterRole::design || q.role == ParameterRole::element)
+                          : p->role == ParameterRole::element ? q.role == ParameterRole::design
+                                                              : false;
+    if (replaced) stage.erase(q.key);
+  }
+}
+
 std::vector<toml::table*> stage_tables_with_id(toml::table& root, std::string_view id) {
   std::vector<toml::table*> found;
   auto* stages = root.get_as<toml::array>("stage");
@@ -153,7 +173,10 @@ void apply_overrides(toml::table& root, const std::vector<Override>& overrides, 
       continue;
     }
     if (!stages.empty()) {
-      for (auto* table : stages) set_value(*table, o);
+      for (auto* table : stages) {
+        clear_replaced_design(*table, o.key);
+        set_value(*table, o);
+      }
       continue;
     }
     if (std::find(kTables.begin(), kTables.end(), o.target) == kTables.end()) {

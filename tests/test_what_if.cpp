@@ -417,3 +417,24 @@ TEST_CASE("what-if: compare exits 1 and names the side when a side it had to pla
   CHECK(run.out.find("NOT MET") != std::string::npos);  // the comparison is still printed
   CHECK(run_cli({"compare", fixed, fixed}).status == 0);
 }
+
+TEST_CASE("--set of a design replaces the stage's other design and its elements, and an element replaces a design") {
+  using namespace peakplan::test;
+  const std::string demo = std::string(PEAKPLAN_SOURCE_DIR) + "/chains/demo_postamp.toml";
+  // a1 is written with response = "bessel": zeta = 0.866 is the same design (Bessel zeta =
+  // sqrt(3)/2, docs/chain-format.md), so the analysis must not move (to printing precision).
+  const auto bessel = nlohmann::json::parse(run_cli({"analyze", demo, "--json"}).out);
+  const auto zeta = run_cli({"analyze", demo, "--json", "--set", "a1.zeta=0.8660254037844386"});
+  REQUIRE_MESSAGE(zeta.status == 0, zeta.err);
+  const auto z = nlohmann::json::parse(zeta.out);
+  CHECK(z["outputs"].back()["bandwidth_hz"].get<double>() ==
+        doctest::Approx(bessel["outputs"].back()["bandwidth_hz"].get<double>()).epsilon(1e-12));
+  // a2 is written with m = 0.38: an l given on the command line is the inductor analysed.
+  const auto l = run_cli({"analyze", demo, "--json", "--set", "a2.l=150pH"});
+  REQUIRE_MESSAGE(l.status == 0, l.err);
+  CHECK(nlohmann::json::parse(l.out)["stages"][1]["values"]["l"].get<double>() == doctest::Approx(150e-12).epsilon(1e-12));
+  // And a sweep of zeta on that stage runs point by point.
+  const auto sweep = run_cli({"sweep", demo, "--vary", "a1.zeta=0.6:1.0:3", "--format", "json"});
+  REQUIRE_MESSAGE(sweep.status == 0, sweep.err);
+  CHECK(nlohmann::json::parse(sweep.out)["rows"].size() == 3);
+}
