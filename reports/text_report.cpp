@@ -25,6 +25,7 @@ std::string load_elements_text(const StageCircuit& c) {
   };
   for (const auto& p : info.parameters) {
     if (p.role != ParameterRole::element) continue;
+    if (p.omit_when_zero && !(c.*(p.field) > 0.0)) continue;  // an absent optional element (a tia's cf)
     out += (out.empty() ? "" : ", ") + std::string(p.label) + " " + shown(p, c.*(p.field));
     if (const auto* l = loss_of(info, p.key)) out += loss(c.*(l->field));
   }
