@@ -4,6 +4,7 @@
 
 #include "planner/chain_graph.hpp"
 #include "reports/budget.hpp"
+#include "reports/dynamic_range_plot.hpp"
 #include "reports/html_report.hpp"
 #include "reports/json_report.hpp"
 #include "reports/netlist.hpp"
@@ -15,7 +16,8 @@
 namespace peakplan {
 
 std::vector<ReportFile> build_report(const ReportSource& source, const Chain& chain, const ChainAnalysis& analysis,
-                                     const std::optional<ReportPlan>& plan, const VariationResult* variation) {
+                                     const std::optional<ReportPlan>& plan, const VariationResult* variation,
+                                     const SweepResult* dynamic_range) {
   if (!source.spec) throw std::logic_error("build_report: no chain spec");
   if (plan && !plan->plan) throw std::logic_error("build_report: a plan context without a plan");
   const auto& spec = *source.spec;
@@ -51,6 +53,8 @@ std::vector<ReportFile> build_report(const ReportSource& source, const Chain& ch
   auto plots = chain_plots(chain, analysis);
   if (variation)
     for (auto& p : variation_plots(chain.name, *variation)) plots.push_back(std::move(p));
+  if (dynamic_range && spec.signal && spec.signal->swing)
+    for (auto& p : dynamic_range_plots(*dynamic_range, *spec.signal->swing)) plots.push_back(std::move(p));
   for (const auto& p : plots) files.push_back({p.name, p.svg});
 
   HtmlReportInput page;

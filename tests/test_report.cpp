@@ -21,6 +21,7 @@
 
 #include "cli_support.hpp"
 #include "reports/budget.hpp"
+#include "reports/svg_chart.hpp"
 
 using namespace peakplan::test;
 
@@ -593,4 +594,33 @@ TEST_CASE("report: --samples on a chain without [variation] is refused and write
   CHECK(run.status == 2);
   CHECK(run.err.find("--samples") != std::string::npos);
   CHECK(!fs::exists(dir.path / "out"));
+}
+
+// A limiting chain's dynamic range: the report's sweep of the swing passes through the file's
+// own swing (the middle of 21 log-spaced points from swing/10 to swing*10), where the clipped eye
+// height must be the one `analyze --json` gives (the same simulation by another path: analyze of
+// the file against a sweep point written back as an override), to the 3 digits the plot prints.
+TEST_CASE("report: a limiting chain's dynamic-range plot shows analyze's clipped eye height at the file's swing") {
+  const auto chain = kSource / "chains" / "limiting_dynamic_range.toml";
+  TempDir dir("peakplan_report");
+  const auto out = dir.path / "out";
+  const auto run = run_cli({"report", chain.string(), "--out", out.string()});
+  REQUIRE_MESSAGE(run.status == 0, run.err);
+  const auto analyzed = run_cli({"analyze", chain.string(), "--json"});
+  REQUIRE(analyzed.status == 0);
+  const auto doc = nlohmann::json::parse(analyzed.out);
+  const double height = doc["outputs"].back()["large_signal"]["height_v"].get<double>();
+  const double ddj = doc["outputs"].back()["large_signal"]["ddj_pp_s"].get<double>();
+  const auto svg = read_file(out / "dynamic_range.svg");
+  CHECK(svg.find(peakplan::svg::engineering(height, "V") + " at the file&apos;s swing 20 mV") != std::string::npos);
+  CHECK(svg.find("21 points, log-spaced from 2 mV to 200 mV") != std::string::npos);
+  CHECK(read_file(out / "dynamic_range_ddj.svg").find(peakplan::svg::engineering(ddj, "s") + " at the file&apos;s swing") !=
+        std::string::npos);
+  const auto page = read_file(out / "index.html");
+  CHECK(page.find("data-plot=\"dynamic_range\"") != std::string::npos);
+  CHECK(page.find("data-plot=\"dynamic_range_ddj\"") != std::string::npos);
+  // A linear chain (the demo) has no large-signal eye and gets no dynamic-range plot.
+  TempDir demo("peakplan_report");
+  REQUIRE(run_report(kDemo, demo.path / "out").status == 0);
+  CHECK(!fs::exists(demo.path / "out" / "dynamic_range.svg"));
 }

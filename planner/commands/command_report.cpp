@@ -14,7 +14,10 @@
 #include "planner/chain_graph.hpp"
 #include "planner/overrides.hpp"
 #include "planner/planner.hpp"
+#include "planner/sweep.hpp"
+#include "planner/toml_text.hpp"
 #include "planner/variation_analysis.hpp"
+#include "reports/dynamic_range_plot.hpp"
 #include "planner/commands/progress_line.hpp"
 #include <fmt/format.h>
 #include "reports/report_bundle.hpp"
@@ -89,12 +92,31 @@ int run_report(const ReportArgs& args) {
     variation = analyze_variation(*spec, *chain, run);
   }
 
+  // A limiting chain's dynamic range: the file's swing /10 to x10, swept as `sweep --vary
+  // signal.swing=... --log` sweeps it (the planned chain when planned; no [variation] per point).
+  std::optional<SweepResult> dynamic_range;
+  if (analysis.outputs.back().large_signal && spec->signal && spec->signal->swing) {
+    const double swing = *spec->signal->swing;
+    SweepRequest sweep;
+    sweep.chain = args.chain;
+    sweep.chain_text = plan ? planned_chain_toml(*spec, *plan) : *text;
+    sweep.vary = "signal.swing=" + toml_number(swing / kDynamicRangeDecade) + ":" +
+                 toml_number(swing * kDynamicRangeDecade) + ":" + std::to_string(kDynamicRangePoints);
+    sweep.log = true;
+    sweep.variation = false;
+    dynamic_range = run_sweep(sweep, diagnostics);
+    if (!dynamic_range) {
+      std::cerr << diagnostics.format();
+      return bad_input;
+    }
+  }
+
   std::optional<ReportPlan> plan_context;
   if (plan)
     plan_context = ReportPlan{&*plan, before_chain ? &*before_chain : nullptr,
                               before_analysis ? &*before_analysis : nullptr};
   const auto files = build_report({&*spec, diagnostics.file(), *text}, *chain, analysis, plan_context,
-                                  variation ? &*variation : nullptr);
+                                  variation ? &*variation : nullptr, dynamic_range ? &*dynamic_range : nullptr);
 
   const fs::path dir(args.out);
   for (const auto& f : files) {
