@@ -215,7 +215,7 @@ SweepRow::Variation variation_of(const ChainSpec& spec, const Chain& chain) {
   return v;
 }
 
-void fill_metrics(SweepRow& row, const Chain& chain, const ChainSpec& spec) {
+void fill_metrics(SweepRow& row, const Chain& chain, const ChainSpec& spec, bool with_variation) {
   auto options = analysis_options(spec);
   options.keep_waveforms = false;
   const auto analysis = analyze_chain(chain, options);
@@ -232,7 +232,7 @@ void fill_metrics(SweepRow& row, const Chain& chain, const ChainSpec& spec) {
   if (const auto& rx = main.receiver)
     row.receiver = SweepRow::Receiver{rx->input_rms_a, rx->sensitivity ? std::optional(to_dbm(rx->sensitivity->average_w))
                                                                         : std::nullopt};
-  if (spec.variation) row.variation = variation_of(spec, chain);
+  if (spec.variation && with_variation) row.variation = variation_of(spec, chain);
 }
 
 }  // namespace
@@ -240,7 +240,7 @@ void fill_metrics(SweepRow& row, const Chain& chain, const ChainSpec& spec) {
 std::optional<SweepResult> run_sweep(const SweepRequest& request, Diagnostics& diagnostics) {
   const auto sets = parse_overrides(request.sets, diagnostics);
   const auto axis = parse_vary(request.vary, diagnostics);
-  const auto text = read_chain_text(request.chain, diagnostics);
+  const auto text = request.chain_text ? request.chain_text : read_chain_text(request.chain, diagnostics);
   if (!sets || !axis || !text) return std::nullopt;
 
   KeyValue key;
@@ -305,11 +305,11 @@ std::optional<SweepResult> run_sweep(const SweepRequest& request, Diagnostics& d
       if (!plan) return std::nullopt;
       row.status = plan->termination;
       for (const auto& o : result.open) row.chosen.push_back(chosen_value(*spec, *plan, o));
-      fill_metrics(row, plan->chain, *spec);
+      fill_metrics(row, plan->chain, *spec, request.variation);
     } else {
       const auto chain = resolve_chain(*spec, diagnostics);
       if (!chain) return std::nullopt;
-      fill_metrics(row, *chain, *spec);
+      fill_metrics(row, *chain, *spec, request.variation);
     }
     result.has_large_signal = result.has_large_signal || row.large_signal.has_value();
     result.has_receiver = result.has_receiver || row.receiver.has_value();

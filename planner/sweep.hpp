@@ -26,10 +26,14 @@ inline constexpr int kMaxSweepPoints = 1000;  // a bound on the work one command
 
 struct SweepRequest {
   std::string chain;              // the chain file
+  // Its text when the caller holds it already (standard input read once, a planned chain):
+  // `chain` then only names it.
+  std::optional<std::string> chain_text;
   std::vector<std::string> sets;  // --set texts, applied before the varied value
   std::string vary;               // "ID.KEY=START:STOP:N"
   bool replan = false;
   bool log = false;  // geometric spacing
+  bool variation = true;  // false: the rows leave a [variation] table out (no corners, no Monte Carlo)
   PlanOptions plan_options;
 };
 

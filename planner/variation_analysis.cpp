@@ -79,7 +79,7 @@ VariationResult analyze_variation(const ChainSpec& spec, const Chain& nominal, c
     std::vector<double> values;
     values.reserve(samples.size());
     for (const auto& s : samples) values.push_back(m->get(s));
-    summary.stats.push_back({std::string(m->key), metric_stats(std::move(values))});
+    summary.stats.push_back({std::string(m->key), metric_stats(values), std::move(values)});
   }
   for (const auto& s : samples) {
     const auto checks = case_checks(spec, s, gm_total);

@@ -26,6 +26,9 @@ struct CornerResult {
 struct MetricSummary {
   std::string key;  // CaseMetric::key
   MetricStats stats;
+  // Every sample's value in sample order (NaN where the metric does not exist), so a report can
+  // draw the distribution; gathered by index, so it is the same for every thread count.
+  std::vector<double> values;
 };
 
 struct CheckYield {

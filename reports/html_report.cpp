@@ -238,6 +238,12 @@ std::string html_report(const HtmlReportInput& in) {
     out += "</div>\n</section>\n";
   }
 
+  if (!in.variation.empty()) {
+    out += "<section id=\"variation-section\">\n<h2>Process variation</h2>\n";
+    for (const auto& t : in.variation) out += table_html(t, false);
+    out += "</section>\n";
+  }
+
   if (!in.plots.empty()) {
     out += "<section id=\"plots\">\n<h2>Plots</h2>\n<div class=\"plots\">\n";
     for (const auto& p : in.plots) {

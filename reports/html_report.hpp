@@ -31,6 +31,7 @@ struct HtmlReportInput {
   std::string chain_file_name;  // as the user gave it
   std::string chain_file_text;
   std::optional<HtmlPlanStatus> plan;
+  std::vector<TableView> variation;  // corner and yield tables of a [variation] run; empty: none
 };
 
 // & < > " ' as character references; everything else (UTF-8 included) passes through.

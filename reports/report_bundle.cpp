@@ -4,16 +4,20 @@
 
 #include "planner/chain_graph.hpp"
 #include "reports/budget.hpp"
+#include "reports/dynamic_range_plot.hpp"
 #include "reports/html_report.hpp"
 #include "reports/json_report.hpp"
 #include "reports/netlist.hpp"
 #include "reports/plan_report.hpp"
 #include "reports/plots.hpp"
+#include "reports/variation_report.hpp"
+#include "reports/variation_views.hpp"
 
 namespace peakplan {
 
 std::vector<ReportFile> build_report(const ReportSource& source, const Chain& chain, const ChainAnalysis& analysis,
-                                     const std::optional<ReportPlan>& plan) {
+                                     const std::optional<ReportPlan>& plan, const VariationResult* variation,
+                                     const SweepResult* dynamic_range) {
   if (!source.spec) throw std::logic_error("build_report: no chain spec");
   if (plan && !plan->plan) throw std::logic_error("build_report: a plan context without a plan");
   const auto& spec = *source.spec;
@@ -31,14 +35,26 @@ std::vector<ReportFile> build_report(const ReportSource& source, const Chain& ch
                 tables_markdown(status->tables);
   }
 
+  std::vector<TableView> variation_tables;
+  if (variation) {
+    variation_tables = variation_views(*variation);
+    markdown += tables_markdown(variation_tables);
+  }
+
   std::vector<ReportFile> files;
   files.push_back({"budget.md", std::move(markdown)});
   files.push_back({"budget.csv", budget_csv(budget)});
-  const auto json = plan ? plan_json(spec, *plan->plan, analysis)
-                         : analysis_json(chain, analysis);
+  if (variation) files.push_back({"corners.csv", corners_csv(*variation)});
+  auto json = plan ? plan_json(spec, *plan->plan, analysis)
+                   : analysis_json(chain, analysis);
+  if (variation) json["variation"] = variation_json(*variation);
   files.push_back({"result.json", json.dump(2) + "\n"});
 
   auto plots = chain_plots(chain, analysis);
+  if (variation)
+    for (auto& p : variation_plots(chain.name, *variation)) plots.push_back(std::move(p));
+  if (dynamic_range && spec.signal && spec.signal->swing)
+    for (auto& p : dynamic_range_plots(*dynamic_range, *spec.signal->swing)) plots.push_back(std::move(p));
   for (const auto& p : plots) files.push_back({p.name, p.svg});
 
   HtmlReportInput page;
@@ -49,6 +65,7 @@ std::vector<ReportFile> build_report(const ReportSource& source, const Chain& ch
   page.chain_file_name = source.file_name;
   page.chain_file_text = source.file_text;
   page.plan = std::move(status);
+  page.variation = std::move(variation_tables);
   files.push_back({"index.html", html_report(page)});
 
   NetlistOptions netlist;

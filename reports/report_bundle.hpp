@@ -5,6 +5,10 @@
 //   *.svg                   the plots of reports/plots.hpp
 //   index.html              the self-contained page (reports/html_report.hpp)
 //   chain.cir               the SPICE netlist of the chain reported
+// With a [variation] result: corners.csv, the corner and yield tables in budget.md and on the
+// page, result.json's `variation` object (as analyze --json gives it) and the Monte Carlo
+// histograms (reports/variation_views.hpp). With a swing sweep of a limiting chain: its
+// dynamic-range plots (reports/dynamic_range_plot.hpp).
 #pragma once
 
 #include <optional>
@@ -15,6 +19,8 @@
 #include "models/chain.hpp"
 #include "planner/chain_file.hpp"
 #include "planner/planner.hpp"
+#include "planner/sweep.hpp"
+#include "planner/variation_analysis.hpp"
 
 namespace peakplan {
 
@@ -39,6 +45,8 @@ struct ReportPlan {
 
 // `chain` and `analysis` are what the report shows: the planned chain when `plan` is given.
 std::vector<ReportFile> build_report(const ReportSource& source, const Chain& chain, const ChainAnalysis& analysis,
-                                     const std::optional<ReportPlan>& plan = std::nullopt);
+                                     const std::optional<ReportPlan>& plan = std::nullopt,
+                                     const VariationResult* variation = nullptr,
+                                     const SweepResult* dynamic_range = nullptr);
 
 }  // namespace peakplan

@@ -118,3 +118,55 @@ TEST_CASE("browser: chromium renders the demo report with the budget table, ever
   CHECK(colours.size() > 64);
   CHECK(spread > 10.0);
 }
+
+// A report with [variation]: the corner and yield tables and the Monte Carlo histograms render.
+TEST_CASE("browser: chromium renders a [variation] report with its corner and yield tables and every histogram") {
+  const std::string chromium = find_on_path("chromium");
+  if (chromium.empty()) {
+    if (std::getenv("CI")) FAIL("chromium is not installed; .ci/install-deps installs it");
+    MESSAGE("chromium is not installed: the browser check did not run (it fails instead where CI is set)");
+    return;
+  }
+  TempDir dir("peakplan_browser");
+  const fs::path report = dir.path / "report";
+  const fs::path chain = fs::path(PEAKPLAN_SOURCE_DIR) / "chains" / "variation_post_amp.toml";
+  REQUIRE(run_shell(shell_quoted(PEAKPLAN_BINARY) + " report " + shell_quoted(chain.string()) + " --plan --samples 200 --out " +
+                    shell_quoted(report.string()) + " >/dev/null") == 0);
+  const std::string url = "file://" + (report / "index.html").string();
+  const fs::path dom = dir.path / "dom.html", log = dir.path / "chromium.log";
+  const int dumped = run_shell("timeout 120 " + chromium_command(chromium, dir.path / "profile-dom") + " --dump-dom " +
+                               shell_quoted(url) + " >" + shell_quoted(dom.string()) + " 2>" +
+                               shell_quoted(log.string()));
+  REQUIRE_MESSAGE(dumped == 0, "chromium --dump-dom failed:\n" << read_file(log));
+  const std::string page = read_file(dom);
+  CHECK(page.find("<table id=\"corners\"") != std::string::npos);
+  CHECK(page.find("<table id=\"yield\"") != std::string::npos);
+  for (const auto* plot : {"mc_bandwidth", "mc_overshoot", "mc_eye_height"}) {
+    CHECK_MESSAGE(fs::exists(report / (std::string(plot) + ".svg")), plot);
+    CHECK_MESSAGE(page.find("data-plot=\"" + std::string(plot) + "\"") != std::string::npos, "the rendered page has no " << plot);
+  }
+}
+
+// A limiting chain's report: the dynamic-range plots render.
+TEST_CASE("browser: chromium renders a limiting chain's report with its dynamic-range plots") {
+  const std::string chromium = find_on_path("chromium");
+  if (chromium.empty()) {
+    if (std::getenv("CI")) FAIL("chromium is not installed; .ci/install-deps installs it");
+    MESSAGE("chromium is not installed: the browser check did not run (it fails instead where CI is set)");
+    return;
+  }
+  TempDir dir("peakplan_browser");
+  const fs::path report = dir.path / "report";
+  const fs::path chain = fs::path(PEAKPLAN_SOURCE_DIR) / "chains" / "limiting_dynamic_range.toml";
+  REQUIRE(run_shell(shell_quoted(PEAKPLAN_BINARY) + " report " + shell_quoted(chain.string()) + " --out " +
+                    shell_quoted(report.string()) + " >/dev/null") == 0);
+  const std::string url = "file://" + (report / "index.html").string();
+  const fs::path dom = dir.path / "dom.html", log = dir.path / "chromium.log";
+  const int dumped = run_shell("timeout 120 " + chromium_command(chromium, dir.path / "profile-dom") + " --dump-dom " +
+                               shell_quoted(url) + " >" + shell_quoted(dom.string()) + " 2>" +
+                               shell_quoted(log.string()));
+  REQUIRE_MESSAGE(dumped == 0, "chromium --dump-dom failed:\n" << read_file(log));
+  const std::string page = read_file(dom);
+  for (const auto* plot : {"dynamic_range", "dynamic_range_ddj"})
+    CHECK_MESSAGE(page.find("data-plot=\"" + std::string(plot) + "\"") != std::string::npos, "the rendered page has no " << plot);
+}

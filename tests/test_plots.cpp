@@ -10,6 +10,7 @@
 #include "models/eye_traces.hpp"
 #include "reports/plots.hpp"
 #include "reports/svg_chart.hpp"
+#include "reports/variation_views.hpp"
 #include "test_support.hpp"
 
 using namespace peakplan;
@@ -372,4 +373,25 @@ TEST_CASE("plots: labels stay inside the plot area and a long subtitle inside th
   const std::string short_out = short_chart.render();
   CHECK(attribute_near(short_out.substr(short_out.rfind('<', short_out.find("a short subtitle"))), "font-size",
                        "font-size") == "12.5");
+}
+
+// The Monte Carlo histogram's bins (reports/variation_views.hpp).
+TEST_CASE("plots: a histogram's bins count every finite value once, the top edge in the last bin") {
+  // 0, 1, ..., 99 in 10 equal bins over [0, 99]: width 9.9, so value v falls in floor(v / 9.9)
+  // (derived by hand: 0..9 -> bin 0, 10..19 -> bin 1, ..., 90..98 -> bin 9, and 99, the top
+  // edge, in bin 9 too), ten values in each bin.
+  std::vector<double> values;
+  for (int i = 0; i < 100; ++i) values.push_back(i);
+  values.push_back(std::numeric_limits<double>::quiet_NaN());  // a bandwidth never reached
+  const auto h = peakplan::histogram(values, 10);
+  REQUIRE(h.counts.size() == 10);
+  CHECK(h.lo == 0.0);
+  CHECK(h.hi == 99.0);
+  size_t total = 0;
+  for (auto c : h.counts) total += c;
+  CHECK(total == 100);
+  for (size_t b = 0; b < 10; ++b) CHECK(h.counts[b] == 10);
+  // Equal values all land in the first bin.
+  const auto flat = peakplan::histogram({2.0, 2.0, 2.0}, 5);
+  CHECK(flat.counts[0] == 3);
 }

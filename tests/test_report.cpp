@@ -21,6 +21,7 @@
 
 #include "cli_support.hpp"
 #include "reports/budget.hpp"
+#include "reports/svg_chart.hpp"
 
 using namespace peakplan::test;
 
@@ -500,4 +501,126 @@ TEST_CASE("report: the demo report shipped in docs/demo-report is what the tool 
     CHECK_MESSAGE(read_file(dir.path / "out" / name) == read_file(shipped / name),
                   "docs/demo-report/" << name << " differs: regenerate it (README, \"the whole generated report\")");
   }
+}
+
+// [variation] in a report: the corner table, corners.csv and result.json come from one run, and
+// the worst corner is where the metric is worst. A small Monte Carlo run (--samples) keeps the
+// case fast; the chain is planned first because the shipped file leaves its loads to the planner.
+TEST_CASE("report: with [variation] the worst bandwidth corner is the minimum over result.json's corners, in every file") {
+  TempDir dir("peakplan_report");
+  const auto out = dir.path / "out";
+  const auto run = run_cli({"report", (kSource / "chains" / "variation_post_amp.toml").string(), "--out", out.string(),
+                            "--plan", "--samples", "300"});
+  REQUIRE_MESSAGE(run.status == 0, run.err);
+  const auto doc = nlohmann::json::parse(read_file(out / "result.json"));
+  REQUIRE(doc.contains("variation"));
+  const auto& v = doc["variation"];
+  // The worst bandwidth is the lowest (derived: a lower bandwidth is worse, docs/physics.md
+  // (process variation)); the named corner carries the minimum over every corner.
+  double lowest = INFINITY;
+  std::string lowest_name;
+  for (const auto& c : v["corners"])
+    if (c["metrics"]["bandwidth_hz"].get<double>() < lowest) {
+      lowest = c["metrics"]["bandwidth_hz"].get<double>();
+      lowest_name = c["name"].get<std::string>();
+    }
+  REQUIRE(v["worst"]["bandwidth_hz"].is_string());
+  const std::string worst = v["worst"]["bandwidth_hz"].get<std::string>();
+  double worst_bw = NAN;
+  for (const auto& c : v["corners"])
+    if (c["name"] == worst) worst_bw = c["metrics"]["bandwidth_hz"].get<double>();
+  CHECK(worst_bw == lowest);  // the same double: both are the one corner's measured value
+
+  // corners.csv: the worst row names the same corner, and its bandwidth is the JSON's to 9 digits.
+  const auto records = parse_csv(read_file(out / "corners.csv"));
+  REQUIRE(records.size() > 2);
+  const auto& header = records.front();
+  const auto col = [&](const std::string& name) {
+    const auto it = std::find(header.begin(), header.end(), name);
+    REQUIRE_MESSAGE(it != header.end(), "corners.csv has no column " << name);
+    return static_cast<size_t>(it - header.begin());
+  };
+  size_t corner_rows = 0;
+  bool worst_row = false, overall_row = false;
+  for (size_t i = 1; i < records.size(); ++i) {
+    const auto& r = records[i];
+    REQUIRE(r.size() == header.size());
+    if (r[0] == "corner") {
+      const auto& c = v["corners"][corner_rows++];
+      CHECK(r[1] == c["name"].get<std::string>());
+      CHECK(number(r[col("bandwidth_hz")]) ==
+            doctest::Approx(c["metrics"]["bandwidth_hz"].get<double>()).epsilon(kCsvRelative));
+    }
+    if (r[0] == "worst" && r[1] == "bandwidth_hz") {
+      worst_row = true;
+      CHECK(r[col("corner")] == worst);
+    }
+    if (r[0] == "overall") {
+      overall_row = true;
+      CHECK(number(r[col("samples")]) == 300);
+      CHECK(number(r[col("fraction")]) ==
+            doctest::Approx(v["monte_carlo"]["overall_yield"].get<double>()).epsilon(kCsvRelative));
+      CHECK(number(r[col("ci95_lo")]) == doctest::Approx(v["monte_carlo"]["yield_ci95"][0].get<double>()).epsilon(kCsvRelative));
+      // The fraction is the count over the samples (derived: the definition of a yield).
+      CHECK(number(r[col("met_samples")]) / 300.0 == doctest::Approx(number(r[col("fraction")])).epsilon(kCsvRelative));
+    }
+  }
+  CHECK(corner_rows == v["corners"].size());
+  CHECK(worst_row);
+  CHECK(overall_row);
+
+  // budget.md and the page name it as the worst bandwidth corner, and the page has both tables.
+  const auto md = read_file(out / "budget.md");
+  CHECK(md.find("bandwidth: " + worst) != std::string::npos);
+  const auto page = read_file(out / "index.html");
+  CHECK(page.find("<table id=\"corners\"") != std::string::npos);
+  CHECK(page.find("<table id=\"yield\"") != std::string::npos);
+  // The histograms count every sample (the bandwidth is reached in each: stats count = 300).
+  CHECK(v["monte_carlo"]["stats"]["bandwidth_hz"]["count"].get<int>() == 300);
+  for (const auto* name : {"mc_bandwidth.svg", "mc_overshoot.svg", "mc_eye_height.svg"}) {
+    INFO(name);
+    const auto svg = read_file(out / name);
+    CHECK(svg.find("300 Monte Carlo samples") != std::string::npos);
+    CHECK(page.find(std::string("data-plot=\"") + std::string(name).substr(0, std::string(name).size() - 4) + "\"") !=
+          std::string::npos);
+  }
+  // The bandwidth target (25 GHz in the file) is drawn and labelled on its histogram.
+  CHECK(read_file(out / "mc_bandwidth.svg").find("target \u2265 25 GHz") != std::string::npos);
+}
+
+TEST_CASE("report: --samples on a chain without [variation] is refused and writes nothing") {
+  TempDir dir("peakplan_report");
+  const auto run = run_cli({"report", kDemo.string(), "--out", (dir.path / "out").string(), "--samples", "10"});
+  CHECK(run.status == 2);
+  CHECK(run.err.find("--samples") != std::string::npos);
+  CHECK(!fs::exists(dir.path / "out"));
+}
+
+// A limiting chain's dynamic range: the report's sweep of the swing passes through the file's
+// own swing (the middle of 21 log-spaced points from swing/10 to swing*10), where the clipped eye
+// height must be the one `analyze --json` gives (the same simulation by another path: analyze of
+// the file against a sweep point written back as an override), to the 3 digits the plot prints.
+TEST_CASE("report: a limiting chain's dynamic-range plot shows analyze's clipped eye height at the file's swing") {
+  const auto chain = kSource / "chains" / "limiting_dynamic_range.toml";
+  TempDir dir("peakplan_report");
+  const auto out = dir.path / "out";
+  const auto run = run_cli({"report", chain.string(), "--out", out.string()});
+  REQUIRE_MESSAGE(run.status == 0, run.err);
+  const auto analyzed = run_cli({"analyze", chain.string(), "--json"});
+  REQUIRE(analyzed.status == 0);
+  const auto doc = nlohmann::json::parse(analyzed.out);
+  const double height = doc["outputs"].back()["large_signal"]["height_v"].get<double>();
+  const double ddj = doc["outputs"].back()["large_signal"]["ddj_pp_s"].get<double>();
+  const auto svg = read_file(out / "dynamic_range.svg");
+  CHECK(svg.find(peakplan::svg::engineering(height, "V") + " at the file&apos;s swing 20 mV") != std::string::npos);
+  CHECK(svg.find("21 points, log-spaced from 2 mV to 200 mV") != std::string::npos);
+  CHECK(read_file(out / "dynamic_range_ddj.svg").find(peakplan::svg::engineering(ddj, "s") + " at the file&apos;s swing") !=
+        std::string::npos);
+  const auto page = read_file(out / "index.html");
+  CHECK(page.find("data-plot=\"dynamic_range\"") != std::string::npos);
+  CHECK(page.find("data-plot=\"dynamic_range_ddj\"") != std::string::npos);
+  // A linear chain (the demo) has no large-signal eye and gets no dynamic-range plot.
+  TempDir demo("peakplan_report");
+  REQUIRE(run_report(kDemo, demo.path / "out").status == 0);
+  CHECK(!fs::exists(demo.path / "out" / "dynamic_range.svg"));
 }

@@ -1,4 +1,4 @@
-// peakplan report CHAIN.toml --out DIR [--plan]
+// peakplan report CHAIN.toml --out DIR [--plan] [--samples N] [--seed S]
 //
 // Everything is built in memory first; only then is DIR created (when missing) and the report
 // set replaced as one whole (planner/commands/output_files.hpp: the set is written into a new
@@ -14,6 +14,12 @@
 #include "planner/chain_graph.hpp"
 #include "planner/overrides.hpp"
 #include "planner/planner.hpp"
+#include "planner/sweep.hpp"
+#include "planner/toml_text.hpp"
+#include "planner/variation_analysis.hpp"
+#include "reports/dynamic_range_plot.hpp"
+#include "planner/commands/progress_line.hpp"
+#include <fmt/format.h>
 #include "reports/report_bundle.hpp"
 
 namespace peakplan::cli {
@@ -25,6 +31,8 @@ struct ReportArgs {
   std::string chain;
   std::string out;
   bool plan = false;
+  std::optional<int> samples;
+  std::optional<std::uint64_t> seed;
 };
 
 int run_report(const ReportArgs& args) {
@@ -35,7 +43,10 @@ int run_report(const ReportArgs& args) {
     return bad_input;
   }
   const auto text = read_chain_text(args.chain, diagnostics);
-  if (!text) {
+  if (text && !spec->variation && (args.samples || args.seed))
+    diagnostics.error({0, 0, args.samples ? "--samples" : "--seed"},
+                      "the chain file has no [variation] table to sample; add one (docs/physics.md (process variation))");
+  if (!text || !diagnostics.empty()) {
     std::cerr << diagnostics.format();
     return bad_input;
   }
@@ -67,12 +78,45 @@ int run_report(const ReportArgs& args) {
     }
   }
   const auto analysis = analyze_chain(*chain, options);
+  // The corners and Monte Carlo run exactly as analyze runs them (the same code, samples, seed).
+  std::optional<VariationResult> variation;
+  if (spec->variation) {
+    ProgressLine progress;
+    VariationRunOptions run;
+    run.samples = args.samples;
+    run.seed = args.seed;
+    run.threads = default_thread_count();
+    run.progress = [&progress](int done, int total) {
+      progress.show(fmt::format("monte carlo: {} of {} samples", done, total));
+    };
+    variation = analyze_variation(*spec, *chain, run);
+  }
+
+  // A limiting chain's dynamic range: the file's swing /10 to x10, swept as `sweep --vary
+  // signal.swing=... --log` sweeps it (the planned chain when planned; no [variation] per point).
+  std::optional<SweepResult> dynamic_range;
+  if (analysis.outputs.back().large_signal && spec->signal && spec->signal->swing) {
+    const double swing = *spec->signal->swing;
+    SweepRequest sweep;
+    sweep.chain = args.chain;
+    sweep.chain_text = plan ? planned_chain_toml(*spec, *plan) : *text;
+    sweep.vary = "signal.swing=" + toml_number(swing / kDynamicRangeDecade) + ":" +
+                 toml_number(swing * kDynamicRangeDecade) + ":" + std::to_string(kDynamicRangePoints);
+    sweep.log = true;
+    sweep.variation = false;
+    dynamic_range = run_sweep(sweep, diagnostics);
+    if (!dynamic_range) {
+      std::cerr << diagnostics.format();
+      return bad_input;
+    }
+  }
 
   std::optional<ReportPlan> plan_context;
   if (plan)
     plan_context = ReportPlan{&*plan, before_chain ? &*before_chain : nullptr,
                               before_analysis ? &*before_analysis : nullptr};
-  const auto files = build_report({&*spec, diagnostics.file(), *text}, *chain, analysis, plan_context);
+  const auto files = build_report({&*spec, diagnostics.file(), *text}, *chain, analysis, plan_context,
+                                  variation ? &*variation : nullptr, dynamic_range ? &*dynamic_range : nullptr);
 
   const fs::path dir(args.out);
   for (const auto& f : files) {
@@ -105,6 +149,10 @@ Command add_report_command(CLI::App& app) {
   cmd->add_option("chain", args->chain, "chain file (TOML), or - for standard input")->required();
   cmd->add_option("--out", args->out, "directory to write the report into (created if missing)")->required();
   cmd->add_flag("--plan", args->plan, "plan the chain first and report the planned chain, before and after");
+  cmd->add_option("--samples", args->samples,
+                  "Monte Carlo samples of [variation] (overrides the file; threads: PEAKPLAN_THREADS, default every core)")
+      ->check(CLI::Range(1, 1000000));
+  cmd->add_option("--seed", args->seed, "Monte Carlo seed of [variation] (overrides the file)");
   cmd->footer(help_footer("peakplan report chains/demo_postamp.toml --out demo_report"));
   return {cmd, [args] { return run_report(*args); }};
 }
