@@ -17,7 +17,7 @@ namespace peakplan {
 
 std::vector<ReportFile> build_report(const ReportSource& source, const Chain& chain, const ChainAnalysis& analysis,
                                      const std::optional<ReportPlan>& plan, const VariationResult* variation,
-                                     const SweepResult* dynamic_range) {
+                                     const CornerEnvelope* envelope, const SweepResult* dynamic_range) {
   if (!source.spec) throw std::logic_error("build_report: no chain spec");
   if (plan && !plan->plan) throw std::logic_error("build_report: a plan context without a plan");
   const auto& spec = *source.spec;
@@ -53,6 +53,8 @@ std::vector<ReportFile> build_report(const ReportSource& source, const Chain& ch
   auto plots = chain_plots(chain, analysis);
   if (variation)
     for (auto& p : variation_plots(chain.name, *variation)) plots.push_back(std::move(p));
+  if (envelope)
+    for (auto& p : envelope_plots(chain.name, *envelope)) plots.push_back(std::move(p));
   if (dynamic_range && spec.signal && spec.signal->swing)
     for (auto& p : dynamic_range_plots(*dynamic_range, *spec.signal->swing)) plots.push_back(std::move(p));
   for (const auto& p : plots) files.push_back({p.name, p.svg});

@@ -19,6 +19,7 @@
 #include "models/chain.hpp"
 #include "planner/chain_file.hpp"
 #include "planner/planner.hpp"
+#include "planner/corner_envelope.hpp"
 #include "planner/sweep.hpp"
 #include "planner/variation_analysis.hpp"
 
@@ -47,6 +48,7 @@ struct ReportPlan {
 std::vector<ReportFile> build_report(const ReportSource& source, const Chain& chain, const ChainAnalysis& analysis,
                                      const std::optional<ReportPlan>& plan = std::nullopt,
                                      const VariationResult* variation = nullptr,
+                                     const CornerEnvelope* envelope = nullptr,
                                      const SweepResult* dynamic_range = nullptr);
 
 }  // namespace peakplan

@@ -127,7 +127,58 @@ PlotFile histogram_plot(const std::string& chain_name, const VariationResult& r,
   return {std::string(h.file), std::string(h.title), chart.render()};
 }
 
+PlotFile envelope_plot(const std::string& chain_name, int corners, std::string_view file, std::string_view title,
+                       svg::AxisSpec x_axis, std::string y_title, svg::AxisUnit y_unit, const std::vector<double>& x,
+                       const std::vector<double>& nominal, const std::vector<double>& lo, const std::vector<double>& hi,
+                       double y_floor) {
+  double y_lo = std::numeric_limits<double>::infinity(), y_hi = -y_lo;
+  for (const auto* v : {&nominal, &lo, &hi})
+    for (double y : *v)
+      if (std::isfinite(y)) {
+        y_lo = std::min(y_lo, y);
+        y_hi = std::max(y_hi, y);
+      }
+  y_lo = std::max(y_lo, y_floor);
+  const double pad = 0.06 * std::max(y_hi - y_lo, 1e-9);
+  svg::Chart chart(std::string(file.substr(0, file.size() - 4)), std::string(title),
+                   fmt::format("{}: the band from the least to the greatest of {} corners, the nominal on top", chain_name,
+                               corners),
+                   std::move(x_axis), svg::AxisSpec{std::move(y_title), std::move(y_unit), svg::Scale::linear, y_lo - pad, y_hi + pad});
+  // The band as one rectangle per grid interval, spanning both ends' extremes.
+  for (size_t k = 0; k + 1 < x.size(); ++k) {
+    const double a = std::min(lo[k], lo[k + 1]), b = std::max(hi[k], hi[k + 1]);
+    if (std::isfinite(a) && std::isfinite(b)) chart.band(x[k], x[k + 1], a, b, svg::theme::highlight, 0.55);
+  }
+  svg::Stroke edge;
+  edge.colour = "#b58a2a";
+  edge.width = 1.0;
+  chart.line(x, lo, edge, "least over the corners");
+  chart.line(x, hi, edge, "greatest over the corners");
+  svg::Stroke main;
+  main.colour = std::string(svg::theme::main_series);
+  main.width = 2.6;
+  chart.line(x, nominal, main, "nominal");
+  return {std::string(file), std::string(title), chart.render()};
+}
+
 }  // namespace
+
+std::vector<PlotFile> envelope_plots(const std::string& chain_name, const CornerEnvelope& e) {
+  if (e.frequency_hz.size() < 2 || e.time_s.size() < 2) return {};
+  std::vector<PlotFile> plots;
+  // 60 dB below the nominal DC gain is roll-off enough to compare the corners' edges.
+  const double floor_db = e.magnitude_db.front() - 60.0;
+  plots.push_back(envelope_plot(chain_name, e.corners, "corners_magnitude.svg", "Magnitude across the process corners",
+                                svg::AxisSpec{"Frequency", svg::AxisUnit{"Hz", true}, svg::Scale::log, e.frequency_hz.front(),
+                                              e.frequency_hz.back()},
+                                "Gain", svg::AxisUnit{"dB", false}, e.frequency_hz, e.magnitude_db, e.magnitude_lo_db,
+                                e.magnitude_hi_db, floor_db));
+  plots.push_back(envelope_plot(chain_name, e.corners, "corners_step.svg", "Step response across the process corners",
+                                svg::AxisSpec{"Time", svg::AxisUnit{"s", true}, svg::Scale::linear, e.time_s.front(), e.time_s.back()},
+                                "Output \u00f7 DC gain", svg::AxisUnit{"", false}, e.time_s, e.step, e.step_lo, e.step_hi,
+                                -std::numeric_limits<double>::infinity()));
+  return plots;
+}
 
 Histogram histogram(const std::vector<double>& values, int bins) {
   Histogram h;

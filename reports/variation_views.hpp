@@ -6,6 +6,7 @@
 #include <string>
 #include <vector>
 
+#include "planner/corner_envelope.hpp"
 #include "planner/variation_analysis.hpp"
 #include "reports/budget.hpp"
 #include "reports/plots.hpp"
@@ -34,5 +35,9 @@ Histogram histogram(const std::vector<double>& values, int bins);
 // distribution of the metric with the file's target or limit drawn as a labelled vertical line
 // (when it sets one). Empty without a Monte Carlo run.
 std::vector<PlotFile> variation_plots(const std::string& chain_name, const VariationResult& result);
+
+// corners_magnitude.svg and corners_step.svg: the least-to-greatest band over the corners with
+// the nominal curve on top.
+std::vector<PlotFile> envelope_plots(const std::string& chain_name, const CornerEnvelope& envelope);
 
 }  // namespace peakplan

@@ -14,6 +14,7 @@
 #include "models/variation.hpp"
 #include "planner/chain_graph.hpp"
 #include "planner/planner.hpp"
+#include "planner/corner_envelope.hpp"
 #include "planner/variation_analysis.hpp"
 
 using namespace peakplan;
@@ -574,4 +575,34 @@ TEST_CASE("variation: the per-sample values a report draws are in sample order, 
     CHECK(again.count == a.stats.count);
     if (again.count > 0) CHECK(again.mean == a.stats.mean);
   }
+}
+
+TEST_CASE("variation: the corner envelope a report draws contains the nominal curve at every point and spreads with C") {
+  // Derived: the nominal is one of the corners and is read on its own grid exactly, so
+  // lo <= nominal <= hi at every point; the C spread of this file moves the plain stage's pole
+  // (f = 1/(2 pi R C)), so far beyond the bandwidth |H| ~ gm/(2 pi f C) and the C- and C+
+  // corners differ by 20 log10(1.08/0.92) = 1.39 dB; more than 1 dB is asked.
+  std::string text = kPlainStage;
+  const auto at = text.find("corners = \"none\"");
+  REQUIRE(at != std::string::npos);
+  text.replace(at, 16, "corners = \"extremes\"");
+  const auto loaded = load(text);
+  const auto r = analyze_variation(loaded.spec, loaded.chain, {1, std::nullopt, 1, {}});
+  const auto options = analysis_options(loaded.spec);
+  const auto nominal = analyze_chain(loaded.chain, options);
+  const auto e = corner_envelope(r, loaded.chain, nominal, options);
+  CHECK(e.corners == static_cast<int>(r.corners.size()));
+  REQUIRE(e.frequency_hz.size() == e.magnitude_db.size());
+  REQUIRE(e.time_s.size() == e.step.size());
+  double widest = 0.0;
+  for (size_t k = 0; k < e.frequency_hz.size(); ++k) {
+    CHECK(e.magnitude_lo_db[k] <= e.magnitude_db[k]);
+    CHECK(e.magnitude_db[k] <= e.magnitude_hi_db[k]);
+    widest = std::max(widest, e.magnitude_hi_db[k] - e.magnitude_lo_db[k]);
+  }
+  for (size_t k = 0; k < e.time_s.size(); ++k) {
+    CHECK(e.step_lo[k] <= e.step[k]);
+    CHECK(e.step[k] <= e.step_hi[k]);
+  }
+  CHECK(widest > 1.0);
 }

@@ -14,6 +14,7 @@
 #include "planner/chain_graph.hpp"
 #include "planner/overrides.hpp"
 #include "planner/planner.hpp"
+#include "planner/corner_envelope.hpp"
 #include "planner/sweep.hpp"
 #include "planner/toml_text.hpp"
 #include "planner/variation_analysis.hpp"
@@ -91,6 +92,8 @@ int run_report(const ReportArgs& args) {
     };
     variation = analyze_variation(*spec, *chain, run);
   }
+  std::optional<CornerEnvelope> envelope;
+  if (variation) envelope = corner_envelope(*variation, *chain, analysis, options);
 
   // A limiting chain's dynamic range: the file's swing /10 to x10, swept as `sweep --vary
   // signal.swing=... --log` sweeps it (the planned chain when planned; no [variation] per point).
@@ -116,7 +119,8 @@ int run_report(const ReportArgs& args) {
     plan_context = ReportPlan{&*plan, before_chain ? &*before_chain : nullptr,
                               before_analysis ? &*before_analysis : nullptr};
   const auto files = build_report({&*spec, diagnostics.file(), *text}, *chain, analysis, plan_context,
-                                  variation ? &*variation : nullptr, dynamic_range ? &*dynamic_range : nullptr);
+                                  variation ? &*variation : nullptr,
+                                  envelope ? &*envelope : nullptr, dynamic_range ? &*dynamic_range : nullptr);
 
   const fs::path dir(args.out);
   for (const auto& f : files) {

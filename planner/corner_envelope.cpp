@@ -1,0 +1,67 @@
+#include "planner/corner_envelope.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+
+namespace peakplan {
+namespace {
+
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+
+// Linear interpolation of y(x) at `at` over increasing x; NaN outside [x.front(), x.back()].
+double interpolate(const std::vector<double>& x, const std::vector<double>& y, double at, bool log_x) {
+  if (x.empty() || at < x.front() || at > x.back()) return kNaN;
+  const auto hi = std::lower_bound(x.begin(), x.end(), at);
+  const auto i = static_cast<size_t>(hi - x.begin());
+  if (i == 0 || x[i] == at) return y[i];
+  const double a = log_x ? std::log(x[i - 1]) : x[i - 1], b = log_x ? std::log(x[i]) : x[i];
+  const double t = ((log_x ? std::log(at) : at) - a) / (b - a);
+  return y[i - 1] + t * (y[i] - y[i - 1]);
+}
+
+void widen(std::vector<double>& lo, std::vector<double>& hi, size_t k, double v) {
+  if (!std::isfinite(v)) return;
+  lo[k] = std::isfinite(lo[k]) ? std::min(lo[k], v) : v;
+  hi[k] = std::isfinite(hi[k]) ? std::max(hi[k], v) : v;
+}
+
+}  // namespace
+
+CornerEnvelope corner_envelope(const VariationResult& result, const Chain& nominal,
+                               const ChainAnalysis& nominal_analysis, AnalysisOptions options) {
+  options.signal.reset();
+  options.swing_given = false;
+  options.large_signal = false;
+  options.keep_waveforms = true;
+  CornerEnvelope e;
+  const auto& main = nominal_analysis.outputs.back().response;
+  e.frequency_hz = main.sampled.frequency_hz;
+  e.magnitude_db = main.sampled.magnitude_db();
+  // About 600 time points are all a plot can show.
+  const auto& wave = main.step_wave;
+  const size_t stride = std::max<size_t>(1, wave.y.size() / 600);
+  for (size_t k = 0; k < wave.y.size(); k += stride) {
+    e.time_s.push_back(wave.time(k));
+    e.step.push_back(wave.y[k]);
+  }
+  e.magnitude_lo_db.assign(e.frequency_hz.size(), kNaN);
+  e.magnitude_hi_db = e.magnitude_lo_db;
+  e.step_lo.assign(e.time_s.size(), kNaN);
+  e.step_hi = e.step_lo;
+  for (const auto& corner : result.corners) {
+    const auto analysis = analyze_chain(apply_variation(nominal, corner.corner.draw()), options);
+    const auto& r = analysis.outputs.back().response;
+    const auto db = r.sampled.magnitude_db();
+    for (size_t k = 0; k < e.frequency_hz.size(); ++k)
+      widen(e.magnitude_lo_db, e.magnitude_hi_db, k, interpolate(r.sampled.frequency_hz, db, e.frequency_hz[k], true));
+    std::vector<double> t(r.step_wave.y.size());
+    for (size_t k = 0; k < t.size(); ++k) t[k] = r.step_wave.time(k);
+    for (size_t k = 0; k < e.time_s.size(); ++k)
+      widen(e.step_lo, e.step_hi, k, interpolate(t, r.step_wave.y, e.time_s[k], false));
+    ++e.corners;
+  }
+  return e;
+}
+
+}  // namespace peakplan
