@@ -87,6 +87,20 @@ PlanOptions PlanProgressLine::options() const {
   return options;
 }
 
+std::optional<VariationResult> run_variation(const ChainSpec& spec, const Chain& chain, std::optional<int> samples,
+                                             std::optional<std::uint64_t> seed) {
+  if (!spec.variation) return std::nullopt;
+  ProgressLine progress;
+  VariationRunOptions run;
+  run.samples = samples;
+  run.seed = seed;
+  run.threads = default_thread_count();
+  run.progress = [&progress](int done, int total) {
+    progress.show(fmt::format("monte carlo: {} of {} samples", done, total));
+  };
+  return analyze_variation(spec, chain, run);
+}
+
 bool same_file(const std::string& output, const std::string& input) {
   std::error_code ec;
   return std::filesystem::exists(output, ec) && std::filesystem::equivalent(output, input, ec);

@@ -10,6 +10,7 @@
 
 #include "planner/commands/progress_line.hpp"
 #include "planner/planner.hpp"
+#include "planner/variation_analysis.hpp"
 
 namespace peakplan::cli {
 
@@ -62,6 +63,11 @@ class PlanProgressLine {
  private:
   std::shared_ptr<ProgressLine> line_ = std::make_shared<ProgressLine>();
 };
+
+// The corners and Monte Carlo run of a file with [variation] (none without), on every core and
+// with a progress line, as analyze and report both run it; samples and seed override the file.
+std::optional<VariationResult> run_variation(const ChainSpec& spec, const Chain& chain, std::optional<int> samples,
+                                             std::optional<std::uint64_t> seed);
 
 // True when `output` names the same file as `input` (so writing it would overwrite the input).
 bool same_file(const std::string& output, const std::string& input);

@@ -40,18 +40,7 @@ int run_analyze(const AnalyzeArgs& args) {
   auto options = analysis_options(*spec, args.points);
   options.threads = default_thread_count();
   const auto analysis = analyze_chain(*chain, options);
-  std::optional<VariationResult> variation;
-  if (spec->variation) {
-    ProgressLine progress;
-    VariationRunOptions run;
-    run.samples = args.samples;
-    run.seed = args.seed;
-    run.threads = default_thread_count();
-    run.progress = [&progress](int done, int total) {
-      progress.show(fmt::format("monte carlo: {} of {} samples", done, total));
-    };
-    variation = analyze_variation(*spec, *chain, run);
-  }
+  const auto variation = run_variation(*spec, *chain, args.samples, args.seed);
   if (args.json) {
     auto doc = analysis_json(*chain, analysis);
     if (variation) doc["variation"] = variation_json(*variation);

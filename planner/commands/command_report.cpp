@@ -80,18 +80,7 @@ int run_report(const ReportArgs& args) {
   }
   const auto analysis = analyze_chain(*chain, options);
   // The corners and Monte Carlo run exactly as analyze runs them (the same code, samples, seed).
-  std::optional<VariationResult> variation;
-  if (spec->variation) {
-    ProgressLine progress;
-    VariationRunOptions run;
-    run.samples = args.samples;
-    run.seed = args.seed;
-    run.threads = default_thread_count();
-    run.progress = [&progress](int done, int total) {
-      progress.show(fmt::format("monte carlo: {} of {} samples", done, total));
-    };
-    variation = analyze_variation(*spec, *chain, run);
-  }
+  const auto variation = run_variation(*spec, *chain, args.samples, args.seed);
   std::optional<CornerEnvelope> envelope;
   if (variation) envelope = corner_envelope(*variation, *chain, analysis, options);
 
