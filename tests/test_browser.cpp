@@ -34,6 +34,27 @@ std::string chromium_command(const std::string& chromium, const fs::path& profil
          shell_quoted(profile.string());
 }
 
+// chromium's path, or empty when it is missing: then the check fails under CI and is skipped
+// (with a message) elsewhere.
+std::string chromium_or_skip() {
+  const std::string chromium = find_on_path("chromium");
+  if (chromium.empty()) {
+    if (std::getenv("CI")) FAIL("chromium is not installed; .ci/install-deps installs it");
+    MESSAGE("chromium is not installed: the browser check did not run (it fails instead where CI is set)");
+  }
+  return chromium;
+}
+
+// The page at `url` as chromium renders it (its DOM after scripts and layout).
+std::string rendered_dom(const std::string& chromium, const fs::path& work, const std::string& url) {
+  const fs::path dom = work / "dom.html", log = work / "chromium.log";
+  const int dumped = run_shell("timeout 120 " + chromium_command(chromium, work / "profile-dom") + " --dump-dom " +
+                               shell_quoted(url) + " >" + shell_quoted(dom.string()) + " 2>" +
+                               shell_quoted(log.string()));
+  REQUIRE_MESSAGE(dumped == 0, "chromium --dump-dom failed:\n" << read_file(log));
+  return read_file(dom);
+}
+
 struct Pixels {
   int width = 0, height = 0;
   std::vector<unsigned char> rgb;
@@ -56,12 +77,8 @@ Pixels decode_png(const fs::path& path) {
 }  // namespace
 
 TEST_CASE("browser: chromium renders the demo report with the budget table, every plot, and a non-blank screenshot") {
-  const std::string chromium = find_on_path("chromium");
-  if (chromium.empty()) {
-    if (std::getenv("CI")) FAIL("chromium is not installed; .ci/install-deps installs it");
-    MESSAGE("chromium is not installed: the browser check did not run (it fails instead where CI is set)");
-    return;
-  }
+  const std::string chromium = chromium_or_skip();
+  if (chromium.empty()) return;
   TempDir dir("peakplan_browser");
   const fs::path report = dir.path / "report";
   const fs::path demo = fs::path(PEAKPLAN_SOURCE_DIR) / "chains" / "demo_postamp.toml";
@@ -69,12 +86,7 @@ TEST_CASE("browser: chromium renders the demo report with the budget table, ever
                     shell_quoted(report.string()) + " >/dev/null") == 0);
   const std::string url = "file://" + (report / "index.html").string();
 
-  const fs::path dom = dir.path / "dom.html", log = dir.path / "chromium.log";
-  const int dumped = run_shell("timeout 120 " + chromium_command(chromium, dir.path / "profile-dom") + " --dump-dom " +
-                               shell_quoted(url) + " >" + shell_quoted(dom.string()) + " 2>" +
-                               shell_quoted(log.string()));
-  REQUIRE_MESSAGE(dumped == 0, "chromium --dump-dom failed:\n" << read_file(log));
-  const std::string page = read_file(dom);
+  const std::string page = rendered_dom(chromium, dir.path, url);
   CHECK(page.find("<table id=\"budget\"") != std::string::npos);
   CHECK(page.find("</html>") != std::string::npos);
   int plots = 0;
@@ -86,7 +98,7 @@ TEST_CASE("browser: chromium renders the demo report with the budget table, ever
   }
   CHECK(plots >= 5);  // magnitude, group delay, step, eye (the demo has a [signal]), pole-zero
 
-  const fs::path shot = dir.path / "shot.png";
+  const fs::path shot = dir.path / "shot.png", log = dir.path / "chromium-shot.log";
   const int shot_status = run_shell(
       "timeout 120 " + chromium_command(chromium, dir.path / "profile-shot") + " --hide-scrollbars --window-size=" +
       std::to_string(kWidth) + "," + std::to_string(kHeight) + " --screenshot=" + shell_quoted(shot.string()) + " " +
@@ -121,24 +133,15 @@ TEST_CASE("browser: chromium renders the demo report with the budget table, ever
 
 // A report with [variation]: the corner and yield tables and the Monte Carlo histograms render.
 TEST_CASE("browser: chromium renders a [variation] report with its corner and yield tables and every histogram") {
-  const std::string chromium = find_on_path("chromium");
-  if (chromium.empty()) {
-    if (std::getenv("CI")) FAIL("chromium is not installed; .ci/install-deps installs it");
-    MESSAGE("chromium is not installed: the browser check did not run (it fails instead where CI is set)");
-    return;
-  }
+  const std::string chromium = chromium_or_skip();
+  if (chromium.empty()) return;
   TempDir dir("peakplan_browser");
   const fs::path report = dir.path / "report";
   const fs::path chain = fs::path(PEAKPLAN_SOURCE_DIR) / "chains" / "variation_post_amp.toml";
   REQUIRE(run_shell(shell_quoted(PEAKPLAN_BINARY) + " report " + shell_quoted(chain.string()) + " --plan --samples 200 --out " +
                     shell_quoted(report.string()) + " >/dev/null") == 0);
   const std::string url = "file://" + (report / "index.html").string();
-  const fs::path dom = dir.path / "dom.html", log = dir.path / "chromium.log";
-  const int dumped = run_shell("timeout 120 " + chromium_command(chromium, dir.path / "profile-dom") + " --dump-dom " +
-                               shell_quoted(url) + " >" + shell_quoted(dom.string()) + " 2>" +
-                               shell_quoted(log.string()));
-  REQUIRE_MESSAGE(dumped == 0, "chromium --dump-dom failed:\n" << read_file(log));
-  const std::string page = read_file(dom);
+  const std::string page = rendered_dom(chromium, dir.path, url);
   CHECK(page.find("<table id=\"corners\"") != std::string::npos);
   CHECK(page.find("<table id=\"yield\"") != std::string::npos);
   for (const auto* plot : {"mc_bandwidth", "mc_overshoot", "mc_eye_height"}) {
@@ -149,24 +152,15 @@ TEST_CASE("browser: chromium renders a [variation] report with its corner and yi
 
 // A limiting chain's report: the dynamic-range plots render.
 TEST_CASE("browser: chromium renders a limiting chain's report with its dynamic-range plots") {
-  const std::string chromium = find_on_path("chromium");
-  if (chromium.empty()) {
-    if (std::getenv("CI")) FAIL("chromium is not installed; .ci/install-deps installs it");
-    MESSAGE("chromium is not installed: the browser check did not run (it fails instead where CI is set)");
-    return;
-  }
+  const std::string chromium = chromium_or_skip();
+  if (chromium.empty()) return;
   TempDir dir("peakplan_browser");
   const fs::path report = dir.path / "report";
   const fs::path chain = fs::path(PEAKPLAN_SOURCE_DIR) / "chains" / "limiting_dynamic_range.toml";
   REQUIRE(run_shell(shell_quoted(PEAKPLAN_BINARY) + " report " + shell_quoted(chain.string()) + " --out " +
                     shell_quoted(report.string()) + " >/dev/null") == 0);
   const std::string url = "file://" + (report / "index.html").string();
-  const fs::path dom = dir.path / "dom.html", log = dir.path / "chromium.log";
-  const int dumped = run_shell("timeout 120 " + chromium_command(chromium, dir.path / "profile-dom") + " --dump-dom " +
-                               shell_quoted(url) + " >" + shell_quoted(dom.string()) + " 2>" +
-                               shell_quoted(log.string()));
-  REQUIRE_MESSAGE(dumped == 0, "chromium --dump-dom failed:\n" << read_file(log));
-  const std::string page = read_file(dom);
+  const std::string page = rendered_dom(chromium, dir.path, url);
   for (const auto* plot : {"dynamic_range", "dynamic_range_ddj"})
     CHECK_MESSAGE(page.find("data-plot=\"" + std::string(plot) + "\"") != std::string::npos, "the rendered page has no " << plot);
 }
