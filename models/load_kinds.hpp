@@ -76,6 +76,8 @@ struct LoadParameter {
   TechnologyBound technology = TechnologyBound::none;
   // Written to a chain file only when nonzero (an absent parasitic).
   bool omit_when_zero = false;
+  // Zero is not a value (a tia's rf: without feedback its input node floats).
+  bool positive = false;
 };
 
 // Which normalised design a kind is resolved from, if any.

@@ -34,7 +34,7 @@ namespace {
 constexpr std::array kParameters{
     LoadParameter{.key = "rf", .dimension = Dimension::resistance, .description = "feedback resistor from the output to the input node",
                   .role = ParameterRole::element, .field = &StageCircuit::rf, .label = "Rf",
-                  .plan_lo = 50.0, .plan_hi = 20e3},
+                  .plan_lo = 50.0, .plan_hi = 20e3, .positive = true},
     LoadParameter{.key = "cf", .dimension = Dimension::capacitance, .description = "feedback capacitor across Rf (0 = none)",
                   .role = ParameterRole::element, .field = &StageCircuit::cf, .label = "Cf",
                   .plan_lo = 0.1e-15, .plan_hi = 50e-15, .omit_when_zero = true},

@@ -623,7 +623,7 @@ void read_stage(Reader& reader, const toml::table& t, size_t index, ChainSpec& s
         }
         continue;
       }
-      if (auto a = reader.adjustable(*n, p.dimension, who + std::string(p.key), false))
+      if (auto a = reader.adjustable(*n, p.dimension, who + std::string(p.key), p.positive))
         stage.values[std::string(p.key)] = *a;
     }
   // "response" and the failed m/zeta placeholders are not element values.
