@@ -529,30 +529,34 @@ void read_limit(Reader& reader, const toml::table& t, const std::string& who, St
   }
 }
 
-void read_stage(Reader& reader, const toml::table& t, size_t index, ChainSpec& spec) {
-  StageSpec stage;
-  stage.where = position(t.source());
+// The stage's id, and the "who" prefix of its messages ("stage 'a1': ", or its index when the id
+// is missing or bad).
+std::string read_stage_id(Reader& reader, const toml::table& t, size_t index, StageSpec& stage) {
   std::string who = "stage " + std::to_string(index + 1) + ": ";
   if (const auto* n = t.get("id")) {
-    if (!n->is_string() || n->as_string()->get().empty())
+    if (!n->is_string() || n->as_string()->get().empty()) {
       reader.error(*n, who + "id must be a non-empty string, saw " + shown(*n));
-    else {
+    } else {
       stage.id = n->as_string()->get();
       who = "stage '" + stage.id + "': ";
     }
   } else {
     reader.error(stage.where, who + "missing id, e.g. id = \"a1\"");
   }
+  return who;
+}
 
+void read_stage_kind(Reader& reader, const toml::table& t, const std::string& who, StageSpec& stage) {
   if (const auto* n = t.get("kind")) {
     stage.kind_where = position(n->source());
     if (auto kinds = read_kind(reader, *n, who)) stage.kinds = *kinds;
   } else {
     reader.error(stage.where, who + "missing kind; expected one of " + quoted_list(kind_names_and_auto()));
   }
-  const Keys allowed = stage.kinds.empty() ? stage_keys_for(every_kind()) : stage_keys_for(stage.kinds);
-  reader.check_keys(t, allowed, who);
+}
 
+// The keys every kind takes: the device, its capacitances, the node's extra load, the limit.
+void read_common_elements(Reader& reader, const toml::table& t, const std::string& who, StageSpec& stage) {
   auto element = [&](std::string_view key, Dimension dim, bool strictly_positive) {
     const auto* n = t.get(key);
     if (!n) return;
@@ -570,123 +574,157 @@ void read_stage(Reader& reader, const toml::table& t, size_t index, ChainSpec& s
     if (!t.get(key))
       reader.error(stage.where, who + "missing " + key + " (" + describe(stage_key_dimension(key)) +
                                     ", or \"auto\")");
+}
 
-  // Kind-specific element values and normalised designs. Several candidate kinds share keys
-  // (l, r_l, m), so each key is read once: otherwise a bad value is reported once per kind.
+// m or zeta: a normalised design factor within the plausible range of a peaking design.
+void read_design_factor(Reader& reader, const toml::node& n, std::string_view key, const std::string& who,
+                        StageSpec& stage) {
+  stage.design_where = position(n.source());
+  auto v = reader.bounded(n, Dimension::dimensionless, who + std::string(key), true);
+  // Decades past any peaking design: m = 1e12 makes an inductor of hundreds of henries,
+  // zeta = 1e-9 a coupling of -1 and infinite halves; the models cannot solve either.
+  const double lo = key == "m" ? kMinDesignM : kMinDesignZeta, hi = key == "m" ? kMaxDesignM : kMaxDesignZeta;
+  if (v && !(*v >= lo && *v <= hi)) {
+    reader.error(n, fmt::format("{}{} = {} is outside the plausible range {:g} .. {:g} of a peaking design", who,
+                                key, shown(n), lo, hi));
+    v.reset();
+  }
+  (key == "m" ? stage.m : stage.zeta) = v;
+  if (!v) stage.values[std::string(key)] = {};  // remembered as seen, to report once
+}
+
+// A whole number of cells (the tia's core_stages).
+void read_structure(Reader& reader, const toml::node& n, std::string_view key, const std::string& who,
+                    StageSpec& stage) {
+  const auto whole = n.value<int64_t>();
+  const bool integral = whole && (n.is_integer() || static_cast<double>(*whole) == *n.value<double>());
+  if (!integral || *whole < 1 || *whole > kMaxCoreStages) {
+    reader.error(n, fmt::format("{}{} must be a whole number 1 .. {}, saw {}", who, key, kMaxCoreStages, shown(n)));
+    return;
+  }
+  Adjustable a;
+  a.where = position(n.source());
+  a.value = static_cast<double>(*whole);
+  stage.values[std::string(key)] = a;
+}
+
+// The coupling factor, fixed or open, strictly inside (-1, 1).
+void read_coupling(Reader& reader, const toml::node& n, const std::string& who, StageSpec& stage) {
+  auto a = reader.adjustable(n, Dimension::dimensionless, who + "k", false, true);
+  if (!a) return;
+  const bool fixed_bad = a->is_fixed() && !(a->value > -1.0 && a->value < 1.0);
+  const bool range_bad = a->mode == Adjustable::Mode::range && !(a->min > -1.0 && a->max < 1.0);
+  if (fixed_bad || range_bad)
+    reader.error(n, who + "k must be in (-1, 1), saw " + shown(n));
+  else
+    stage.values["k"] = *a;
+}
+
+// Kind-specific element values and normalised designs. Several candidate kinds share keys
+// (l, r_l, m), so each key is read once: otherwise a bad value is reported once per kind.
+void read_kind_parameters(Reader& reader, const toml::table& t, const std::string& who, StageSpec& stage) {
   std::set<std::string_view> seen;
   for (auto kind : stage.kinds.empty() ? every_kind() : stage.kinds)
     for (const auto& p : load_kind_info(kind).parameters) {
       const auto* n = t.get(p.key);
       if (!n || !seen.insert(p.key).second) continue;
       if (p.key == "m" || p.key == "zeta") {
-        stage.design_where = position(n->source());
-        auto v = reader.bounded(*n, Dimension::dimensionless, who + std::string(p.key), true);
-        // Decades past any peaking design: m = 1e12 makes an inductor of hundreds of henries,
-        // zeta = 1e-9 a coupling of -1 and infinite halves; the models cannot solve either.
-        const double lo = p.key == "m" ? kMinDesignM : kMinDesignZeta, hi = p.key == "m" ? kMaxDesignM : kMaxDesignZeta;
-        if (v && !(*v >= lo && *v <= hi)) {
-          reader.error(*n, fmt::format("{}{} = {} is outside the plausible range {:g} .. {:g} of a peaking design",
-                                       who, p.key, shown(*n), lo, hi));
-          v.reset();
-        }
-        (p.key == "m" ? stage.m : stage.zeta) = v;
-        if (!v) stage.values[std::string(p.key)] = {};  // remembered as seen, to report once
-        continue;
-      }
-      if (p.key == "response") {
+        read_design_factor(reader, *n, p.key, who, stage);
+      } else if (p.key == "response") {
         stage.design_where = position(n->source());
         if (auto w = reader.word(*n, kResponses, who + "response")) stage.response = *w;
-        stage.values["response"] = {};
-        continue;
-      }
-      if (p.role == ParameterRole::structure) {  // a whole number of cells
-        const auto whole = n->value<int64_t>();
-        const bool integral = whole && (n->is_integer() || static_cast<double>(*whole) == *n->value<double>());
-        if (!integral || *whole < 1 || *whole > kMaxCoreStages) {
-          reader.error(*n, fmt::format("{}{} must be a whole number 1 .. {}, saw {}", who, p.key, kMaxCoreStages, shown(*n)));
-          continue;
-        }
-        Adjustable a;
-        a.where = position(n->source());
-        a.value = static_cast<double>(*whole);
-        stage.values[std::string(p.key)] = a;
-        continue;
-      }
-      if (p.key == "k") {
-        if (auto a = reader.adjustable(*n, Dimension::dimensionless, who + "k", false, true)) {
-          const bool fixed_bad = a->is_fixed() && !(a->value > -1.0 && a->value < 1.0);
-          const bool range_bad = a->mode == Adjustable::Mode::range && !(a->min > -1.0 && a->max < 1.0);
-          if (fixed_bad || range_bad)
-            reader.error(*n, who + "k must be in (-1, 1), saw " + shown(*n));
-          else
-            stage.values["k"] = *a;
-        }
-        continue;
-      }
-      if (auto a = reader.adjustable(*n, p.dimension, who + std::string(p.key), p.positive))
+      } else if (p.role == ParameterRole::structure) {
+        read_structure(reader, *n, p.key, who, stage);
+      } else if (p.key == "k") {
+        read_coupling(reader, *n, who, stage);
+      } else if (auto a = reader.adjustable(*n, p.dimension, who + std::string(p.key), p.positive)) {
         stage.values[std::string(p.key)] = *a;
+      }
     }
-  // "response" and the failed m/zeta placeholders are not element values.
-  stage.values.erase("response");
+  // The failed m/zeta placeholders are not element values.
   stage.values.erase("m");
   stage.values.erase("zeta");
   check_design_conflicts(reader, stage, who);
+}
 
-  if (const auto* n = t.get("feeds")) {
-    stage.feeds_where = position(n->source());
-    std::vector<std::string> feeds;
-    bool ok = true;
-    if (n->is_string())
-      feeds.push_back(n->as_string()->get());
-    else if (const auto* array = n->as_array()) {
-      for (const auto& e : *array) {
-        if (!e.is_string()) {
-          reader.error(e, who + "feeds: expected stage ids (strings), saw " + shown(e));
-          ok = false;
-        } else {
-          feeds.push_back(e.as_string()->get());
-        }
+void read_feeds(Reader& reader, const toml::table& t, const std::string& who, StageSpec& stage) {
+  const auto* n = t.get("feeds");
+  if (!n) return;
+  stage.feeds_where = position(n->source());
+  std::vector<std::string> feeds;
+  bool ok = true;
+  if (n->is_string()) {
+    feeds.push_back(n->as_string()->get());
+  } else if (const auto* array = n->as_array()) {
+    for (const auto& e : *array) {
+      if (!e.is_string()) {
+        reader.error(e, who + "feeds: expected stage ids (strings), saw " + shown(e));
+        ok = false;
+      } else {
+        feeds.push_back(e.as_string()->get());
       }
-    } else {
-      reader.error(*n, who + "feeds: expected a stage id or a list of ids, saw " + shown(*n));
-      ok = false;
     }
-    if (ok) stage.feeds = feeds;
+  } else {
+    reader.error(*n, who + "feeds: expected a stage id or a list of ids, saw " + shown(*n));
+    ok = false;
   }
+  if (ok) stage.feeds = feeds;
+}
+
+// count: a whole number of copies, "auto" or { min, max }, within kMaxCount.
+void read_count(Reader& reader, const toml::table& t, const std::string& who, StageSpec& stage) {
   stage.count.value = 1;
-  if (const auto* n = t.get("count")) {
-    stage.count.where = position(n->source());
-    if (n->is_string() && n->as_string()->get() == "auto") {
-      stage.count.mode = Adjustable::Mode::automatic;
-    } else if (const auto* range = n->as_table()) {
-      const auto lo = range->get("min") ? range->get("min")->value<int64_t>() : std::nullopt;
-      const auto hi = range->get("max") ? range->get("max")->value<int64_t>() : std::nullopt;
-      reader.check_keys(*range, {"min", "max"}, who + "count: ");
-      if (!lo || !hi || *lo < 1 || *hi < *lo)
-        reader.error(*n, who + "count: a range needs integers 1 <= min <= max, e.g. { min = 3, max = 7 }");
-      else if (*hi > kMaxCount)
-        reader.error(*range->get("max"), who + "count: max " + std::to_string(*hi) + " is over the limit of " +
-                                             std::to_string(kMaxCount) + " copies of one stage");
-      else {
-        stage.count.mode = Adjustable::Mode::range;
-        stage.count.min = static_cast<double>(*lo);
-        stage.count.max = static_cast<double>(*hi);
-      }
-    } else if (const auto large = n->as_integer(); large && large->get() > kMaxCount) {
-      reader.error(*n, who + "count " + std::to_string(large->get()) + " is over the limit of " +
-                           std::to_string(kMaxCount) + " copies of one stage");
-    } else if (const auto v = n->as_integer(); v && v->get() >= 1) {
-      stage.count.value = static_cast<double>(v->get());
+  const auto* n = t.get("count");
+  if (!n) return;
+  stage.count.where = position(n->source());
+  const auto over_limit = [&](int64_t count) {
+    return std::to_string(count) + " is over the limit of " + std::to_string(kMaxCount) + " copies of one stage";
+  };
+  if (n->is_string() && n->as_string()->get() == "auto") {
+    stage.count.mode = Adjustable::Mode::automatic;
+  } else if (const auto* range = n->as_table()) {
+    const auto lo = range->get("min") ? range->get("min")->value<int64_t>() : std::nullopt;
+    const auto hi = range->get("max") ? range->get("max")->value<int64_t>() : std::nullopt;
+    reader.check_keys(*range, {"min", "max"}, who + "count: ");
+    if (!lo || !hi || *lo < 1 || *hi < *lo) {
+      reader.error(*n, who + "count: a range needs integers 1 <= min <= max, e.g. { min = 3, max = 7 }");
+    } else if (*hi > kMaxCount) {
+      reader.error(*range->get("max"), who + "count: max " + over_limit(*hi));
     } else {
-      reader.error(*n, who + "count must be a whole number of copies >= 1, \"auto\" or { min, max }, saw " + shown(*n));
+      stage.count.mode = Adjustable::Mode::range;
+      stage.count.min = static_cast<double>(*lo);
+      stage.count.max = static_cast<double>(*hi);
     }
+  } else if (const auto large = n->as_integer(); large && large->get() > kMaxCount) {
+    reader.error(*n, who + "count " + over_limit(large->get()));
+  } else if (const auto v = n->as_integer(); v && v->get() >= 1) {
+    stage.count.value = static_cast<double>(v->get());
+  } else {
+    reader.error(*n, who + "count must be a whole number of copies >= 1, \"auto\" or { min, max }, saw " + shown(*n));
   }
-  if (const auto* n = t.get("tap")) {
-    if (const auto b = n->as_boolean())
-      stage.tap = b->get();
-    else
-      reader.error(*n, who + "tap: expected true or false, saw " + shown(*n));
-  }
+}
+
+void read_tap(Reader& reader, const toml::table& t, const std::string& who, StageSpec& stage) {
+  const auto* n = t.get("tap");
+  if (!n) return;
+  if (const auto b = n->as_boolean())
+    stage.tap = b->get();
+  else
+    reader.error(*n, who + "tap: expected true or false, saw " + shown(*n));
+}
+
+void read_stage(Reader& reader, const toml::table& t, size_t index, ChainSpec& spec) {
+  StageSpec stage;
+  stage.where = position(t.source());
+  const std::string who = read_stage_id(reader, t, index, stage);
+  read_stage_kind(reader, t, who, stage);
+  const Keys allowed = stage.kinds.empty() ? stage_keys_for(every_kind()) : stage_keys_for(stage.kinds);
+  reader.check_keys(t, allowed, who);
+  read_common_elements(reader, t, who, stage);
+  read_kind_parameters(reader, t, who, stage);
+  read_feeds(reader, t, who, stage);
+  read_count(reader, t, who, stage);
+  read_tap(reader, t, who, stage);
   spec.stages.push_back(std::move(stage));
 }
 

@@ -31,16 +31,20 @@ std::string join_ids(const std::vector<std::string>& ids, std::string_view sep =
   return out;
 }
 
-}  // namespace
-
-std::optional<std::vector<GraphStage>> build_stage_graph(const ChainSpec& spec, Diagnostics& diagnostics,
-                                                         const std::vector<int>* counts) {
+// Each [[stage]] table's copies, in file order; the tables' ids must be unique.
+struct StageCopies {
   std::vector<GraphStage> stages;
-  std::vector<size_t> first_copy(spec.stages.size()), last_copy(spec.stages.size());
-  std::map<std::string, size_t, std::less<>> spec_by_id;
+  std::vector<size_t> first_copy, last_copy;          // per [[stage]] table
+  std::map<std::string, size_t, std::less<>> table_by_id;
+};
+
+StageCopies list_stage_copies(const ChainSpec& spec, Diagnostics& diagnostics, const std::vector<int>* counts) {
+  StageCopies copies;
+  copies.first_copy.resize(spec.stages.size());
+  copies.last_copy.resize(spec.stages.size());
   for (size_t i = 0; i < spec.stages.size(); ++i) {
     const auto& s = spec.stages[i];
-    const auto [it, fresh] = spec_by_id.emplace(s.id, i);
+    const auto [it, fresh] = copies.table_by_id.emplace(s.id, i);
     if (!fresh)
       diagnostics.error(s.where, fmt::format("stage '{}': id already used by the stage at line {}", s.id,
                                              spec.stages[it->second].where.line));
@@ -53,25 +57,29 @@ std::optional<std::vector<GraphStage>> build_stage_graph(const ChainSpec& spec, 
     } else {
       count = static_cast<int>(s.count.value);
     }
-    first_copy[i] = stages.size();
+    copies.first_copy[i] = copies.stages.size();
     for (int c = 1; c <= count; ++c)
-      stages.push_back({count > 1 || s.count.mode != Adjustable::Mode::fixed || s.count.value > 1
-                            ? s.id + "." + std::to_string(c)
-                            : s.id,
-                        i, count > 1 ? c : 0, -1});
-    last_copy[i] = stages.size() - 1;
+      copies.stages.push_back({count > 1 || s.count.mode != Adjustable::Mode::fixed || s.count.value > 1
+                                   ? s.id + "." + std::to_string(c)
+                                   : s.id,
+                               i, count > 1 ? c : 0, -1});
+    copies.last_copy[i] = copies.stages.size() - 1;
   }
-  if (!diagnostics.empty()) return std::nullopt;
+  return copies;
+}
 
+// The edges: each copy feeds the next, the last copy feeds what its table's `feeds` names or,
+// by default, the next table's first copy. Returns each copy's drivers.
+std::vector<std::vector<size_t>> connect_stages(const ChainSpec& spec, const StageCopies& copies, Graph& graph,
+                                                Diagnostics& diagnostics) {
   // Stages named in some explicit `feeds` are not given a default driver.
   std::vector<bool> named(spec.stages.size(), false);
   for (const auto& s : spec.stages)
     if (s.feeds)
       for (const auto& id : *s.feeds)
-        if (auto it = spec_by_id.find(id); it != spec_by_id.end()) named[it->second] = true;
+        if (auto it = copies.table_by_id.find(id); it != copies.table_by_id.end()) named[it->second] = true;
 
-  Graph graph(stages.size());
-  std::vector<std::vector<size_t>> drivers(stages.size());
+  std::vector<std::vector<size_t>> drivers(copies.stages.size());
   auto connect = [&](size_t from, size_t to) {
     boost::add_edge(from, to, graph);
     drivers[to].push_back(from);
@@ -80,24 +88,28 @@ std::optional<std::vector<GraphStage>> build_stage_graph(const ChainSpec& spec, 
   for (const auto& s : spec.stages) ids.push_back(s.id);
   for (size_t i = 0; i < spec.stages.size(); ++i) {
     const auto& s = spec.stages[i];
-    for (size_t c = first_copy[i]; c < last_copy[i]; ++c) connect(c, c + 1);
+    for (size_t c = copies.first_copy[i]; c < copies.last_copy[i]; ++c) connect(c, c + 1);
     if (s.feeds) {
       for (const auto& id : *s.feeds) {
-        const auto it = spec_by_id.find(id);
-        if (it == spec_by_id.end()) {
+        const auto it = copies.table_by_id.find(id);
+        if (it == copies.table_by_id.end()) {
           const auto guess = closest_match(id, ids);
           diagnostics.error(s.feeds_where,
                             fmt::format("stage '{}': feeds unknown stage '{}'{}", s.id, id,
                                         guess.empty() ? "" : fmt::format("; did you mean '{}'?", guess)));
           continue;
         }
-        connect(last_copy[i], first_copy[it->second]);
+        connect(copies.last_copy[i], copies.first_copy[it->second]);
       }
     } else if (i + 1 < spec.stages.size() && !named[i + 1]) {
-      connect(last_copy[i], first_copy[i + 1]);
+      connect(copies.last_copy[i], copies.first_copy[i + 1]);
     }
   }
+  return drivers;
+}
 
+void check_one_driver(const ChainSpec& spec, const std::vector<GraphStage>& stages,
+                      const std::vector<std::vector<size_t>>& drivers, Diagnostics& diagnostics) {
   for (size_t v = 0; v < stages.size(); ++v) {
     if (drivers[v].size() <= 1) continue;
     std::vector<std::string> who;
@@ -106,27 +118,32 @@ std::optional<std::vector<GraphStage>> build_stage_graph(const ChainSpec& spec, 
                       fmt::format("stage '{}' is fed by {}; a stage input can have only one driver",
                                   stages[v].id, join_ids(who, " and ")));
   }
-  if (!diagnostics.empty()) return std::nullopt;
+}
 
+// Run after check_one_driver has passed: each cycle is then the driver chain of its back edge.
+void check_no_cycles(const ChainSpec& spec, const std::vector<GraphStage>& stages, const Graph& graph,
+                     const std::vector<std::vector<size_t>>& drivers, Diagnostics& diagnostics) {
   std::vector<std::pair<size_t, size_t>> back_edges;
   BackEdgeRecorder recorder;
   recorder.back_edges = &back_edges;
   boost::depth_first_search(graph, boost::visitor(recorder));
   for (const auto& [from, to] : back_edges) {
-    // With one driver per stage, the cycle is the driver chain from `from` back to `to`.
     std::vector<std::string> cycle{stages[to].id};
     std::vector<size_t> walk;
     for (size_t v = from; v != to && walk.size() <= stages.size(); v = drivers[v].front()) walk.push_back(v);
     for (auto it = walk.rbegin(); it != walk.rend(); ++it) cycle.push_back(stages[*it].id);
     cycle.push_back(stages[to].id);
     // The back edge leaves `from`: point at its feeds when that is what closes the cycle.
-    diagnostics.error(spec.stages[stages[from].spec].feeds_where.line ? spec.stages[stages[from].spec].feeds_where
-                                                                      : spec.stages[stages[from].spec].where,
+    const auto& table = spec.stages[stages[from].spec];
+    diagnostics.error(table.feeds_where.line ? table.feeds_where : table.where,
                       fmt::format("the stages form a cycle: {}; a chain must run from its input to its outputs",
                                   join_ids(cycle)));
   }
-  if (!diagnostics.empty()) return std::nullopt;
+}
 
+// Sets each copy's driver; exactly one copy may be driven by the chain input.
+void set_drivers(const ChainSpec& spec, std::vector<GraphStage>& stages,
+                 const std::vector<std::vector<size_t>>& drivers, Diagnostics& diagnostics) {
   std::vector<std::string> roots;
   for (size_t v = 0; v < stages.size(); ++v) {
     if (drivers[v].empty()) roots.push_back(stages[v].id);
@@ -136,8 +153,23 @@ std::optional<std::vector<GraphStage>> build_stage_graph(const ChainSpec& spec, 
     diagnostics.error(spec.stages[stages[0].spec].where,
                       fmt::format("stages {} have no driver; exactly one stage may be driven by the chain "
                                   "input (list the others in some stage's feeds)", join_ids(roots, ", ")));
+}
+
+}  // namespace
+
+std::optional<std::vector<GraphStage>> build_stage_graph(const ChainSpec& spec, Diagnostics& diagnostics,
+                                                         const std::vector<int>* counts) {
+  auto copies = list_stage_copies(spec, diagnostics, counts);
   if (!diagnostics.empty()) return std::nullopt;
-  return stages;
+  Graph graph(copies.stages.size());
+  const auto drivers = connect_stages(spec, copies, graph, diagnostics);
+  check_one_driver(spec, copies.stages, drivers, diagnostics);
+  if (!diagnostics.empty()) return std::nullopt;
+  check_no_cycles(spec, copies.stages, graph, drivers, diagnostics);
+  if (!diagnostics.empty()) return std::nullopt;
+  set_drivers(spec, copies.stages, drivers, diagnostics);
+  if (!diagnostics.empty()) return std::nullopt;
+  return std::move(copies.stages);
 }
 
 void apply_designs(Chain& chain, const ChainSpec& spec, const std::vector<GraphStage>& graph,
@@ -264,87 +296,90 @@ void check_current_input(const ChainSpec& spec, const std::vector<GraphStage>& g
                                                 "whose input is a photocurrent: the sensitivity is reported instead");
 }
 
-std::optional<Chain> resolve_chain(const ChainSpec& spec, Diagnostics& diagnostics) {
-  const auto graph = build_stage_graph(spec, diagnostics);
-  if (!graph) return std::nullopt;
-  check_current_input(spec, *graph, diagnostics);
-  if (!diagnostics.empty()) return std::nullopt;
+namespace {
 
-  // Per spec stage, reported once even when it has copies.
-  std::vector<StageCircuit> circuits(spec.stages.size());
-  std::vector<double> c_in(spec.stages.size()), c_load(spec.stages.size());
-  for (size_t i = 0; i < spec.stages.size(); ++i) {
-    const auto& s = spec.stages[i];
-    const std::string who = "stage '" + s.id + "': ";
-    if (!s.kind_is_fixed()) {
-      diagnostics.error(s.kind_where, who + "kind lists candidates; analyze needs one kind "
-                                            "(peakplan plan chooses among them)");
-      continue;
-    }
-    auto& c = circuits[i];
-    c.kind = s.kinds.front();
-    std::set<std::string, std::less<>> reported;  // a shorthand key is read for several elements
-    auto value = [&](std::string_view key, double fallback) {
-      const auto* a = s.find(key);
-      if (!a) return fallback;
-      if (!a->is_fixed()) {
-        if (reported.insert(std::string(key)).second)
-          diagnostics.error(a->where, who + std::string(key) + " is " +
-                                        (a->mode == Adjustable::Mode::automatic ? "\"auto\"" : "a range") +
-                                        "; analyze needs a value (peakplan plan chooses it)");
-        return fallback;
-      }
-      return a->value;
-    };
-    c.gm = value("gm", 0.0);
-    c.rd = value("rd", 0.0);
-    c_in[i] = value("c_in", 0.0);
-    c.c_out = value("c_out", 0.0);
-    c_load[i] = value("c_load", 0.0);
-    c.r_load = value("r_load", std::numeric_limits<double>::infinity());
-    if (const auto* tail = s.find("tail_current"); tail && c.gm > 0.0) {
-      const double bound = max_pair_gm(tail->value, spec.technology.temperature);
-      if (c.gm > bound)
-        diagnostics.error(tail->where, fmt::format("{}tail_current {} cannot give gm = {}: a {} pair's half-circuit "
-                                                   "gm is at most I_T/(2 V_T) = {} at {:g} K; expected at least {}",
-                                                   who, format_si(tail->value, "A", 4), format_si(c.gm, "S", 4),
-                                                   s.pair.empty() ? "bipolar" : s.pair, format_si(bound, "S", 4),
-                                                   spec.technology.temperature,
-                                                   format_si(tail->value * c.gm / bound, "A", 4)));
-    }
-    // A stage's own gain gm (Rd || r_load) decades past any broadband stage's (gm = 100 nS with
-    // rd = 1 mohm, or rd = 100 Mohm) puts poles and gains in one cascade so far apart that its
-    // polynomials cannot be solved: each value is plausible alone, the product is not.
-    if (const auto* rd_at = s.find("rd"); rd_at && c.gm > 0.0 && c.rd > 0.0) {
-      const double r = std::isfinite(c.r_load) ? c.rd * c.r_load / (c.rd + c.r_load) : c.rd;
-      const double gain = c.gm * r;
-      if (!(gain >= kMinStageGain && gain <= kMaxStageGain))
-        diagnostics.error(rd_at->where,
-                          fmt::format("{}gm x {} = {} x {} is a stage gain of {:.3g} ({:.1f} dB), outside the "
-                                      "plausible range {:g} .. {:g} ({:.0f} .. {:.0f} dB); check the units of gm and rd",
-                                      who, std::isfinite(c.r_load) ? "(rd || r_load)" : "rd",
-                                      format_si(c.gm, "S", 4), format_si(r, "ohm", 4), gain,
-                                      20.0 * std::log10(gain), kMinStageGain, kMaxStageGain,
-                                      20.0 * std::log10(kMinStageGain), 20.0 * std::log10(kMaxStageGain)));
-    }
-    const auto& info = load_kind_info(c.kind);
-    const auto factor = design_factor(s, info);
-    const auto missing = info.missing ? info.missing([&](std::string_view key) { return s.find(key) != nullptr; },
-                                                     factor.has_value())
-                                      : std::string();
-    if (!missing.empty()) diagnostics.error(s.where, who + missing);
-    read_kind_values(c, value);
-    if (info.design == DesignFactor::zeta && s.zeta && !(*s.zeta > 0.0))
-      diagnostics.error(s.design_where, who + "zeta must be positive");
-    if (gives_design(s) && info.design == DesignFactor::none)
-      diagnostics.error(s.design_where, who + "a " + std::string(info.name) + " stage has no peaking design");
+// A pair's half-circuit gm is at most I_T/(2 V_T) (the bipolar bound; a MOS pair's is lower).
+void check_tail_gm(const ChainSpec& spec, const StageSpec& s, const StageCircuit& c, const std::string& who,
+                   Diagnostics& diagnostics) {
+  const auto* tail = s.find("tail_current");
+  if (!tail || !(c.gm > 0.0)) return;
+  const double bound = max_pair_gm(tail->value, spec.technology.temperature);
+  if (c.gm > bound)
+    diagnostics.error(tail->where, fmt::format("{}tail_current {} cannot give gm = {}: a {} pair's half-circuit "
+                                               "gm is at most I_T/(2 V_T) = {} at {:g} K; expected at least {}",
+                                               who, format_si(tail->value, "A", 4), format_si(c.gm, "S", 4),
+                                               s.pair.empty() ? "bipolar" : s.pair, format_si(bound, "S", 4),
+                                               spec.technology.temperature,
+                                               format_si(tail->value * c.gm / bound, "A", 4)));
+}
+
+// A stage's own gain gm (Rd || r_load) decades past any broadband stage's (gm = 100 nS with
+// rd = 1 mohm, or rd = 100 Mohm) puts poles and gains in one cascade so far apart that its
+// polynomials cannot be solved: each value is plausible alone, the product is not.
+void check_stage_gain(const StageSpec& s, const StageCircuit& c, const std::string& who, Diagnostics& diagnostics) {
+  const auto* rd_at = s.find("rd");
+  if (!rd_at || !(c.gm > 0.0) || !(c.rd > 0.0)) return;
+  const double r = std::isfinite(c.r_load) ? c.rd * c.r_load / (c.rd + c.r_load) : c.rd;
+  const double gain = c.gm * r;
+  if (!(gain >= kMinStageGain && gain <= kMaxStageGain))
+    diagnostics.error(rd_at->where,
+                      fmt::format("{}gm x {} = {} x {} is a stage gain of {:.3g} ({:.1f} dB), outside the "
+                                  "plausible range {:g} .. {:g} ({:.0f} .. {:.0f} dB); check the units of gm and rd",
+                                  who, std::isfinite(c.r_load) ? "(rd || r_load)" : "rd", format_si(c.gm, "S", 4),
+                                  format_si(r, "ohm", 4), gain, 20.0 * std::log10(gain), kMinStageGain,
+                                  kMaxStageGain, 20.0 * std::log10(kMinStageGain), 20.0 * std::log10(kMaxStageGain)));
+}
+
+// The circuit of one [[stage]] table as written: every value fixed, the kind's required keys
+// present, a design only where the kind has one. Capacitances of the node go to c_in and c_load.
+void read_stage_circuit(const ChainSpec& spec, const StageSpec& s, StageCircuit& c, double& c_in, double& c_load,
+                        Diagnostics& diagnostics) {
+  const std::string who = "stage '" + s.id + "': ";
+  if (!s.kind_is_fixed()) {
+    diagnostics.error(s.kind_where, who + "kind lists candidates; analyze needs one kind "
+                                          "(peakplan plan chooses among them)");
+    return;
   }
-  if (!diagnostics.empty()) return std::nullopt;
+  c.kind = s.kinds.front();
+  std::set<std::string, std::less<>> reported;  // a shorthand key is read for several elements
+  auto value = [&](std::string_view key, double fallback) {
+    const auto* a = s.find(key);
+    if (!a) return fallback;
+    if (!a->is_fixed()) {
+      if (reported.insert(std::string(key)).second)
+        diagnostics.error(a->where, who + std::string(key) + " is " +
+                                      (a->mode == Adjustable::Mode::automatic ? "\"auto\"" : "a range") +
+                                      "; analyze needs a value (peakplan plan chooses it)");
+      return fallback;
+    }
+    return a->value;
+  };
+  c.gm = value("gm", 0.0);
+  c.rd = value("rd", 0.0);
+  c_in = value("c_in", 0.0);
+  c.c_out = value("c_out", 0.0);
+  c_load = value("c_load", 0.0);
+  c.r_load = value("r_load", std::numeric_limits<double>::infinity());
+  check_tail_gm(spec, s, c, who, diagnostics);
+  check_stage_gain(s, c, who, diagnostics);
+  const auto& info = load_kind_info(c.kind);
+  const auto factor = design_factor(s, info);
+  const auto missing = info.missing ? info.missing([&](std::string_view key) { return s.find(key) != nullptr; },
+                                                   factor.has_value())
+                                    : std::string();
+  if (!missing.empty()) diagnostics.error(s.where, who + missing);
+  read_kind_values(c, value);
+  if (info.design == DesignFactor::zeta && s.zeta && !(*s.zeta > 0.0))
+    diagnostics.error(s.design_where, who + "zeta must be positive");
+  if (gives_design(s) && info.design == DesignFactor::none)
+    diagnostics.error(s.design_where, who + "a " + std::string(info.name) + " stage has no peaking design");
+}
 
-  Chain chain = assemble_chain(spec, *graph, circuits, c_in, c_load);
-  // A design that needs the output node's capacitance cannot be resolved without one.
+// A design that needs the output node's capacitance cannot be resolved without one.
+void check_design_loads(const ChainSpec& spec, const std::vector<GraphStage>& graph, const Chain& chain,
+                        Diagnostics& diagnostics) {
   for (size_t i = 0; i < chain.stages.size(); ++i) {
-    const auto& s = spec.stages[(*graph)[i].spec];
+    const auto& s = spec.stages[graph[i].spec];
     const auto& c = chain.stages[i].circuit;
     const auto& info = load_kind_info(c.kind);
     if (design_factor(s, info) && !(info.design_capacitance(c) > 0.0))
@@ -352,14 +387,16 @@ std::optional<Chain> resolve_chain(const ChainSpec& spec, Diagnostics& diagnosti
                                                     "node (c_in of the stage it feeds, or c_load), found none",
                                                     chain.stages[i].id));
   }
-  if (!diagnostics.empty()) return std::nullopt;
-  apply_designs(chain, spec, *graph);
-  // What a design sets must be a plausible element too (m = 10 with rd = 1 Mohm is 0.1 H).
+}
+
+// What a design sets must be a plausible element too (m = 10 with rd = 1 Mohm is 0.1 H).
+void check_designed_inductances(const ChainSpec& spec, const std::vector<GraphStage>& graph, const Chain& chain,
+                                Diagnostics& diagnostics) {
   for (size_t i = 0; i < chain.stages.size(); ++i) {
-    const auto& s = spec.stages[(*graph)[i].spec];
+    const auto& s = spec.stages[graph[i].spec];
     const auto& c = chain.stages[i].circuit;
     const auto& info = load_kind_info(c.kind);
-    if (!gives_design(s) || info.design == DesignFactor::none || (*graph)[i].copy > 1) continue;
+    if (!gives_design(s) || info.design == DesignFactor::none || graph[i].copy > 1) continue;
     for (const auto& p : info.parameters) {  // the inductances the design set, not given
       if (p.role != ParameterRole::element || p.dimension != Dimension::inductance || s.find(p.key)) continue;
       const double l = c.*p.field;
@@ -371,6 +408,28 @@ std::optional<Chain> resolve_chain(const ChainSpec& spec, Diagnostics& diagnosti
       break;  // one error per design
     }
   }
+}
+
+}  // namespace
+
+std::optional<Chain> resolve_chain(const ChainSpec& spec, Diagnostics& diagnostics) {
+  const auto graph = build_stage_graph(spec, diagnostics);
+  if (!graph) return std::nullopt;
+  check_current_input(spec, *graph, diagnostics);
+  if (!diagnostics.empty()) return std::nullopt;
+
+  // Per [[stage]] table, so an error is reported once even when the stage has copies.
+  std::vector<StageCircuit> circuits(spec.stages.size());
+  std::vector<double> c_in(spec.stages.size()), c_load(spec.stages.size());
+  for (size_t i = 0; i < spec.stages.size(); ++i)
+    read_stage_circuit(spec, spec.stages[i], circuits[i], c_in[i], c_load[i], diagnostics);
+  if (!diagnostics.empty()) return std::nullopt;
+
+  Chain chain = assemble_chain(spec, *graph, circuits, c_in, c_load);
+  check_design_loads(spec, *graph, chain, diagnostics);
+  if (!diagnostics.empty()) return std::nullopt;
+  apply_designs(chain, spec, *graph);
+  check_designed_inductances(spec, *graph, chain, diagnostics);
   if (spec.variation) check_variation(*spec.variation, chain, diagnostics);
   if (!diagnostics.empty()) return std::nullopt;
   return chain;
