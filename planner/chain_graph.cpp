@@ -302,7 +302,9 @@ std::optional<Chain> resolve_chain(const ChainSpec& spec, Diagnostics& diagnosti
     c.c_out = value("c_out", 0.0);
     c_load[i] = value("c_load", 0.0);
     c.r_load = value("r_load", std::numeric_limits<double>::infinity());
-    if (const auto* tail = s.find("tail_current"); tail && c.gm > 0.0) {
+    if (const auto* tail = s.find("tail_current"); tail && !tail->is_fixed()) {
+      value("tail_current", 0.0);  // reports the open value
+    } else if (tail && c.gm > 0.0) {
       const double bound = max_pair_gm(tail->value, spec.technology.temperature);
       if (c.gm > bound)
         diagnostics.error(tail->where, fmt::format("{}tail_current {} cannot give gm = {}: a {} pair's half-circuit "
