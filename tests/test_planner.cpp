@@ -2,6 +2,7 @@
 #include <doctest/doctest.h>
 
 #include <algorithm>
+#include <cmath>
 #include <cstdio>
 #include <filesystem>
 #include <fstream>
@@ -10,6 +11,7 @@
 
 #include "planner/chain_graph.hpp"
 #include "planner/planner.hpp"
+#include "planner/stage_value.hpp"
 #include "cli_support.hpp"
 #include "six_open_stages.hpp"
 #include "test_support.hpp"
@@ -446,6 +448,12 @@ TEST_CASE("planner: open tail currents meet output_swing and ddj, and the writte
     CHECK(tail->is_fixed());
     if (s.id == "out") CHECK((tail->value >= 2e-3 && tail->value <= 12e-3));
   }
+  // derived: stage_value (the sweep's and the budget's chosen-value column) reads the resolved
+  // stage's tail current, which is the written value.
+  const auto resolved = resolve_chain(*spec, d);
+  REQUIRE(resolved);
+  CHECK(stage_value(resolved->stages.back(), "tail_current") == spec->stages.back().find("tail_current")->value);
+  CHECK(std::isnan(stage_value(resolved->stages.back(), "no_such_key")));
 }
 
 TEST_CASE("planner: an output_swing beyond I_T Rd of the largest tail current is not met, exit 1") {
