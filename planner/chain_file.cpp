@@ -9,6 +9,7 @@
 #include <sstream>
 #include <toml++/toml.h>
 
+#include "models/pair_curve.hpp"
 #include "planner/overrides.hpp"
 #include "planner/plausible_range.hpp"
 #include "planner/toml_reading.hpp"
@@ -537,6 +538,22 @@ void read_limit(Reader& reader, const toml::table& t, const std::string& who, St
   }
 }
 
+// A tail-current range for the planner must reach the least that gives a fixed gm, 2 V_T gm
+// (models/pair_curve.hpp); a fixed tail current is checked the same way by resolve_chain.
+void check_tail_range(Reader& reader, const toml::table& t, const std::string& who, const StageSpec& stage,
+                      double temperature) {
+  const auto* tail = stage.find("tail_current");
+  const auto* gm = stage.find("gm");
+  if (!tail || tail->mode != Adjustable::Mode::range || !gm || !gm->is_fixed()) return;
+  const double least = gm->value / max_pair_gm(1.0, temperature);
+  if (tail->max < least)
+    reader.error(*t.get("tail_current"),
+                 fmt::format("{}tail_current: the range ends at {}, below the least tail current that gives gm = {} "
+                             "(2 V_T gm at {:g} K); expected a max of at least {}",
+                             who, format_si(tail->max, "A", 4), format_si(gm->value, "S", 4), temperature,
+                             format_si(least, "A", 4)));
+}
+
 // [target] output_swing and [limits] ddj are measured on the large-signal eye (docs/physics.md
 // (large signals)): they need the input swing it is driven with and a stage that limits.
 void check_large_signal_requirements(Reader& reader, const toml::table& root, const ChainSpec& spec) {
@@ -594,6 +611,7 @@ void read_stage(Reader& reader, const toml::table& t, size_t index, ChainSpec& s
   element("c_load", Dimension::capacitance, false);
   element("r_load", Dimension::resistance, true);
   read_limit(reader, t, who, stage);
+  check_tail_range(reader, t, who, stage, spec.technology.temperature);
   for (const auto& key : {"gm", "rd"})
     if (!t.get(key))
       reader.error(stage.where, who + "missing " + key + " (" + describe(stage_key_dimension(key)) +
