@@ -193,8 +193,11 @@ ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) 
       if (options.swing_given)
         eye.statistical = statistical_eye(eye.estimate.pulse, eye.estimate.prbs, signal, eye.noise.differential_rms_v);
       summary.eye = std::move(eye);
-      if (options.large_signal && options.swing_given && chain.has_limited_stage())
-        summary.large_signal = large_signal_eye(chain, out, signal);
+      if (options.large_signal && options.swing_given && chain.has_limited_stage()) {
+        LargeSignalOptions large;
+        large.keep_traces = options.keep_waveforms;  // the clipped eye is drawn beside the linear one
+        summary.large_signal = large_signal_eye(chain, out, signal, large);
+      }
     }
     result.outputs.push_back(std::move(summary));
   }

@@ -137,8 +137,17 @@ double edge_delay(const LargeSignalPath& path, const Signal& signal, long hold, 
 
 }  // namespace
 
+double LargeSignalEye::volts(double level) const {
+  if (levels_v.size() < 2) throw std::logic_error("LargeSignalEye::volts: no settled levels");
+  const int eyes = static_cast<int>(levels_v.size()) - 1;
+  const double x = level * eyes;
+  // The end segments extend beyond 0 and 1, as the forward map does for over- and undershoot.
+  const auto e = static_cast<size_t>(std::clamp(static_cast<int>(std::floor(x)), 0, eyes - 1));
+  return levels_v[e] + (x - static_cast<double>(e)) * (levels_v[e + 1] - levels_v[e]);
+}
+
 LargeSignalEye large_signal_eye_at(const Chain& chain, int output, const Signal& signal, int steps,
-                                   const HalfCircuitRun& run) {
+                                   const HalfCircuitRun& run, bool keep_traces) {
   if (!(signal.swing > 0.0) || !std::isfinite(signal.swing))
     throw std::invalid_argument("large_signal_eye: the swing must be positive");
   const LargeSignalPath path(chain, output, signal);
@@ -181,6 +190,7 @@ LargeSignalEye large_signal_eye_at(const Chain& chain, int output, const Signal&
   };
   const EyeOverlay built(pda, PatternOverlay(steps, pulse.ui_count, signal, pda, simulate));
   r.eye = prbs_eye(pulse, signal, built);
+  if (keep_traces) r.traces = eye_traces(pulse, r.eye, signal, built);
   const long common = std::lround(r.eye.eye.best_offset_s / pulse.dt());
   r.height_v = std::numeric_limits<double>::infinity();
   for (int e = 0; e < eyes; ++e) {
@@ -193,14 +203,24 @@ LargeSignalEye large_signal_eye_at(const Chain& chain, int output, const Signal&
   return r;
 }
 
+LargeSignalEye large_signal_eye_fixed(const Chain& chain, int output, const Signal& signal, int steps, int grid,
+                                      bool keep_traces) {
+  const LargeSignalPath path(chain, output, signal);
+  const HalfCircuitRun run = [&](const std::vector<double>& input, int g) { return path.run(input, steps, g); };
+  LargeSignalEye r = large_signal_eye_at(chain, output, signal, grid, run, keep_traces);
+  r.steps_per_ui = steps;
+  r.step_s = signal.ui() / steps;
+  r.grid_steps_per_ui = grid;
+  return r;
+}
+
 LargeSignalEye large_signal_eye(const Chain& chain, int output, const Signal& signal, const LargeSignalOptions& options) {
   const LargeSignalPath path(chain, output, signal);
   // Simulated at `steps` per UI, measured on a grid of at least default_steps_per_ui (the eye
   // code's resolution), the same grid for both runs of a comparison.
   auto grid_for = [](int steps) { return std::max(default_steps_per_ui, steps); };
   auto at = [&](int steps, int grid) {
-    const HalfCircuitRun run = [&, steps](const std::vector<double>& input, int g) { return path.run(input, steps, g); };
-    return large_signal_eye_at(chain, output, signal, grid, run);
+    return large_signal_eye_fixed(chain, output, signal, steps, grid, options.keep_traces);
   };
   const double ideal_v =
       2.0 * std::fabs(path.dc_output(half_input(signal, 1.0)) - path.dc_output(half_input(signal, 0.0))) / signal.eye_count();

@@ -31,6 +31,7 @@
 
 #include "models/chain.hpp"
 #include "models/eye.hpp"
+#include "models/eye_traces.hpp"
 #include "models/step_response.hpp"
 
 namespace peakplan {
@@ -87,6 +88,8 @@ struct LargeSignalOptions {
   // the settled-level eye when the eye is nearly or fully closed), and the width by less than
   // this fraction of it (of 0.05 UI when nearly closed).
   double tolerance = 1e-3;
+  // Keep the overlaid traces of the eye measured (LargeSignalEye::traces), for drawing it.
+  bool keep_traces = false;
 };
 
 struct LargeSignalEye {
@@ -110,6 +113,15 @@ struct LargeSignalEye {
   double delay_shift_s = 0.0;   // delay_s - linear_delay_s (AM-to-PM)
   std::vector<StageCompression> compression;  // every limited stage on the path
   PrbsEye eye;                  // the measured eye in the normalised units described above
+  // The overlaid traces of that eye (models/eye_traces.hpp) in the same normalised units, built
+  // from the overlay that was measured; with LargeSignalOptions::keep_traces. volts() turns
+  // their samples, edges and thresholds into differential output volts.
+  std::optional<EyeTraces> traces;
+
+  // A normalised level (0 at the lowest symbol's settled level, 1 at the highest) in
+  // differential output volts: the inverse of the piecewise-linear map through levels_v the
+  // eye was measured in, so volts(upper) - volts(lower) of an NRZ eye's edges is its height_v.
+  double volts(double level) const;
 };
 
 // The eye of one output at a fixed step from any simulation of its half circuit: `run` returns
@@ -118,8 +130,16 @@ struct LargeSignalEye {
 // netlist). Fills the eye fields, levels_v, level_compression and steps_per_ui/step_s; not the
 // step search, the delays or the compression points.
 using HalfCircuitRun = std::function<std::vector<double>(const std::vector<double>& input, int steps_per_ui)>;
+// With keep_traces, also the overlaid traces (LargeSignalEye::traces).
 LargeSignalEye large_signal_eye_at(const Chain& chain, int output, const Signal& signal, int steps_per_ui,
-                                   const HalfCircuitRun& run);
+                                   const HalfCircuitRun& run, bool keep_traces = false);
+
+// One simulation at a fixed step (dt = UI/steps_per_ui), measured on grid_steps_per_ui (a
+// multiple of it): the eye fields and levels_v only, no step search, delays or compression
+// points. What a search measuring thousands of candidates can afford; step_change is 0 and
+// converged false, since nothing was compared.
+LargeSignalEye large_signal_eye_fixed(const Chain& chain, int output, const Signal& signal, int steps_per_ui,
+                                      int grid_steps_per_ui, bool keep_traces = false);
 
 // Throws std::invalid_argument for a non-positive swing and what pulse_response throws for.
 LargeSignalEye large_signal_eye(const Chain& chain, int output, const Signal& signal,

@@ -9,6 +9,7 @@
 #include <sstream>
 #include <toml++/toml.h>
 
+#include "models/pair_curve.hpp"
 #include "planner/overrides.hpp"
 #include "planner/plausible_range.hpp"
 #include "planner/toml_reading.hpp"
@@ -27,8 +28,8 @@ const Keys kPhotodiodeKeys{"capacitance", "responsivity", "dark_current", "wavel
 const Keys kSignalKeys{"bit_rate", "modulation", "pattern", "input_rise", "swing", "target_ber", "receiver_bandwidth",
                           "extinction_ratio"};
 const Keys kTargetKeys{"gain", "bandwidth", "gain_bandwidth", "objective", "plan_for", "transimpedance",
-                       "sensitivity", "yield"};
-const Keys kLimitsKeys{"overshoot", "peaking", "group_delay_ripple", "ripple_band", "sag", "min_stage_gain"};
+                       "sensitivity", "yield", "output_swing"};
+const Keys kLimitsKeys{"overshoot", "peaking", "group_delay_ripple", "ripple_band", "sag", "min_stage_gain", "ddj"};
 const Keys kTechnologyKeys{"ft", "c_out_ratio", "inductor_q", "max_inductance", "k_range",
                            "min_cb", "max_gm", "gm_over_id", "current_budget", "gamma",
                            "temperature"};
@@ -361,6 +362,10 @@ void read_target(Reader& reader, const toml::table& root, ChainSpec& spec) {
     else if (v)
       spec.target.yield = *v;
   }
+  if (const auto* n = t->get("output_swing")) {
+    spec.target.output_swing_where = position(n->source());
+    spec.target.output_swing = reader.bounded(*n, Dimension::voltage, "[target] output_swing", true);
+  }
 }
 
 void read_limits(Reader& reader, const toml::table& root, ChainSpec& spec) {
@@ -389,6 +394,10 @@ void read_limits(Reader& reader, const toml::table& root, ChainSpec& spec) {
   }
   if (const auto* n = t->get("min_stage_gain"))
     spec.limits.min_stage_gain_db = reader.quantity(*n, Dimension::decibels, "[limits] min_stage_gain");
+  if (const auto* n = t->get("ddj")) {
+    spec.limits.ddj_where = position(n->source());
+    spec.limits.ddj = reader.bounded(*n, Dimension::time, "[limits] ddj", false);
+  }
 }
 
 void read_technology(Reader& reader, const toml::table& root, ChainSpec& spec) {
@@ -510,15 +519,15 @@ void check_design_conflicts(Reader& reader, const StageSpec& stage, const std::s
                                  " design; give one or the other");
 }
 
-// tail_current (a fixed current, > 0) and pair; the gm bound needs gm and the temperature,
-// so resolve_chain checks it.
+// tail_current (a current > 0, "auto" or a range of them for the planner) and pair; the gm bound
+// needs gm and the temperature, so resolve_chain (and the planner, for an open one) checks it.
 void read_limit(Reader& reader, const toml::table& t, const std::string& who, StageSpec& stage) {
   if (const auto* n = t.get("tail_current")) {
-    Adjustable a;
-    a.where = position(n->source());
-    if (const auto v = reader.bounded(*n, Dimension::current, who + "tail_current", true)) {
-      a.value = *v;
-      stage.values["tail_current"] = a;
+    if (const auto a = reader.adjustable(*n, Dimension::current, who + "tail_current", true)) {
+      if (a->mode == Adjustable::Mode::range && !(a->min > 0.0))
+        reader.error(*n, who + "tail_current: a range of tail currents must start above zero, saw " + shown(*n));
+      else
+        stage.values["tail_current"] = *a;
     }
   }
   if (const auto* n = t.get("pair")) {
@@ -527,6 +536,42 @@ void read_limit(Reader& reader, const toml::table& t, const std::string& who, St
     if (!t.get("tail_current"))
       reader.error(*n, who + "pair needs tail_current (the pair's tail current, e.g. tail_current = \"6 mA\")");
   }
+}
+
+// A tail-current range for the planner must reach the least that gives a fixed gm, 2 V_T gm
+// (models/pair_curve.hpp); a fixed tail current is checked the same way by resolve_chain.
+void check_tail_range(Reader& reader, const toml::table& t, const std::string& who, const StageSpec& stage,
+                      double temperature) {
+  const auto* tail = stage.find("tail_current");
+  const auto* gm = stage.find("gm");
+  if (!tail || tail->mode != Adjustable::Mode::range || !gm || !gm->is_fixed()) return;
+  const double least = gm->value / max_pair_gm(1.0, temperature);
+  if (tail->max < least)
+    reader.error(*t.get("tail_current"),
+                 fmt::format("{}tail_current: the range ends at {}, below the least tail current that gives gm = {} "
+                             "(2 V_T gm at {:g} K); expected a max of at least {}",
+                             who, format_si(tail->max, "A", 4), format_si(gm->value, "S", 4), temperature,
+                             format_si(least, "A", 4)));
+}
+
+// [target] output_swing and [limits] ddj are measured on the large-signal eye (docs/physics.md
+// (large signals)): they need the input swing it is driven with and a stage that limits.
+void check_large_signal_requirements(Reader& reader, const toml::table& root, const ChainSpec& spec) {
+  const bool limited = std::any_of(spec.stages.begin(), spec.stages.end(),
+                                   [](const StageSpec& s) { return s.find("tail_current") != nullptr; });
+  auto need = [&](const toml::node* n, const std::string& key) {
+    if (!n) return;
+    if (!spec.signal || !spec.signal->swing)
+      reader.error(*n, key + " is measured on the large-signal eye at the input swing: give [signal] swing "
+                             "(the differential peak-to-peak input, e.g. swing = \"20 mV\")");
+    else if (!limited)
+      reader.error(*n, key + " is measured on the large-signal eye of a limiting chain: give a stage its "
+                             "tail_current (e.g. tail_current = \"6 mA\"), or remove " + key);
+  };
+  const auto* target = root.get("target");
+  const auto* limits = root.get("limits");
+  if (target && target->is_table()) need(target->as_table()->get("output_swing"), "[target] output_swing");
+  if (limits && limits->is_table()) need(limits->as_table()->get("ddj"), "[limits] ddj");
 }
 
 // The stage's id, and the "who" prefix of its messages ("stage 'a1': ", or its index when the id
@@ -721,6 +766,7 @@ void read_stage(Reader& reader, const toml::table& t, size_t index, ChainSpec& s
   const Keys allowed = stage.kinds.empty() ? stage_keys_for(every_kind()) : stage_keys_for(stage.kinds);
   reader.check_keys(t, allowed, who);
   read_common_elements(reader, t, who, stage);
+  check_tail_range(reader, t, who, stage, spec.technology.temperature);
   read_kind_parameters(reader, t, who, stage);
   read_feeds(reader, t, who, stage);
   read_count(reader, t, who, stage);
@@ -793,6 +839,7 @@ std::optional<ChainSpec> read_document(const toml::table& root, Diagnostics& dia
   } else {
     for (size_t i = 0; i < array->size(); ++i) read_stage(reader, *array->get(i)->as_table(), i, spec);
     check_stage_copies(reader, spec);
+    check_large_signal_requirements(reader, root, spec);
   }
   if (spec.name.empty()) spec.name = std::filesystem::path(spec.file).stem().string();
   if (!diagnostics.empty()) return std::nullopt;

@@ -37,7 +37,8 @@ struct StageSpec {
   SourcePosition feeds_where;
   Adjustable count;  // default fixed 1
   bool tap = false;
-  // Limiting (docs/physics.md (large signals)): tail_current is values["tail_current"] (fixed, A); pair
+  // Limiting (docs/physics.md (large signals)): tail_current is values["tail_current"] (A; fixed,
+  // "auto" or a range the planner chooses within); pair
   // is "bipolar" or "mos", empty when not given (bipolar when tail_current is).
   std::string pair;
   SourcePosition pair_where;
@@ -71,6 +72,10 @@ struct TargetSpec {
   SourcePosition plan_for_where;     // or "yield": at the corners the yield target implies
   std::optional<double> yield;       // fraction in (0, 1), for plan_for = "yield"
   SourcePosition yield_where;
+  // A limiting chain: the least differential eye height of the large-signal eye at the main
+  // output, V, at [signal] swing (docs/physics.md (large signals)).
+  std::optional<double> output_swing;
+  SourcePosition output_swing_where;
 };
 
 struct LimitsSpec {
@@ -86,6 +91,10 @@ struct LimitsSpec {
   // kDefaultMinStageGainDb (no planned loss), analyses check none.
   std::optional<double> min_stage_gain_db;
   static constexpr double kDefaultMinStageGainDb = 0.0;
+  // A limiting chain: the largest peak-to-peak data-dependent jitter of the large-signal eye at
+  // the main output, s, at [signal] swing.
+  std::optional<double> ddj;
+  SourcePosition ddj_where;
 };
 
 struct SignalSpec {

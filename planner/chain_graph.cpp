@@ -360,7 +360,10 @@ void read_stage_circuit(const ChainSpec& spec, const StageSpec& s, StageCircuit&
   c.c_out = value("c_out", 0.0);
   c_load = value("c_load", 0.0);
   c.r_load = value("r_load", std::numeric_limits<double>::infinity());
-  check_tail_gm(spec, s, c, who, diagnostics);
+  if (const auto* tail = s.find("tail_current"); tail && !tail->is_fixed())
+    value("tail_current", 0.0);  // reports the open value
+  else
+    check_tail_gm(spec, s, c, who, diagnostics);
   check_stage_gain(s, c, who, diagnostics);
   const auto& info = load_kind_info(c.kind);
   const auto factor = design_factor(s, info);

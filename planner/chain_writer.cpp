@@ -39,19 +39,20 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
     if (s.extinction_ratio_db) out += "extinction_ratio = " + toml_decibels(*s.extinction_ratio_db) + "\n";
   }
   const auto& t = spec.target;
-  if (t.gain_db || t.bandwidth || t.gain_bandwidth || t.transimpedance || t.sensitivity_w) {
+  if (t.gain_db || t.bandwidth || t.gain_bandwidth || t.transimpedance || t.sensitivity_w || t.output_swing) {
     out += "\n[target]\n";
     if (t.gain_db) out += "gain = " + toml_decibels(*t.gain_db) + "\n";
     if (t.transimpedance) out += number_line("transimpedance", *t.transimpedance, "ohm");
     if (t.sensitivity_w) out += number_line("sensitivity", *t.sensitivity_w, "W");
     if (t.bandwidth) out += number_line("bandwidth", *t.bandwidth, "Hz");
     if (t.gain_bandwidth) out += number_line("gain_bandwidth", *t.gain_bandwidth, "Hz");
+    if (t.output_swing) out += number_line("output_swing", *t.output_swing, "V");
     out += "objective = " + toml_basic_string(t.objective) + "\n";
     if (t.plan_for != "nominal") out += "plan_for = " + toml_basic_string(t.plan_for) + "\n";
     if (t.yield) out += "yield = " + toml_percent(*t.yield) + "\n";
   }
   const auto& l = spec.limits;
-  if (l.overshoot || l.peaking_db || l.group_delay_ripple || l.ripple_band || l.sag_db || l.min_stage_gain_db) {
+  if (l.overshoot || l.peaking_db || l.group_delay_ripple || l.ripple_band || l.sag_db || l.min_stage_gain_db || l.ddj) {
     out += "\n[limits]\n";
     if (l.overshoot) out += "overshoot = " + toml_percent(*l.overshoot) + "\n";
     if (l.peaking_db) out += "peaking = " + toml_decibels(*l.peaking_db) + "\n";
@@ -59,6 +60,7 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
     if (l.ripple_band) out += number_line("ripple_band", *l.ripple_band, "Hz");
     if (l.sag_db) out += "sag = " + toml_decibels(*l.sag_db) + "\n";
     if (l.min_stage_gain_db) out += "min_stage_gain = " + toml_decibels(*l.min_stage_gain_db) + "\n";
+    if (l.ddj) out += number_line("ddj", *l.ddj, "s");
   }
   const auto& tech = spec.technology;
   out += "\n[technology]\n";

@@ -7,6 +7,7 @@
 #include <numbers>
 
 #include "models/noise.hpp"
+#include "models/pair_curve.hpp"
 #include "models/parallel.hpp"
 #include "models/peaking_design.hpp"
 #include "models/units.hpp"
@@ -16,6 +17,7 @@ namespace peakplan {
 namespace {
 
 constexpr double kTwoPi = 2.0 * std::numbers::pi;
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 
 // The default search bounds of gm and rd when the file says "auto".
 std::pair<double, double> device_bounds(std::string_view key, const TechnologySpec& tech) {
@@ -25,7 +27,30 @@ std::pair<double, double> device_bounds(std::string_view key, const TechnologySp
     if (tech.current_budget && tech.gm_over_id) gm_max = std::min(gm_max, *tech.current_budget * *tech.gm_over_id);
     return {std::min(1e-3, 0.5 * gm_max), gm_max};
   }
+  if (key == "tail_current") {
+    auto [lo, hi] = kTailCurrentAuto;
+    if (tech.current_budget) hi = std::min(hi, *tech.current_budget);
+    return {std::min(lo, 0.5 * hi), hi};
+  }
   return {10.0, 2000.0};  // rd
+}
+
+// An open tail current's bounds: "auto" within kTailCurrentAuto (the top lowered to a current
+// budget), a range its own; either way from no less than the least that gives the stage's gm
+// (its fixed value, or the lower end of its own search), 2 V_T gm (models/pair_curve.hpp).
+std::pair<double, double> tail_bounds(const StageSpec& stage, const TechnologySpec& tech) {
+  auto [lo, hi] = device_bounds("tail_current", tech);
+  if (const auto* a = stage.find("tail_current"); a && a->mode == Adjustable::Mode::range) {
+    lo = a->min;
+    hi = a->max;
+  }
+  const auto* gm = stage.find("gm");
+  const double least_gm = !gm ? 0.0
+                          : gm->is_fixed() ? gm->value
+                          : gm->mode == Adjustable::Mode::range ? gm->min
+                                                                : device_bounds("gm", tech).first;
+  lo = std::max(lo, least_gm / max_pair_gm(1.0, tech.temperature) * (1.0 + 1e-9));
+  return {lo, std::max(lo, hi)};
 }
 
 // A kind parameter's default bounds: its table's, narrowed or widened by [technology].
@@ -76,6 +101,18 @@ bool needs_input_noise(const ChainSpec& spec) {
   return spec.target.sensitivity_w.has_value() || spec.target.objective == "quietest";
 }
 
+bool needs_large_signal(const ChainSpec& spec) {
+  return spec.target.output_swing.has_value() || spec.limits.ddj.has_value();
+}
+
+LargeSignalEye plan_large_signal_eye(const Chain& chain, const Signal& signal, Fidelity fidelity) {
+  const int out = chain.outputs().back();
+  if (fidelity == Fidelity::final) return large_signal_eye(chain, out, signal);
+  Signal shorter = signal;
+  if (static_cast<int>(signal.pattern) > static_cast<int>(PrbsKind::prbs7)) shorter.pattern = PrbsKind::prbs7;
+  return large_signal_eye_fixed(chain, out, shorter, kSearchStepsPerUi, kSearchGridPerUi);
+}
+
 namespace {
 
 bool needs_step(const ChainSpec& spec) {
@@ -124,7 +161,7 @@ Problem::Problem(const ChainSpec& spec, Combination combo, std::vector<GraphStag
       const bool free = (a && !a->is_fixed()) || (!a && !stage.kind_is_fixed() && !device);
       if (!free) return;
       auto [lo, hi] = bounds;
-      if (a && a->mode == Adjustable::Mode::range) {
+      if (a && a->mode == Adjustable::Mode::range && key != "tail_current") {
         lo = a->min;
         hi = a->max;
       }
@@ -132,6 +169,7 @@ Problem::Problem(const ChainSpec& spec, Combination combo, std::vector<GraphStag
     };
     consider("gm", device_bounds("gm", spec.technology), false, true);
     consider("rd", device_bounds("rd", spec.technology), false, true);
+    consider("tail_current", tail_bounds(stage, spec.technology), false, true);
     // Elements a normalised design sets are not searched on their own.
     if (!designed)
       for (const auto* p : plannable_elements(info.kind))
@@ -157,6 +195,13 @@ Problem::Problem(const ChainSpec& spec, Combination combo, std::vector<GraphStag
     }
   if (sized > 0) add(Axis::size, std::log(gm_lo), std::log(gm_hi));
   if (sized > 1) add(Axis::taper, -2.5, 2.5);
+  double tail_lo = std::numeric_limits<double>::infinity(), tail_hi = 0.0;
+  for (const auto& v : variables_)
+    if (v.key == "tail_current") {
+      tail_lo = std::min(tail_lo, v.lo);
+      tail_hi = std::max(tail_hi, v.hi);
+    }
+  if (tail_hi > 0.0) add(Axis::tail, std::log(tail_lo), std::log(tail_hi));
   // One design axis per kind that has a normalised design and open elements, in table order.
   for (const auto& info : all_load_kinds()) {
     if (info.design == DesignFactor::none) continue;
@@ -167,6 +212,8 @@ Problem::Problem(const ChainSpec& spec, Combination combo, std::vector<GraphStag
     add(Axis::design, info.design_lo, info.design_hi);
     design_kind_.back() = info.kind;
   }
+
+  if (needs_large_signal(spec)) large_signal_ = analysis_options(spec).signal;
 
   if (spec.target.plan_for == "corners" && spec.variation) {
     corner_threads_ = default_thread_count();
@@ -221,7 +268,15 @@ Chain Problem::assemble(const std::vector<double>& u) const {
     c.r_load = value(u, i, "r_load", std::numeric_limits<double>::infinity());
     read_kind_values(c, [&](std::string_view key, double fallback) { return value(u, i, key, fallback); });
   }
-  return assemble_chain(spec_, graph_, circuits, c_in, c_load);
+  Chain chain = assemble_chain(spec_, graph_, circuits, c_in, c_load);
+  // An open tail current, raised where needed to the least that gives the stage's gm.
+  for (size_t k = 0; k < graph_.size(); ++k) {
+    auto& stage = chain.stages[k];
+    if (!stage.limit || variable_index(graph_[k].spec, "tail_current") < 0) continue;
+    const double least = stage.circuit.gm / max_pair_gm(1.0, spec_.technology.temperature);
+    stage.limit->tail_current = std::max(value(u, graph_[k].spec, "tail_current", 0.0), least * (1.0 + 1e-9));
+  }
+  return chain;
 }
 
 Chain Problem::build(const std::vector<double>& u, Fidelity fidelity) const {
@@ -245,6 +300,9 @@ Evaluation Problem::evaluate(const std::vector<double>& u, Fidelity fidelity) co
     w.t.overshoot_pct = std::max(w.t.overshoot_pct, e.t.overshoot_pct);
     w.min_stage_gain_db = std::min(w.min_stage_gain_db, e.min_stage_gain_db);
     w.input_noise_rms_a = std::max(w.input_noise_rms_a, e.input_noise_rms_a);
+    if (e.eye_height_v && w.eye_height_v) w.eye_height_v = std::min(*w.eye_height_v, *e.eye_height_v);
+    // A closed eye's DDJ (NaN) is the worst.
+    if (e.ddj_pp_s && w.ddj_pp_s && !std::isnan(*w.ddj_pp_s) && !(*e.ddj_pp_s <= *w.ddj_pp_s)) w.ddj_pp_s = e.ddj_pp_s;
   }
   return w;
 }
@@ -282,6 +340,11 @@ Evaluation Problem::measure(const Chain& chain, Fidelity fidelity) const {
     // far less than its margins; the final measurement uses the analysis's 160.
     e.input_noise_rms_a = output_rms_noise(model, fidelity == Fidelity::final ? 160 : 40) / std::fabs(model.dc_gain());
   }
+  if (large_signal_) {
+    const auto eye = plan_large_signal_eye(chain, *large_signal_, fidelity);
+    e.eye_height_v = eye.height_v;
+    e.ddj_pp_s = eye.ddj_pp_s;
+  }
   // The stages are the cascade's last blocks (a source pole, if any, comes first).
   const auto& blocks = cascade.blocks();
   const size_t stages = chain.path_to(chain.outputs().back()).size();
@@ -312,6 +375,9 @@ std::vector<double> Problem::design_seed() const {
       case Axis::size: z[d] = 0.5 * (design_lo_[d] + design_hi_[d]); break;
       case Axis::taper: z[d] = 0.0; break;
       case Axis::design: z[d] = load_kind_info(*design_kind_[d]).design_seed; break;
+      // The least tail current the gms allow: the search raises it only as far as the output
+      // swing needs (no objective weighs the tail currents).
+      case Axis::tail: z[d] = design_lo_[d]; break;
     }
     z[d] = std::clamp(z[d], design_lo_[d], design_hi_[d]);
   }
@@ -319,7 +385,7 @@ std::vector<double> Problem::design_seed() const {
 }
 
 std::vector<double> Problem::expand(const std::vector<double>& z) const {
-  double stage_gain = 2.0, log_size = std::log(0.02), taper = 0.0;
+  double stage_gain = 2.0, log_size = std::log(0.02), taper = 0.0, log_tail = kNaN;
   // Each kind's design factor: its axis when it has one, else the table's seed.
   auto factor = [&](LoadKind kind) {
     for (size_t d = 0; d < design_.size(); ++d)
@@ -332,6 +398,7 @@ std::vector<double> Problem::expand(const std::vector<double>& z) const {
       case Axis::size: log_size = z[d]; break;
       case Axis::taper: taper = z[d]; break;
       case Axis::design: break;
+      case Axis::tail: log_tail = z[d]; break;
     }
   }
   std::vector<double> u(variables_.size());
@@ -351,8 +418,10 @@ std::vector<double> Problem::expand(const std::vector<double>& z) const {
     const double x = sized.size() > 1 ? static_cast<double>(n) / static_cast<double>(sized.size() - 1) - 0.5 : 0.0;
     set(sized[n], std::exp(log_size + taper * x));
   }
-  for (size_t v = 0; v < variables_.size(); ++v)
+  for (size_t v = 0; v < variables_.size(); ++v) {
     if (variables_[v].key == "rd") set(v, stage_gain / std::max(value(u, variables_[v].spec, "gm", 0.02), 1e-6));
+    if (variables_[v].key == "tail_current") set(v, std::exp(log_tail));
+  }
   // Peaking elements from the published designs, against each stage's actual load (the node
   // capacitances are all they need, so no designs or losses are resolved here).
   const Chain chain = assemble(u);

@@ -6,17 +6,20 @@
 // handful of coordinates a designer reasons in: one stage gain shared by every stage whose Rd is
 // open, a device size and a taper along the chain for every open gm, and one normalised peaking
 // parameter per load kind (m for shunt and series peaking, zeta for symmetric T-coils), each
-// mapped to element values against the stage's actual load. The search explores the design
+// mapped to element values against the stage's actual load, and one tail current shared by
+// every limiting stage whose tail current is open. The search explores the design
 // space first and then refines every value in the full space.
 #pragma once
 
 #include <limits>
 #include <optional>
 #include <string>
+#include <utility>
 #include <vector>
 
 #include "models/chain.hpp"
 #include "models/frequency_response.hpp"
+#include "models/large_signal.hpp"
 #include "models/step_response.hpp"
 #include "models/variation.hpp"
 #include "planner/chain_file.hpp"
@@ -54,7 +57,29 @@ struct Evaluation {
   // The input-referred rms noise current, A, of a chain driven by a photocurrent when a target
   // or the objective needs it (needs_input_noise); NaN otherwise.
   double input_noise_rms_a = std::numeric_limits<double>::quiet_NaN();
+  // The large-signal eye at the main output (a limiting chain with [target] output_swing or
+  // [limits] ddj; see needs_large_signal): its height, V, and its DDJ, s (NaN when closed).
+  // Unset when not measured.
+  std::optional<double> eye_height_v;
+  std::optional<double> ddj_pp_s;
 };
+
+// Whether a plan must measure the large-signal eye: [target] output_swing or [limits] ddj.
+bool needs_large_signal(const ChainSpec& spec);
+
+// The large-signal eye a plan measures (docs/physics.md (large signals), "Planning a limiting
+// chain"). Final: large_signal_eye, as analyze computes it (the step halved until the eye moves
+// by < 0.1 %). Search: one run at kSearchStepsPerUi, measured on kSearchGridPerUi, over at most
+// a PRBS7 pattern (every 7-bit history but the all-zero one, so a chain whose memory is shorter
+// than 7 UI shows the same worst case as a longer pattern).
+inline constexpr int kSearchStepsPerUi = 16;
+inline constexpr int kSearchGridPerUi = 64;  // the eye code's least grid (default_steps_per_ui)
+LargeSignalEye plan_large_signal_eye(const Chain& chain, const Signal& signal, Fidelity fidelity);
+
+// The bounds of an open tail current: "auto" searches kTailCurrentAuto, narrowed to [technology]
+// current_budget; a range its own. Every candidate's tail current is then raised, when needed,
+// to the least that gives its gm, 2 V_T gm (models/pair_curve.hpp).
+inline constexpr std::pair<double, double> kTailCurrentAuto{0.1e-3, 40e-3};
 
 // plan_for = "yield": the corners are the global extremes scaled by this factor (0 when the spec
 // has no [variation] global spread or no yield). With c classes spread, each drawn independently,
@@ -97,8 +122,9 @@ class Problem {
   std::vector<double> expand(const std::vector<double>& z) const;
 
  private:
-  // design: the normalised design factor of one kind (design_kind_ says which).
-  enum class Axis { stage_gain, size, taper, design };
+  // design: the normalised design factor of one kind (design_kind_ says which); tail: one tail
+  // current (log) for every stage whose tail current is open.
+  enum class Axis { stage_gain, size, taper, design, tail };
   double value(const std::vector<double>& u, size_t stage, std::string_view key, double fallback) const;
   // The chain with element values and node capacitances only (no designs, no Q losses).
   Chain assemble(const std::vector<double>& u) const;
@@ -113,6 +139,7 @@ class Problem {
   std::vector<std::optional<LoadKind>> design_kind_;  // per design axis; set for Axis::design only
   std::vector<double> design_lo_, design_hi_;
   std::vector<Corner> corners_;
+  std::optional<Signal> large_signal_;  // the [signal] the large-signal eye is measured with
   int corner_threads_ = 1;  // default_thread_count(): the results do not depend on it
 };
 

@@ -20,7 +20,8 @@ std::optional<double> finite(double x) { return std::isfinite(x) ? std::optional
 
 // The search's constraints (planner/requirements.hpp), from a candidate's evaluation.
 std::vector<double> violations(const ChainSpec& spec, const Evaluation& e) {
-  return requirement_violations(spec, {e.f, e.t, e.total_gm, finite(e.input_noise_rms_a), e.min_stage_gain_db});
+  return requirement_violations(spec, {e.f, e.t, e.total_gm, finite(e.input_noise_rms_a), e.min_stage_gain_db,
+                                       e.eye_height_v, e.ddj_pp_s});
 }
 
 size_t constraint_count(const ChainSpec& spec) {
@@ -262,15 +263,19 @@ double total_gm(const Chain& chain) {
 }
 
 std::vector<PlanCheck> check_targets(const ChainSpec& spec, const FrequencyMetrics& f, const StepMetrics& t,
-                                     std::optional<double> total_gm, std::optional<double> input_noise_rms_a) {
-  return requirement_checks(spec, {f, t, total_gm, input_noise_rms_a, std::nullopt});
+                                     std::optional<double> total_gm, std::optional<double> input_noise_rms_a,
+                                     const LargeSignalEye* large_signal) {
+  return requirement_checks(spec, {f, t, total_gm, input_noise_rms_a, std::nullopt,
+                                   large_signal ? std::optional(large_signal->height_v) : std::nullopt,
+                                   large_signal ? std::optional(large_signal->ddj_pp_s) : std::nullopt});
 }
 
 namespace {
 
 // The checks of a plan: those of check_targets, and the least stage gain on the main path.
 std::vector<PlanCheck> plan_checks(const ChainSpec& spec, const Evaluation& e) {
-  return requirement_checks(spec, {e.f, e.t, e.total_gm, finite(e.input_noise_rms_a), e.min_stage_gain_db});
+  return requirement_checks(spec, {e.f, e.t, e.total_gm, finite(e.input_noise_rms_a), e.min_stage_gain_db,
+                                   e.eye_height_v, e.ddj_pp_s});
 }
 
 }  // namespace

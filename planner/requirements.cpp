@@ -95,12 +95,25 @@ const std::array kRequirements{
                   return std::isfinite(need) ? to_dbm(need) : std::numeric_limits<double>::infinity();
                 },
                 [](double v, double l) { return std::isfinite(v) ? v - l + 1e-3 : 10.0; }, true},
+    // On the large-signal eye (docs/physics.md (large signals)). The search measures a shorter,
+    // coarser eye than the final check (plan_large_signal_eye), so it aims 1 % inside each, ten
+    // times the 0.1 % the final eye's step is refined to; what a pattern longer than PRBS7 adds
+    // is left to the final check and its repair. On the shipped example the two eyes agree to
+    // 1e-12 (the step settles at 16 per UI, and PRBS15's worst case is PRBS7's).
+    Requirement{"output_swing", "V", true, {true, 1e-9}, [](const ChainSpec& s) { return s.target.output_swing; },
+                [](const ChainSpec&, const Measured& m) { return or_nan(m.eye_height_v); },
+                [](double v, double l) { return std::isfinite(v) ? 1.01 - v / l : 10.0; }, true},
+    Requirement{"ddj", "s", false, {true, 1e-9}, [](const ChainSpec& s) { return s.limits.ddj; },
+                [](const ChainSpec&, const Measured& m) { return or_nan(m.ddj_pp_s); },
+                [](double v, double l) { return std::isfinite(v) ? (v - 0.99 * l) / std::max(l, 1e-13) : 10.0; }, true},
 };
 
 bool measured(const Requirement& r, const Measured& m) {
   if (!r.needs_measurement) return true;
   if (r.name == "min_stage_gain") return m.min_stage_gain_db.has_value();
   if (r.name == "current") return m.total_gm.has_value();
+  if (r.name == "output_swing") return m.eye_height_v.has_value();
+  if (r.name == "ddj") return m.ddj_pp_s.has_value();
   return m.input_noise_rms_a.has_value();
 }
 

@@ -22,6 +22,10 @@ struct Measured {
   std::optional<double> total_gm;           // S
   std::optional<double> input_noise_rms_a;  // a chain driven by a photocurrent
   std::optional<double> min_stage_gain_db;  // a plan's stages on the main path
+  // The main output's large-signal eye at [signal] swing (a limiting chain): its height, V, and
+  // DDJ, s (NaN when the eye is closed).
+  std::optional<double> eye_height_v;
+  std::optional<double> ddj_pp_s;
 };
 
 // The checks of every requirement the spec sets whose value was measured, in table order.

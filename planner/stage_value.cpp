@@ -7,6 +7,8 @@ namespace peakplan {
 double stage_value(const ChainStage& stage, std::string_view key) {
   constexpr double nan = std::numeric_limits<double>::quiet_NaN();
   const auto& c = stage.circuit;
+  // A limiting stage's tail current (docs/physics.md (large signals)), on every kind.
+  if (key == "tail_current") return stage.limit ? stage.limit->tail_current : nan;
   const auto& info = load_kind_info(c.kind);
   const bool common = key == "gm" || key == "rd" || key == "c_in" || key == "c_out" || key == "c_load" || key == "r_load";
   bool in_kind = false;

@@ -68,6 +68,7 @@ const StageSpec* find_stage(const ChainSpec& spec, std::string_view id) {
 std::string stage_key_unit(const StageSpec& stage, std::string_view key) {
   if (key == "gm") return "S";
   if (key == "rd" || key == "r_load") return "ohm";
+  if (key == "tail_current") return "A";
   if (key == "c_in" || key == "c_out" || key == "c_load") return "F";
   for (auto kind : stage.kinds)
     for (const auto& p : load_kind_info(kind).parameters)

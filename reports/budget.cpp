@@ -222,7 +222,8 @@ Budget build_budget(const ChainSpec& spec, const Chain& chain, const ChainAnalys
   if (b.has_current) t.total_current_a = t.total_gm / *gm_over_id;
   t.input_network_share_pct = main_delay > 0.0 ? 100.0 - path_share : 0.0;
   b.checks = check_targets(spec, f, main.response.step, t.total_gm,
-                           main.receiver ? std::optional(main.receiver->input_rms_a) : std::nullopt);
+                           main.receiver ? std::optional(main.receiver->input_rms_a) : std::nullopt,
+                           main.large_signal ? &*main.large_signal : nullptr);
   return b;
 }
 

@@ -4,6 +4,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <functional>
 #include <limits>
 #include <numbers>
 #include <stdexcept>
@@ -267,40 +268,55 @@ PlotFile step_plot(const Chain& chain, const ChainAnalysis& analysis) {
   return {"step.svg", "Step response at the main output", chart.render()};
 }
 
-PlotFile eye_plot(const Chain& chain, const ChainAnalysis& analysis) {
+// One eye drawing: the overlaid traces and their markers, in the traces' level units mapped to
+// the plotted axis by `to_axis` (the identity for the linear eye, to volts for the clipped one).
+struct EyeDrawing {
+  std::string name, title, y_label;
+  AxisUnit y_unit;
+  const EyeTraces& traces;
+  const PrbsEye& prbs;  // the openings the traces were measured as, in level units
+  std::function<double(double)> to_axis;
+  // The height's label from its opening (level units) and its inner edges on the plotted axis.
+  std::function<std::string(double opening, double lower, double upper)> height_text;
+};
+
+PlotFile draw_eye(const Chain& chain, const ChainAnalysis& analysis, const EyeDrawing& d) {
   const auto& main = analysis.outputs.back();
-  const auto& eye = *main.eye;
-  const auto& tr = *eye.traces;
-  const auto& prbs = eye.estimate.prbs;
+  const auto& tr = d.traces;
+  const auto& prbs = d.prbs;
   const bool pam4 = tr.modulation == Modulation::pam4;
   const double ui = tr.ui_s;
   const double bit_rate = analysis.signal ? analysis.signal->bit_rate : (pam4 ? 2.0 : 1.0) / ui;
-  const double ideal_v = eye.statistical ? eye.statistical->ideal_eye_v : std::numeric_limits<double>::quiet_NaN();
 
-  double lo = 0.0, hi = 1.0;
-  for (const auto& t : tr.traces)
+  std::vector<std::vector<double>> ys;
+  ys.reserve(tr.traces.size());
+  double lo = std::min(d.to_axis(0.0), d.to_axis(1.0)), hi = std::max(d.to_axis(0.0), d.to_axis(1.0));
+  for (const auto& t : tr.traces) {
+    auto& y = ys.emplace_back();
+    y.reserve(t.y.size());
     for (double v : t.y) {
-      lo = std::min(lo, v);
-      hi = std::max(hi, v);
+      y.push_back(d.to_axis(v));
+      lo = std::min(lo, y.back());
+      hi = std::max(hi, y.back());
     }
+  }
   const double pad = 0.08 * (hi - lo);
-  Chart chart("eye", "PRBS eye at the main output",
+  Chart chart(d.name, d.title,
               fmt::format("{}: {}, {} {} {}; {} of {} symbols drawn, 1 UI = {}", chain.name,
                           stage_id(chain, main.stage), engineering(bit_rate, "b/s", 6), pam4 ? "PAM4" : "NRZ",
                           to_string(tr.pattern), tr.traces.size(), tr.symbols_overlaid,
                           engineering(ui, "s")),
               AxisSpec{"Time from the sampling instant", AxisUnit{"UI", false}, Scale::linear, -1.0, 1.0},
-              AxisSpec{"Output \u00f7 DC gain", kPlain, Scale::linear, lo - pad, hi + pad});
+              AxisSpec{d.y_label, d.y_unit, Scale::linear, lo - pad, hi + pad});
 
   const auto x = scaled(tr.offset_s, 1.0 / ui);
   // Fainter as traces pile up, so their density stays visible.
   const double opacity = std::clamp(3.0 / std::sqrt(static_cast<double>(std::max<size_t>(1, tr.traces.size()))), 0.08, 0.6);
-  std::vector<std::vector<double>> ys;
-  ys.reserve(tr.traces.size());
-  for (const auto& t : tr.traces) ys.push_back(t.y);
   chart.lines(x, ys, stroke(svg::theme::main_series, 1.1, "", opacity));
-  for (int e = 0; e < tr.eye_count(); ++e)
-    chart.segment(-1.0, tr.threshold(e), 1.0, tr.threshold(e), stroke(svg::theme::frame, 1.0, "2 4"));
+  for (int e = 0; e < tr.eye_count(); ++e) {
+    const double threshold = d.to_axis(tr.threshold(e));
+    chart.segment(-1.0, threshold, 1.0, threshold, stroke(svg::theme::frame, 1.0, "2 4"));
+  }
 
   const std::string width_colour = "#a86f0c";
   for (int e = 0; e < tr.eye_count(); ++e) {
@@ -308,17 +324,16 @@ PlotFile eye_plot(const Chain& chain, const ChainAnalysis& analysis) {
     const auto& opening = pam4 ? prbs.eyes[static_cast<size_t>(e)] : prbs.eye;
     const auto& marker = tr.eyes[static_cast<size_t>(e)];
     const auto& edges = marker.edges;
-    const double at = edges.offset_s / ui, threshold = tr.threshold(e);
+    const double at = edges.offset_s / ui, threshold = d.to_axis(tr.threshold(e));
+    const double lower = d.to_axis(edges.lower_top), upper = d.to_axis(edges.upper_bottom);
     const std::string name = pam4 ? std::string(e == 0 ? "lower eye " : e == 1 ? "middle eye " : "upper eye ") : std::string();
     if (!(opening.height > 0.0)) {
       chart.text(at, threshold, name + "eye closed", text_style(TextStyle::Anchor::middle, svg::theme::accent, 0.0, 4.0, true));
       continue;
     }
-    chart.segment(at, edges.lower_top, at, edges.upper_bottom, stroke(svg::theme::accent, 2.4), true);
-    std::string height = fmt::format("{}height {}", name, format_number(opening.height, 3));
-    if (std::isfinite(ideal_v)) height += fmt::format(" ({})", engineering(opening.height * ideal_v, "V"));
+    chart.segment(at, lower, at, upper, stroke(svg::theme::accent, 2.4), true);
     // NRZ: halfway up the open half; PAM4's eyes are short, so just above the width bar.
-    chart.text(at, pam4 ? threshold : 0.5 * (edges.upper_bottom + threshold), height,
+    chart.text(at, pam4 ? threshold : 0.5 * (upper + threshold), name + d.height_text(opening.height, lower, upper),
                text_style(TextStyle::Anchor::start, svg::theme::accent, 8.0, pam4 ? -7.0 : 4.0, true));
     if (opening.width_ui > 0.0) {
       chart.segment(marker.width_left_s / ui, threshold, marker.width_right_s / ui, threshold,
@@ -330,7 +345,33 @@ PlotFile eye_plot(const Chain& chain, const ChainAnalysis& analysis) {
   if (pam4)
     chart.note(0.99, 0.97, fmt::format("common slicer phase: worst eye {}", format_number(prbs.eye.height, 3)),
                text_style(TextStyle::Anchor::end, svg::theme::muted, 0.0, 4.0));
-  return {"eye.svg", "PRBS eye at the main output", chart.render()};
+  return {d.name + ".svg", d.title, chart.render()};
+}
+
+PlotFile eye_plot(const Chain& chain, const ChainAnalysis& analysis) {
+  const auto& eye = *analysis.outputs.back().eye;
+  const double ideal_v = eye.statistical ? eye.statistical->ideal_eye_v : std::numeric_limits<double>::quiet_NaN();
+  return draw_eye(chain, analysis,
+                  {"eye", "PRBS eye at the main output", "Output \u00f7 DC gain", kPlain, *eye.traces,
+                   eye.estimate.prbs, [](double level) { return level; },
+                   [&](double opening, double, double) {
+                     std::string text = fmt::format("height {}", format_number(opening, 3));
+                     if (std::isfinite(ideal_v)) text += fmt::format(" ({})", engineering(opening * ideal_v, "V"));
+                     return text;
+                   }});
+}
+
+// The clipped (large-signal) eye in differential volts, drawn as the linear one is.
+PlotFile clipped_eye_plot(const Chain& chain, const ChainAnalysis& analysis) {
+  const auto& ls = *analysis.outputs.back().large_signal;
+  return draw_eye(chain, analysis,
+                  {"eye_clipped", fmt::format("Clipped PRBS eye at the main output ({} input swing)",
+                                              engineering(ls.input_swing_v, "V")),
+                   "Differential output", AxisUnit{"V", true}, *ls.traces, ls.eye,
+                   [&](double level) { return ls.volts(level); },
+                   [](double, double lower, double upper) {
+                     return fmt::format("height {}", engineering(std::fabs(upper - lower), "V"));
+                   }});
 }
 
 struct RootGroup {
@@ -460,8 +501,14 @@ std::vector<PlotFile> chain_plots(const Chain& chain, const ChainAnalysis& analy
   plots.push_back(group_delay_plot(chain, analysis));
   plots.push_back(step_plot(chain, analysis));
   const auto& eye = analysis.outputs.back().eye;
-  if (eye && eye->traces && !eye->traces->traces.empty()) plots.push_back(eye_plot(chain, analysis));
-  plots.push_back(pole_zero_plot(chain, analysis));
+  const bool linear_eye = eye && eye->traces && !eye->traces->traces.empty();
+  const auto& ls = analysis.outputs.back().large_signal;
+  const bool clipped_eye = linear_eye && ls && ls->traces && !ls->traces->traces.empty();
+  // The clipped eye sits beside the linear one: the pole-zero map goes ahead of the pair then.
+  if (clipped_eye) plots.push_back(pole_zero_plot(chain, analysis));
+  if (linear_eye) plots.push_back(eye_plot(chain, analysis));
+  if (clipped_eye) plots.push_back(clipped_eye_plot(chain, analysis));
+  if (!clipped_eye) plots.push_back(pole_zero_plot(chain, analysis));
   if (analysis.outputs.back().receiver && !analysis.outputs.back().receiver->spectrum.empty())
     plots.push_back(input_noise_plot(chain, analysis));
   return plots;

@@ -17,7 +17,9 @@ struct PlotFile {
 };
 
 // Every plot of an analysed chain, in the order above; eye.svg only when the main output
-// (analysis.outputs.back()) has an eye. Deterministic: the same input gives the same bytes.
+// (analysis.outputs.back()) has an eye. When it also has a large-signal eye with traces, the
+// clipped eye in volts (eye_clipped.svg) follows eye.svg, and the pole-zero map goes ahead of
+// the two so that they sit side by side. Deterministic: the same input gives the same bytes.
 std::vector<PlotFile> chain_plots(const Chain& chain, const ChainAnalysis& analysis);
 
 }  // namespace peakplan

@@ -150,8 +150,8 @@ TEST_CASE("browser: chromium renders a [variation] report with its corner and yi
   }
 }
 
-// A limiting chain's report: the dynamic-range plots render.
-TEST_CASE("browser: chromium renders a limiting chain's report with its dynamic-range plots") {
+// A limiting chain's report: the clipped eye and the dynamic-range plots render.
+TEST_CASE("browser: chromium renders a limiting chain's report with its clipped eye and dynamic-range plots") {
   const std::string chromium = chromium_or_skip();
   if (chromium.empty()) return;
   TempDir dir("peakplan_browser");
@@ -161,6 +161,6 @@ TEST_CASE("browser: chromium renders a limiting chain's report with its dynamic-
                     shell_quoted(report.string()) + " >/dev/null") == 0);
   const std::string url = "file://" + (report / "index.html").string();
   const std::string page = rendered_dom(chromium, dir.path, url);
-  for (const auto* plot : {"dynamic_range", "dynamic_range_ddj"})
+  for (const auto* plot : {"eye", "eye_clipped", "dynamic_range", "dynamic_range_ddj"})
     CHECK_MESSAGE(page.find("data-plot=\"" + std::string(plot) + "\"") != std::string::npos, "the rendered page has no " << plot);
 }

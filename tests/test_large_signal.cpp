@@ -253,3 +253,30 @@ TEST_CASE("1 dB compression input: one stage at 4 x_c I_T / gm, the next divided
   CHECK(100.0 * pair_current(PairLimit{0.004, PairKind::bipolar}, 0.04, v1) ==
         doctest::Approx(xc * 0.004 / 0.04).epsilon(1e-9));
 }
+
+TEST_CASE("clipped eye traces: their inner edges in volts are the measured height_v and eye_heights_v") {
+  // derived: the traces are samples of the overlay the eye was measured on (eye_traces keeps
+  // every edge-setting trace at the best offset), and volts() is the exact inverse of the
+  // piecewise-linear map from volts to levels, so the drawn opening equals the measured one to
+  // rounding. NRZ: height_v is the eye at its best offset; PAM4: each eye at its own offset.
+  const Chain chain = limited_chain(3, LoadKind::plain, PairKind::bipolar, 0.004);
+  LargeSignalOptions keep;
+  keep.keep_traces = true;
+  for (auto m : {Modulation::nrz, Modulation::pam4}) {
+    CAPTURE(static_cast<int>(m));
+    const auto ls = large_signal_eye(chain, 2, signal_at(20e9, 0.05, m), keep);
+    REQUIRE(ls.traces);
+    const auto& tr = *ls.traces;
+    CHECK(!tr.traces.empty());
+    for (size_t e = 0; e < tr.eyes.size(); ++e) {
+      const double drawn = ls.volts(tr.eyes[e].edges.upper_bottom) - ls.volts(tr.eyes[e].edges.lower_top);
+      CHECK(std::fabs(std::fabs(drawn) - ls.eye_heights_v[e]) < 1e-9 * ls.eye_heights_v[e]);
+    }
+    if (m == Modulation::nrz) CHECK(std::fabs(ls.eye_heights_v[0] - ls.height_v) < 1e-9 * ls.height_v);
+    // derived: levels 0 and 1 are the lowest and highest settled levels.
+    CHECK(ls.volts(0.0) == ls.levels_v.front());
+    CHECK(std::fabs(ls.volts(1.0) - ls.levels_v.back()) < 1e-12 * std::fabs(ls.levels_v.back()));
+  }
+  // Without keep_traces (a sweep's points) none are kept.
+  CHECK(!large_signal_eye(chain, 2, signal_at(20e9, 0.05)).traces);
+}

@@ -2,6 +2,7 @@
 #include <doctest/doctest.h>
 
 #include <algorithm>
+#include <cmath>
 #include <cstdio>
 #include <filesystem>
 #include <fstream>
@@ -10,6 +11,7 @@
 
 #include "planner/chain_graph.hpp"
 #include "planner/planner.hpp"
+#include "planner/stage_value.hpp"
 #include "cli_support.hpp"
 #include "six_open_stages.hpp"
 #include "test_support.hpp"
@@ -410,4 +412,73 @@ c_load = "10 fF"
   const auto loose = with("min_stage_gain = \"-40 dB\"");
   CHECK(loose.chain.stages[0].circuit.gm * loose.chain.stages[0].circuit.rd < 0.9);
   CHECK(main_metrics(loose.chain).bandwidth_hz > main_metrics(held.chain).bandwidth_hz);
+}
+
+// Limiting chains (docs/physics.md (large signals)): [target] output_swing and [limits] ddj are
+// checked on the large-signal eye, with the tail currents open.
+TEST_CASE("planner: open tail currents meet output_swing and ddj, and the written plan re-analysed meets both") {
+  const TempDir dir("peakplan_limiting_plan");
+  const auto chain = std::string(PEAKPLAN_SOURCE_DIR) + "/chains/plan_tail_currents.toml";
+  const auto written = (dir.path / "planned.toml").string();
+  const auto [status, out] = run("plan " + chain + " --json --write " + written);
+  REQUIRE(status == 0);
+  const auto plan = nlohmann::json::parse(out);
+  CHECK(plan["status"] == "met");
+  int checked = 0;
+  for (const auto& c : plan["checks"])
+    if (c["name"] == "output_swing" || c["name"] == "ddj") {
+      CHECK(c["met"] == true);
+      ++checked;
+    }
+  CHECK(checked == 2);
+  // The file as written, analysed: analyze's own large-signal eye meets both (the file's values:
+  // output_swing 1 V, ddj 0.1 ps).
+  const auto [analysed, json] = run("analyze " + written + " --json");
+  REQUIRE(analysed == 0);
+  const auto ls = nlohmann::json::parse(json)["outputs"].back()["large_signal"];
+  CHECK(ls["height_v"].get<double>() >= 1.0);
+  CHECK(ls["ddj_pp_s"].get<double>() <= 0.1e-12);
+  // The planned tail currents are written as fixed values within their bounds (out: 2 .. 12 mA).
+  Diagnostics d(written);
+  const auto spec = load_chain_spec(written, d);
+  REQUIRE(spec);
+  for (const auto& s : spec->stages) {
+    const auto* tail = s.find("tail_current");
+    REQUIRE(tail);
+    CHECK(tail->is_fixed());
+    if (s.id == "out") CHECK((tail->value >= 2e-3 && tail->value <= 12e-3));
+  }
+  // derived: stage_value (the sweep's and the budget's chosen-value column) reads the resolved
+  // stage's tail current, which is the written value.
+  const auto resolved = resolve_chain(*spec, d);
+  REQUIRE(resolved);
+  CHECK(stage_value(resolved->stages.back(), "tail_current") == spec->stages.back().find("tail_current")->value);
+  CHECK(std::isnan(stage_value(resolved->stages.back(), "no_such_key")));
+}
+
+TEST_CASE("planner: an output_swing beyond I_T Rd of the largest tail current is not met, exit 1") {
+  // derived: the last pair's half-circuit current is bounded by +-I_T/2, so the settled output
+  // levels by +-I_T Rd/2 and the differential eye height by I_T Rd: at most 3 mA x 100 ohm =
+  // 300 mV, short of 400 mV whatever tail current in 1 .. 3 mA the planner picks.
+  const TempDir dir("peakplan_limiting_infeasible");
+  const auto file = (dir.path / "infeasible.toml").string();
+  std::ofstream(file) << R"(
+[signal]
+bit_rate = "10 Gb/s"
+swing = "100 mV"
+[target]
+output_swing = "400 mV"
+[[stage]]
+id = "la"
+kind = "plain"
+gm = "40 mS"
+rd = "100 ohm"
+c_load = "50 fF"
+tail_current = { min = "2.1 mA", max = "3 mA" }
+)";
+  const auto [status, out] = run("plan " + file + " --json");
+  CHECK(status == 1);
+  const auto doc = nlohmann::json::parse(out);
+  CHECK(doc["status"] == "not_met");
+  CHECK(doc["binding"] == "output_swing");
 }

@@ -600,7 +600,7 @@ TEST_CASE("report: --samples on a chain without [variation] is refused and write
 // own swing (the middle of 21 log-spaced points from swing/10 to swing*10), where the clipped eye
 // height must be the one `analyze --json` gives (the same simulation by another path: analyze of
 // the file against a sweep point written back as an override), to the 3 digits the plot prints.
-TEST_CASE("report: a limiting chain's dynamic-range plot shows analyze's clipped eye height at the file's swing") {
+TEST_CASE("report: a limiting chain's dynamic-range plot and clipped eye show analyze's clipped eye height at the file's swing") {
   const auto chain = kSource / "chains" / "limiting_dynamic_range.toml";
   TempDir dir("peakplan_report");
   const auto out = dir.path / "out";
@@ -616,11 +616,17 @@ TEST_CASE("report: a limiting chain's dynamic-range plot shows analyze's clipped
   CHECK(svg.find("21 points, log-spaced from 2 mV to 200 mV") != std::string::npos);
   CHECK(read_file(out / "dynamic_range_ddj.svg").find(peakplan::svg::engineering(ddj, "s") + " at the file&apos;s swing") !=
         std::string::npos);
+  // The clipped eye beside the linear one, labelled with the same height to the 3 digits it prints.
+  CHECK(read_file(out / "eye_clipped.svg").find(">height " + peakplan::svg::engineering(height, "V") + "<") !=
+        std::string::npos);
   const auto page = read_file(out / "index.html");
+  CHECK(page.find("data-plot=\"eye_clipped\"") != std::string::npos);
+  CHECK(page.find("data-plot=\"eye_clipped\"") > page.find("data-plot=\"eye\""));
   CHECK(page.find("data-plot=\"dynamic_range\"") != std::string::npos);
   CHECK(page.find("data-plot=\"dynamic_range_ddj\"") != std::string::npos);
   // A linear chain (the demo) has no large-signal eye and gets no dynamic-range plot.
   TempDir demo("peakplan_report");
   REQUIRE(run_report(kDemo, demo.path / "out").status == 0);
   CHECK(!fs::exists(demo.path / "out" / "dynamic_range.svg"));
+  CHECK(!fs::exists(demo.path / "out" / "eye_clipped.svg"));
 }
