@@ -51,7 +51,8 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
     if (t.yield) out += "yield = " + toml_percent(*t.yield) + "\n";
   }
   const auto& l = spec.limits;
-  if (l.overshoot || l.peaking_db || l.group_delay_ripple || l.ripple_band || l.sag_db || l.min_stage_gain_db) {
+  if (l.overshoot || l.peaking_db || l.group_delay_ripple || l.ripple_band || l.sag_db || l.min_stage_gain_db || l.ber ||
+      l.noise_rms) {
     out += "\n[limits]\n";
     if (l.overshoot) out += "overshoot = " + toml_percent(*l.overshoot) + "\n";
     if (l.peaking_db) out += "peaking = " + toml_decibels(*l.peaking_db) + "\n";
@@ -59,6 +60,8 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
     if (l.ripple_band) out += number_line("ripple_band", *l.ripple_band, "Hz");
     if (l.sag_db) out += "sag = " + toml_decibels(*l.sag_db) + "\n";
     if (l.min_stage_gain_db) out += "min_stage_gain = " + toml_decibels(*l.min_stage_gain_db) + "\n";
+    if (l.ber) out += "ber = " + toml_number(*l.ber) + "\n";
+    if (l.noise_rms) out += number_line("noise_rms", *l.noise_rms, "V");
   }
   const auto& tech = spec.technology;
   out += "\n[technology]\n";
@@ -70,7 +73,9 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
   opt("inductor_q", tech.inductor_q, "");
   opt("max_inductance", tech.max_inductance, "H");
   opt("min_cb", tech.min_cb, "F");
+  opt("min_gm", tech.min_gm, "S");
   opt("max_gm", tech.max_gm, "S");
+  if (tech.coil_c_per_h) out += number_line("coil_c_per_nh", *tech.coil_c_per_h * 1e-9, "F");
   opt("gm_over_id", tech.gm_over_id, "");
   opt("current_budget", tech.current_budget, "");
   if (tech.k_min && tech.k_max) out += "k_range = [" + toml_number(*tech.k_min) + ", " + toml_number(*tech.k_max) + "]\n";

@@ -6,6 +6,7 @@
 #include <limits>
 #include <numbers>
 
+#include "models/eye.hpp"
 #include "models/noise.hpp"
 #include "models/parallel.hpp"
 #include "models/peaking_design.hpp"
@@ -20,19 +21,22 @@ constexpr double kTwoPi = 2.0 * std::numbers::pi;
 // The default search bounds of gm and rd when the file says "auto".
 std::pair<double, double> device_bounds(std::string_view key, const TechnologySpec& tech) {
   if (key == "gm") {
-    double gm_max = tech.max_gm.value_or(0.2);
+    double gm_max = tech.max_gm.value_or(kDefaultMaxGm);
     // A current budget caps every single device too.
     if (tech.current_budget && tech.gm_over_id) gm_max = std::min(gm_max, *tech.current_budget * *tech.gm_over_id);
-    return {std::min(1e-3, 0.5 * gm_max), gm_max};
+    // The smallest useful device, when the file names one (the reader keeps it <= max_gm).
+    return {std::min(tech.min_gm.value_or(std::min(kDefaultMinGm, 0.5 * gm_max)), gm_max), gm_max};
   }
   return {10.0, 2000.0};  // rd
 }
 
 // A kind parameter's default bounds: its table's, narrowed or widened by [technology].
-std::pair<double, double> parameter_bounds(const LoadParameter& p, const TechnologySpec& tech) {
+std::pair<double, double> parameter_bounds(const LoadParameter& p, const ChainSpec& spec) {
+  const auto& tech = spec.technology;
   switch (p.technology) {
     case TechnologyBound::none: break;
-    case TechnologyBound::inductance: return {p.plan_lo, tech.max_inductance.value_or(p.plan_hi)};
+    case TechnologyBound::inductance:
+      return {p.plan_lo, std::max(p.plan_lo, std::min(tech.max_inductance.value_or(p.plan_hi), coil_inductance_limit(spec)))};
     case TechnologyBound::coupling: return {tech.k_min.value_or(p.plan_lo), tech.k_max.value_or(p.plan_hi)};
     case TechnologyBound::bridge_capacitance:
       return {std::max(tech.min_cb.value_or(p.plan_lo), p.plan_lo), p.plan_hi};
@@ -55,6 +59,19 @@ ScanResolution search_scan() { return {2.0, 30}; }
 
 }  // namespace
 
+double coil_band(const ChainSpec& spec) {
+  if (spec.target.bandwidth) return *spec.target.bandwidth;
+  if (spec.target.gain_bandwidth && spec.target.gain_db) return *spec.target.gain_bandwidth / from_db(*spec.target.gain_db);
+  return std::numeric_limits<double>::infinity();
+}
+
+double coil_inductance_limit(const ChainSpec& spec) {
+  const double band = coil_band(spec);
+  if (!spec.technology.coil_c_per_h || !(*spec.technology.coil_c_per_h > 0.0) || !std::isfinite(band))
+    return std::numeric_limits<double>::infinity();
+  return 1.0 / (kTwoPi * kCoilResonanceMultiple * band * std::sqrt(*spec.technology.coil_c_per_h));
+}
+
 double yield_corner_scale(const ChainSpec& spec) {
   if (!spec.variation || !spec.target.yield) return 0.0;
   int classes = 0;
@@ -70,6 +87,12 @@ double yield_corner_scale(const ChainSpec& spec) {
     (0.5 * std::erfc(-mid / std::sqrt(2.0)) < p ? lo : hi) = mid;
   }
   return 0.5 * (lo + hi) / 3.0;
+}
+
+Measured as_measured(const Evaluation& e) {
+  const auto finite = [](double x) { return std::isfinite(x) ? std::optional(x) : std::nullopt; };
+  return {e.f,         e.t,         e.total_gm, finite(e.input_noise_rms_a), e.min_stage_gain_db,
+          finite(e.output_noise_rms_v), std::isnan(e.ber) ? std::nullopt : std::optional(e.ber)};
 }
 
 bool needs_input_noise(const ChainSpec& spec) {
@@ -135,7 +158,7 @@ Problem::Problem(const ChainSpec& spec, Combination combo, std::vector<GraphStag
     // Elements a normalised design sets are not searched on their own.
     if (!designed)
       for (const auto* p : plannable_elements(info.kind))
-        consider(p->key, parameter_bounds(*p, spec.technology), p->linear_scale, false);
+        consider(p->key, parameter_bounds(*p, spec), p->linear_scale, false);
   }
 
   // The design space: only the axes some open value hangs on.
@@ -245,6 +268,8 @@ Evaluation Problem::evaluate(const std::vector<double>& u, Fidelity fidelity) co
     w.t.overshoot_pct = std::max(w.t.overshoot_pct, e.t.overshoot_pct);
     w.min_stage_gain_db = std::min(w.min_stage_gain_db, e.min_stage_gain_db);
     w.input_noise_rms_a = std::max(w.input_noise_rms_a, e.input_noise_rms_a);
+    w.output_noise_rms_v = std::max(w.output_noise_rms_v, e.output_noise_rms_v);
+    w.ber = std::max(w.ber, e.ber);
   }
   return w;
 }
@@ -282,6 +307,7 @@ Evaluation Problem::measure(const Chain& chain, Fidelity fidelity) const {
     // far less than its margins; the final measurement uses the analysis's 160.
     e.input_noise_rms_a = output_rms_noise(model, fidelity == Fidelity::final ? 160 : 40) / std::fabs(model.dc_gain());
   }
+  if ((spec_.limits.noise_rms || spec_.limits.ber) && spec_.signal) measure_output_noise(chain, cascade, fidelity, e);
   // The stages are the cascade's last blocks (a source pole, if any, comes first).
   const auto& blocks = cascade.blocks();
   const size_t stages = chain.path_to(chain.outputs().back()).size();
@@ -289,6 +315,19 @@ Evaluation Problem::measure(const Chain& chain, Fidelity fidelity) const {
   for (size_t k = blocks.size() - stages; k < blocks.size(); ++k)
     e.min_stage_gain_db = std::min(e.min_stage_gain_db, to_db(std::fabs(blocks[k].dc_value())));
   return e;
+}
+
+// The differential output noise as analyze computes it (its noise options, the receiver's
+// bandwidth) and, for a BER limit, the statistical eye at the swing from the PRBS eye: the
+// search integrates the noise at 40 points a decade (far inside the limits' margins), the final
+// measurement at the analysis's 160.
+void Problem::measure_output_noise(const Chain& chain, const Cascade& cascade, Fidelity fidelity, Evaluation& e) const {
+  const auto options = analysis_options(spec_);
+  const ChainNoise model(chain, chain.outputs().back(), options.noise);
+  e.output_noise_rms_v = std::sqrt(2.0) * output_rms_noise(model, fidelity == Fidelity::final ? 160 : 40);
+  if (!spec_.limits.ber || !options.swing_given || !options.signal) return;
+  const auto eye = estimate_eye(cascade, *options.signal);
+  e.ber = statistical_eye(eye.pulse, eye.prbs, *options.signal, e.output_noise_rms_v).ber;
 }
 
 std::vector<double> Problem::design_seed() const {

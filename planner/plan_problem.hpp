@@ -21,6 +21,7 @@
 #include "models/variation.hpp"
 #include "planner/chain_file.hpp"
 #include "planner/chain_graph.hpp"
+#include "planner/requirements.hpp"
 
 namespace peakplan {
 
@@ -54,7 +55,14 @@ struct Evaluation {
   // The input-referred rms noise current, A, of a chain driven by a photocurrent when a target
   // or the objective needs it (needs_input_noise); NaN otherwise.
   double input_noise_rms_a = std::numeric_limits<double>::quiet_NaN();
+  // With [limits] noise_rms or ber (needs_output_noise): the differential rms output noise, V,
+  // and with ber the statistical eye's BER at the [signal] swing; NaN otherwise.
+  double output_noise_rms_v = std::numeric_limits<double>::quiet_NaN();
+  double ber = std::numeric_limits<double>::quiet_NaN();
 };
+
+// What the requirements read from a candidate (planner/requirements.hpp).
+Measured as_measured(const Evaluation& e);
 
 // plan_for = "yield": the corners are the global extremes scaled by this factor (0 when the spec
 // has no [variation] global spread or no yield). With c classes spread, each drawn independently,
@@ -64,6 +72,18 @@ struct Evaluation {
 // gaussian, a = z/3 with z = Phi^-1((1 + yield^(1/c))/2) (the spread is 3 sigma); uniform,
 // a = yield^(1/c) of the half-width (derived).
 double yield_corner_scale(const ChainSpec& spec);
+
+// The self-resonance rule for open coils (common practice: a coil is used well below its
+// self-resonance). With [technology] coil_c_per_nh a coil of L carries C = c_per_l L and
+// resonates at f_SR = 1/(2 pi sqrt(L C)) = 1/(2 pi L sqrt(c_per_l)); the planner keeps
+// f_SR >= kCoilResonanceMultiple x the chain's band (coil_band), which bounds every open
+// inductance by 1/(2 pi kCoilResonanceMultiple band sqrt(c_per_l)). At a third of f_SR a lumped
+// L || C acts as L/(1 - 1/9), 12.5 % above L (derived). +inf without coil_c_per_nh or a band.
+inline constexpr double kCoilResonanceMultiple = 3.0;
+// The band a coil must serve: [target] bandwidth, or gain_bandwidth / gain when both are
+// given; +inf otherwise.
+double coil_band(const ChainSpec& spec);
+double coil_inductance_limit(const ChainSpec& spec);
 
 // Whether a plan must measure the input-referred noise: a sensitivity target or "quietest".
 bool needs_input_noise(const ChainSpec& spec);
@@ -104,6 +124,7 @@ class Problem {
   Chain assemble(const std::vector<double>& u) const;
   int variable_index(size_t stage, std::string_view key) const;
   Evaluation measure(const Chain& chain, Fidelity fidelity) const;
+  void measure_output_noise(const Chain& chain, const Cascade& cascade, Fidelity fidelity, Evaluation& e) const;
 
   const ChainSpec& spec_;
   Combination combo_;

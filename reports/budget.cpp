@@ -6,6 +6,7 @@
 #include <stdexcept>
 
 #include "models/units.hpp"
+#include "planner/requirements.hpp"
 #include "planner/stage_value.hpp"
 #include "reports/caution.hpp"
 
@@ -221,8 +222,7 @@ Budget build_budget(const ChainSpec& spec, const Chain& chain, const ChainAnalys
   t.overshoot_pct = main.response.step.overshoot_pct;
   if (b.has_current) t.total_current_a = t.total_gm / *gm_over_id;
   t.input_network_share_pct = main_delay > 0.0 ? 100.0 - path_share : 0.0;
-  b.checks = check_targets(spec, f, main.response.step, t.total_gm,
-                           main.receiver ? std::optional(main.receiver->input_rms_a) : std::nullopt);
+  b.checks = analysis_checks(spec, main, t.total_gm);
   return b;
 }
 
