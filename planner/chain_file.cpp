@@ -446,7 +446,7 @@ void read_technology(Reader& reader, const toml::table& root, ChainSpec& spec) {
   if (const auto* n = t->get("coil_c_per_nh")) {
     // A capacitance per nH: "20 fF" means 20 fF for every nH of a coil.
     if (const auto c = reader.bounded(*n, Dimension::capacitance, "[technology] coil_c_per_nh", false))
-      tech.coil_c_per_h = *c / 1e-9;
+      tech.coil_c_per_nh = *c;
   }
   positive("gm_over_id", Dimension::dimensionless, tech.gm_over_id);
   positive("current_budget", Dimension::current, tech.current_budget);

@@ -51,9 +51,10 @@ struct TechnologySpec {
   // The smallest useful device: lower bound of an open gm (S).
   std::optional<double> min_gm;
   SourcePosition min_gm_where;
-  // A coil's capacitance to AC ground per henry of its inductance (the file gives it per nH),
-  // half at each end; it also bounds open inductances by their self-resonance (planner).
-  std::optional<double> coil_c_per_h;
+  // A coil's capacitance to AC ground per nH of its inductance (F, as the file gives it), half at
+  // each end; it also bounds open inductances by their self-resonance (planner).
+  std::optional<double> coil_c_per_nh;
+  double coil_c_per_l() const { return coil_c_per_nh.value_or(0.0) / 1e-9; }  // F/H
   std::optional<double> gm_over_id, current_budget;
   std::optional<double> k_min, k_max;
   double gamma = 1.0;

@@ -75,7 +75,7 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
   opt("min_cb", tech.min_cb, "F");
   opt("min_gm", tech.min_gm, "S");
   opt("max_gm", tech.max_gm, "S");
-  if (tech.coil_c_per_h) out += number_line("coil_c_per_nh", *tech.coil_c_per_h * 1e-9, "F");
+  opt("coil_c_per_nh", tech.coil_c_per_nh, "F");
   opt("gm_over_id", tech.gm_over_id, "");
   opt("current_budget", tech.current_budget, "");
   if (tech.k_min && tech.k_max) out += "k_range = [" + toml_number(*tech.k_min) + ", " + toml_number(*tech.k_max) + "]\n";

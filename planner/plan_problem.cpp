@@ -67,9 +67,10 @@ double coil_band(const ChainSpec& spec) {
 
 double coil_inductance_limit(const ChainSpec& spec) {
   const double band = coil_band(spec);
-  if (!spec.technology.coil_c_per_h || !(*spec.technology.coil_c_per_h > 0.0) || !std::isfinite(band))
+  const double c_per_l = spec.technology.coil_c_per_l();
+  if (!(c_per_l > 0.0) || !std::isfinite(band))
     return std::numeric_limits<double>::infinity();
-  return 1.0 / (kTwoPi * kCoilResonanceMultiple * band * std::sqrt(*spec.technology.coil_c_per_h));
+  return 1.0 / (kTwoPi * kCoilResonanceMultiple * band * std::sqrt(c_per_l));
 }
 
 double yield_corner_scale(const ChainSpec& spec) {
@@ -327,7 +328,7 @@ void Problem::measure_output_noise(const Chain& chain, const Cascade& cascade, F
   e.output_noise_rms_v = std::sqrt(2.0) * output_rms_noise(model, fidelity == Fidelity::final ? 160 : 40);
   if (!spec_.limits.ber || !options.swing_given || !options.signal) return;
   const auto eye = estimate_eye(cascade, *options.signal);
-  e.ber = statistical_eye(eye.pulse, eye.prbs, *options.signal, e.output_noise_rms_v).ber;
+  e.ber = ber_from_q(eye_q(eye.pulse, eye.prbs, *options.signal, e.output_noise_rms_v));
 }
 
 std::vector<double> Problem::design_seed() const {

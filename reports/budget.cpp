@@ -38,9 +38,11 @@ CheckUnit check_unit(const PlanCheck& c) {
   if (c.unit == "s") return {"ps", kPs, 3};
   if (c.unit == "%") return {"%", 1.0, 2};
   if (c.unit == "A") return {"mA", kMa, 2};
+  if (c.unit == "V") return {"mV", 1e-3, 3};
   return {c.unit, 1.0, 2};
 }
 std::string show_check(const PlanCheck& c, double x) {
+  if (c.unit.empty()) return fmt::format("{:.3g}", x);  // a ratio over decades: a bit-error ratio
   const auto u = check_unit(c);
   return scaled(x, u.scale, u.decimals) + " " + u.unit;
 }
@@ -450,6 +452,7 @@ std::string shown_requirement(const PlanCheck& check) {
   if (check.unit == "%") return sign + show_pct(check.limit);
   if (check.unit == "s") return sign + show_ps(check.limit);
   if (check.unit == "A") return sign + scaled(check.limit, kMa, 2) + " mA";
+  if (check.unit.empty()) return sign + fmt::format("{:.3g}", check.limit);
   return sign + show_number(check.limit, 3) + " " + check.unit;
 }
 
