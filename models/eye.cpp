@@ -373,8 +373,8 @@ double height_at_ber(std::span<const double> cursors, int main_index, Modulation
 }
 
 double eye_q(const PulseResponse& pulse, const PrbsEye& prbs, const Signal& signal, double noise_rms_v) {
-  const double inner_v =
-      std::max(0.0, prbs.eye.height) * signal.swing * std::fabs(pulse.dc_gain) * ideal_eye_fraction(signal.modulation);
+  const double ideal_eye_v = signal.swing * std::fabs(pulse.dc_gain) * ideal_eye_fraction(signal.modulation);
+  const double inner_v = std::max(0.0, prbs.eye.height) * ideal_eye_v;
   return noise_rms_v > 0.0 ? inner_v / (2.0 * noise_rms_v) : std::numeric_limits<double>::infinity();
 }
 
