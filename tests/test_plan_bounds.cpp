@@ -11,7 +11,7 @@
 #include <string>
 #include <vector>
 
-#include "cli_support.hpp"
+#include "cli_json.hpp"
 #include "planner/chain_graph.hpp"
 #include "planner/plan_problem.hpp"
 
@@ -19,19 +19,6 @@ using nlohmann::json;
 using namespace peakplan::test;
 
 namespace {
-
-json run_json(const std::vector<std::string>& args, int expected_status = 0) {
-  const auto r = run_cli(args);
-  INFO("stderr: " << r.err);
-  REQUIRE(r.status == expected_status);
-  return json::parse(r.out);
-}
-
-// Relative closeness (doctest's Approx adds an absolute 1 to its scale, which would pass any
-// two values as small as a BER or a capacitance).
-bool close(double a, double b, double relative) {
-  return std::fabs(a - b) <= relative * std::max(std::fabs(a), std::fabs(b));
-}
 
 const json* check_named(const json& plan, const std::string& name) {
   for (const auto& c : plan.at("checks"))

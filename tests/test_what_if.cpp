@@ -12,24 +12,12 @@
 #include <string>
 #include <vector>
 
-#include "cli_support.hpp"
+#include "cli_json.hpp"
 
 using nlohmann::json;
 using namespace peakplan::test;
 
 namespace {
-
-json run_json(const std::vector<std::string>& args, int expected_status = 0) {
-  const auto r = run_cli(args);
-  INFO("stderr: " << r.err);
-  REQUIRE(r.status == expected_status);
-  return json::parse(r.out);
-}
-
-// Relative closeness with an absolute floor for values that are zero (peaking, overshoot).
-bool close(double a, double b, double relative) {
-  return std::fabs(a - b) <= relative * std::max({std::fabs(a), std::fabs(b), 1e-30});
-}
 
 // Every number of `a` equals the one at the same place in `b` to `relative`; every other
 // value is equal. Reports the first difference by its JSON path.
