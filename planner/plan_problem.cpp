@@ -152,6 +152,12 @@ Problem::Problem(const ChainSpec& spec, Combination combo, std::vector<GraphStag
         lo = a->min;
         hi = a->max;
       }
+      // An open value with no room (a range with min = max, or a default bound the technology
+      // closes) is that value: a search axis of zero width is no axis.
+      if (!(hi > lo)) {
+        pinned_.push_back({i, std::string(key), lo, lo, false});
+        return;
+      }
       variables_.push_back({i, std::string(key), lo, hi, !linear && lo > 0.0});
     };
     consider("gm", device_bounds("gm", spec.technology), false, true);
@@ -220,6 +226,8 @@ int Problem::variable_index(size_t stage, std::string_view key) const {
 
 double Problem::value(const std::vector<double>& u, size_t stage, std::string_view key, double fallback) const {
   if (const int v = variable_index(stage, key); v >= 0) return variables_[static_cast<size_t>(v)].to_value(u[static_cast<size_t>(v)]);
+  for (const auto& p : pinned_)
+    if (p.spec == stage && p.key == key) return p.lo;
   const auto* a = spec_.stages[stage].find(key);
   return a && a->is_fixed() ? a->value : fallback;
 }

@@ -130,6 +130,7 @@ class Problem {
   Combination combo_;
   std::vector<GraphStage> graph_;
   std::vector<Variable> variables_;
+  std::vector<Variable> pinned_;  // open values whose bounds meet: each is its lo
   std::vector<Axis> design_;
   std::vector<std::optional<LoadKind>> design_kind_;  // per design axis; set for Axis::design only
   std::vector<double> design_lo_, design_hi_;

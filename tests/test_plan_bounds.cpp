@@ -214,3 +214,26 @@ TEST_CASE("plan bounds: planned coils carry the loss inductor_q gives them at th
     CHECK(close(v["r_l"].get<double>(), 2.0 * std::numbers::pi * f * c.l / 8.0, 1e-9));
   }
 }
+
+TEST_CASE("plan bounds: an open value whose bounds meet is that value, not an internal error") {
+  TempDir scratch("peakplan_plan_bounds");
+  // A range with min = max (this was exit 3, "zero step size", from the search).
+  const auto pinned = scratch.write("pinned.toml", R"([target]
+gain = "10 dB"
+[[stage]]
+id = "a"
+kind = "plain"
+gm = "40 mS"
+rd = { min = "100 ohm", max = "100 ohm" }
+c_load = "30 fF"
+)");
+  const auto plan = run_json({"plan", pinned, "--json"});
+  CHECK(close(plan["chosen"][0]["values"]["rd"].get<double>(), 100.0, 1e-15));  // the one value the range holds
+  // A coil capacitance so large that the self-resonance bound falls below the least coil the
+  // planner considers (1 pH): the coils sit at 1 pH and the plan is a result (met or not).
+  const auto r = run_cli({"plan", scratch.write("dense.toml", peaked_pair("coil_c_per_nh = \"10 nF\"")), "--json"});
+  INFO(r.err);
+  CHECK((r.status == 0 || r.status == 1));
+  const auto doc = json::parse(r.out);
+  for (const auto& c : doc["chosen"]) CHECK(close(c["values"]["l"].get<double>(), 1e-12, 1e-15));
+}
