@@ -372,6 +372,12 @@ double height_at_ber(std::span<const double> cursors, int main_index, Modulation
   return height_on_grid(cursors, main_index, modulation, sigma, ber, reach, grid);
 }
 
+double eye_q(const PulseResponse& pulse, const PrbsEye& prbs, const Signal& signal, double noise_rms_v) {
+  const double ideal_eye_v = signal.swing * std::fabs(pulse.dc_gain) * ideal_eye_fraction(signal.modulation);
+  const double inner_v = std::max(0.0, prbs.eye.height) * ideal_eye_v;
+  return noise_rms_v > 0.0 ? inner_v / (2.0 * noise_rms_v) : std::numeric_limits<double>::infinity();
+}
+
 StatisticalEye statistical_eye(const PulseResponse& pulse, const PrbsEye& prbs, const Signal& signal,
                                double noise_rms_v) {
   if (!(noise_rms_v >= 0.0)) throw std::invalid_argument("statistical_eye: noise < 0");
@@ -382,8 +388,7 @@ StatisticalEye statistical_eye(const PulseResponse& pulse, const PrbsEye& prbs, 
   r.ideal_eye_v = signal.swing * std::fabs(pulse.dc_gain) * ideal_eye_fraction(signal.modulation);
   const double sigma = noise_rms_v / (signal.swing * std::fabs(pulse.dc_gain));  // normalised
 
-  const double inner_v = std::max(0.0, prbs.eye.height) * r.ideal_eye_v;
-  r.q = noise_rms_v > 0.0 ? inner_v / (2.0 * noise_rms_v) : std::numeric_limits<double>::infinity();
+  r.q = eye_q(pulse, prbs, signal, noise_rms_v);
   r.ber = ber_from_q(r.q);
 
   const int n = pulse.steps_per_ui;

@@ -153,6 +153,9 @@ struct StatisticalEye {
 // (0, 0.5).
 StatisticalEye statistical_eye(const PulseResponse& pulse, const PrbsEye& prbs, const Signal& signal,
                                double noise_rms_v);
+// Its q alone: (PRBS inner eye in volts / 2) / noise_rms_v (inf without noise), the cheap part a
+// planner's search needs; statistical_eye's q and ber = ber_from_q(q) are this.
+double eye_q(const PulseResponse& pulse, const PrbsEye& prbs, const Signal& signal, double noise_rms_v);
 
 struct EyeEstimate {
   PulseResponse pulse;

@@ -2,6 +2,7 @@
 
 #include <array>
 #include <stdexcept>
+#include <string>
 
 namespace peakplan {
 namespace {
@@ -45,6 +46,22 @@ const LoadParameter* loss_of(const LoadKindInfo& info, std::string_view coil_key
   for (const auto& p : info.parameters)
     if (p.role == ParameterRole::loss && p.loss_of == coil_key) return &p;
   return nullptr;
+}
+
+int stamp_coil(NodalSystem& sys, int a, int b, double l, double r, double c_per_l) {
+  const double half = 0.5 * c_per_l * l;
+  if (a != NodalSystem::ground) sys.add_capacitor(a, NodalSystem::ground, half);
+  if (b != NodalSystem::ground) sys.add_capacitor(b, NodalSystem::ground, half);
+  return sys.add_inductor(a, b, l, r);
+}
+
+bool netlist_coil(ElementSink& w, std::string_view name, std::string_view a, std::string_view b, double l, double r,
+                  double c_per_l) {
+  const double half = 0.5 * c_per_l * l;
+  const std::string c = "C" + std::string(name);
+  if (a != "0") w.capacitor(c + "a", a, "0", half);
+  if (b != "0") w.capacitor(c + "b", b, "0", half);
+  return w.inductor(name, a, b, l, r);
 }
 
 double output_node_capacitance(const StageCircuit& stage) {

@@ -40,6 +40,9 @@ struct StageCircuit {
   // puts on the input node beside it; filled by fill_node_capacitances.
   double c_cell_in = 0.0;
   double c_pd = 0.0, i_dark = 0.0;
+  // Every coil's capacitance to AC ground per henry of its inductance ([technology]
+  // coil_c_per_nh), half at each end: stamped through stamp_coil by each kind.
+  double coil_c_per_l = 0.0;  // F/H
   double c_out = 0.0;   // the stage's own drain-node parasitic
   double c_node = 0.0;  // on the output node: c_in of every stage fed, plus c_load
   double r_load = std::numeric_limits<double>::infinity();  // on the output node; inf = open
@@ -145,6 +148,15 @@ std::string_view to_string(LoadKind kind);
 const LoadParameter* find_parameter(const LoadKindInfo& info, std::string_view key);
 // The loss parameter of a coil key, or nullptr.
 const LoadParameter* loss_of(const LoadKindInfo& info, std::string_view coil_key);
+
+// A coil as every kind stamps it: L with its series loss r from a to b, and its self-capacitance
+// c_per_l * L to AC ground, half at each end (the shunt capacitances of a spiral's lumped pi
+// model; an end at AC ground takes none). Returns the coil's branch, for a mutual coupling.
+int stamp_coil(NodalSystem& sys, int a, int b, double l, double r, double c_per_l);
+// The same through a netlist sink (ground is node "0"): the L line and its end capacitors
+// C<name>a, C<name>b. Returns whether the L element was written.
+bool netlist_coil(ElementSink& w, std::string_view name, std::string_view a, std::string_view b, double l, double r,
+                  double c_per_l);
 
 // Every capacitance on the stage's output node: c_node, plus c_out when the drain is the output.
 double output_node_capacitance(const StageCircuit& stage);

@@ -10,6 +10,8 @@
 //
 // With r_l = 0 and no r_load, C = c_out + c_node, x = c_node/C, tau = Rd*C, m = L/(Rd^2*C):
 // v_out/(-gm*Rd) = 1 / (1 + tau*s + m*x*tau^2*s^2 + m*x*(1-x)*tau^3*s^3).
+// A coil self-capacitance ([technology] coil_c_per_nh, stamp_coil) puts c_per_l*L/2 on the drain
+// and on out.
 #include <array>
 
 #include "models/load_kinds.hpp"
@@ -36,7 +38,7 @@ int stamp_series(const StageCircuit& s, NodalSystem& sys) {
   sys.add_gm_drive(drain, s.gm);
   sys.add_resistor(drain, NodalSystem::ground, s.rd);
   sys.add_capacitor(drain, NodalSystem::ground, s.c_out);
-  sys.add_inductor(drain, out, s.l, s.r_l);
+  stamp_coil(sys, drain, out, s.l, s.r_l, s.coil_c_per_l);
   sys.add_capacitor(out, NodalSystem::ground, s.c_node);
   sys.add_resistor(out, NodalSystem::ground, s.r_load);
   return out;
@@ -46,7 +48,7 @@ void netlist_series(const StageCircuit& s, ElementSink& w) {
   w.gm_cell("drain");
   w.resistor("Rd", "drain", "0", s.rd);
   w.capacitor("Cout", "drain", "0", s.c_out);
-  w.inductor("L", "drain", "out", s.l, s.r_l);
+  netlist_coil(w, "L", "drain", "out", s.l, s.r_l, s.coil_c_per_l);
 }
 
 double dc_resistance_series(const StageCircuit& s) { return s.rd; }

@@ -12,6 +12,8 @@
 //
 // With r_l = 0 and no r_load, Z/R = (1 + m*tau*s) / (1 + tau*s + m*tau^2*s^2), tau = Rd*C,
 // m = L/(Rd^2*C) (the convention of Shekhar, Walling and Allstot, JSSC 2006).
+// A coil self-capacitance ([technology] coil_c_per_nh, stamp_coil) puts c_per_l*L/2 on rd_l; its
+// other end is the supply.
 #include <array>
 #include <cmath>
 
@@ -37,7 +39,7 @@ int stamp_shunt(const StageCircuit& s, NodalSystem& sys) {
   const int mid = sys.add_node("rd_l");  // between Rd and L; has no capacitance
   sys.add_gm_drive(drain, s.gm);
   sys.add_resistor(drain, mid, s.rd);
-  sys.add_inductor(mid, NodalSystem::ground, s.l, s.r_l);
+  stamp_coil(sys, mid, NodalSystem::ground, s.l, s.r_l, s.coil_c_per_l);
   sys.add_capacitor(drain, NodalSystem::ground, s.c_out + s.c_node);
   sys.add_resistor(drain, NodalSystem::ground, s.r_load);
   return drain;
@@ -46,7 +48,7 @@ int stamp_shunt(const StageCircuit& s, NodalSystem& sys) {
 void netlist_shunt(const StageCircuit& s, ElementSink& w) {
   w.gm_cell("out");
   w.resistor("Rd", "out", "rd_l", s.rd);
-  w.inductor("L", "rd_l", "0", s.l, s.r_l);
+  netlist_coil(w, "L", "rd_l", "0", s.l, s.r_l, s.coil_c_per_l);
   w.capacitor("Cout", "out", "0", s.c_out);
 }
 

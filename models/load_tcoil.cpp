@@ -13,6 +13,8 @@
 // Symmetric, lossless, c_out = 0, load C at the tap, R = Rd: with 2L(1+k) = R^2*C and
 // Cb = C(1-k)/(4(1+k)) the drain sees R at every frequency and
 // v_out/(-gm*R) = 1 / (1 + s*R*C/2 + s^2*(1-k)*R^2*C^2/(4(1+k)))   (C. R. Battjes).
+// A coil self-capacitance ([technology] coil_c_per_nh, stamp_coil) puts c_per_l*L1/2 on the drain,
+// c_per_l*(L1 + L2)/2 on the tap and c_per_l*L2/2 on rd_end.
 #include <array>
 #include <cmath>
 
@@ -58,8 +60,8 @@ int stamp_tcoil(const StageCircuit& s, NodalSystem& sys) {
   const int rd_end = sys.add_node("rd_end");
   sys.add_gm_drive(drain, s.gm);
   sys.add_capacitor(drain, NodalSystem::ground, s.c_out);
-  const int b1 = sys.add_inductor(drain, tap, s.l1, s.r_l1);
-  const int b2 = sys.add_inductor(tap, rd_end, s.l2, s.r_l2);
+  const int b1 = stamp_coil(sys, drain, tap, s.l1, s.r_l1, s.coil_c_per_l);
+  const int b2 = stamp_coil(sys, tap, rd_end, s.l2, s.r_l2, s.coil_c_per_l);
   sys.add_mutual(b1, b2, s.k * std::sqrt(s.l1 * s.l2));
   sys.add_capacitor(drain, rd_end, s.cb);
   sys.add_capacitor(drain, tap, s.c_w);
@@ -75,8 +77,8 @@ void netlist_tcoil(const StageCircuit& s, ElementSink& w) {
   w.capacitor("Cout", "drain", "0", s.c_out);
   // Both halves run drain -> tap -> rd_end, first node = dotted end, so K's sign is the
   // models' sign: positive k adds 2k*sqrt(L1*L2) to the end-to-end inductance.
-  const bool l1 = w.inductor("L1", "drain", "out", s.l1, s.r_l1);
-  const bool l2 = w.inductor("L2", "out", "rd_end", s.l2, s.r_l2);
+  const bool l1 = netlist_coil(w, "L1", "drain", "out", s.l1, s.r_l1, s.coil_c_per_l);
+  const bool l2 = netlist_coil(w, "L2", "out", "rd_end", s.l2, s.r_l2, s.coil_c_per_l);
   if (l1 && l2 && s.k != 0.0) w.coupling("K12", "L1", "L2", s.k);
   w.capacitor("Cb", "drain", "rd_end", s.cb);
   w.capacitor("Cw1", "drain", "out", s.c_w);

@@ -29,9 +29,10 @@ const Keys kSignalKeys{"bit_rate", "modulation", "pattern", "input_rise", "swing
                           "extinction_ratio"};
 const Keys kTargetKeys{"gain", "bandwidth", "gain_bandwidth", "objective", "plan_for", "transimpedance",
                        "sensitivity", "yield", "output_swing"};
-const Keys kLimitsKeys{"overshoot", "peaking", "group_delay_ripple", "ripple_band", "sag", "min_stage_gain", "ddj"};
+const Keys kLimitsKeys{"overshoot", "peaking", "group_delay_ripple", "ripple_band", "sag", "min_stage_gain",
+                       "ddj", "ber", "noise_rms"};
 const Keys kTechnologyKeys{"ft", "c_out_ratio", "inductor_q", "max_inductance", "k_range",
-                           "min_cb", "max_gm", "gm_over_id", "current_budget", "gamma",
+                           "min_cb", "min_gm", "max_gm", "coil_c_per_nh", "gm_over_id", "current_budget", "gamma",
                            "temperature"};
 const Keys kStageKeys{"id", "kind", "gm", "rd", "c_in", "c_out", "c_load", "r_load",
                       "feeds", "count", "tap", "tail_current", "pair"};
@@ -398,6 +399,29 @@ void read_limits(Reader& reader, const toml::table& root, ChainSpec& spec) {
     spec.limits.ddj_where = position(n->source());
     spec.limits.ddj = reader.bounded(*n, Dimension::time, "[limits] ddj", false);
   }
+  if (const auto* n = t->get("ber")) {
+    spec.limits.ber_where = position(n->source());
+    const auto v = reader.quantity(*n, Dimension::dimensionless, "[limits] ber");
+    if (v && !(*v > 0.0 && *v < 0.5))
+      reader.error(*n, "[limits] ber must be in (0, 0.5) (a bit-error ratio, e.g. 1e-12), saw " + shown(*n));
+    else
+      spec.limits.ber = v;
+  }
+  if (const auto* n = t->get("noise_rms")) {
+    spec.limits.noise_rms_where = position(n->source());
+    spec.limits.noise_rms = reader.bounded(*n, Dimension::voltage, "[limits] noise_rms", true);
+  }
+}
+
+// The BER limit is read at the [signal] swing, and both noise limits from the noise a [signal]
+// analysis computes (with its receiver_bandwidth): each an error at its key without them.
+void check_signal_limits(Reader& reader, const ChainSpec& spec) {
+  if (spec.limits.ber && !(spec.signal && spec.signal->swing))
+    reader.error(spec.limits.ber_where, "[limits] ber is the bit-error ratio at the input swing: give [signal] with "
+                                        "bit_rate and swing (e.g. swing = \"20 mV\")");
+  if (spec.limits.noise_rms && !spec.signal)
+    reader.error(spec.limits.noise_rms_where, "[limits] noise_rms limits the output noise analyze reports with a "
+                                              "[signal]: give [signal] with its bit_rate");
 }
 
 void read_technology(Reader& reader, const toml::table& root, ChainSpec& spec) {
@@ -419,6 +443,20 @@ void read_technology(Reader& reader, const toml::table& root, ChainSpec& spec) {
   }
   positive("max_inductance", Dimension::inductance, tech.max_inductance);
   positive("max_gm", Dimension::conductance, tech.max_gm);
+  if (const auto* n = t->get("min_gm")) {
+    tech.min_gm_where = position(n->source());
+    tech.min_gm = reader.bounded(*n, Dimension::conductance, "[technology] min_gm", true);
+    if (tech.min_gm && *tech.min_gm > tech.max_gm.value_or(kDefaultMaxGm)) {
+      reader.error(*n, fmt::format("[technology] min_gm {} is above max_gm {}: the planner would have no device to "
+                                   "choose", shown(*n), format_si(tech.max_gm.value_or(kDefaultMaxGm), "S", 4)));
+      tech.min_gm.reset();
+    }
+  }
+  if (const auto* n = t->get("coil_c_per_nh")) {
+    // A capacitance per nH: "20 fF" means 20 fF for every nH of a coil.
+    if (const auto c = reader.bounded(*n, Dimension::capacitance, "[technology] coil_c_per_nh", false))
+      tech.coil_c_per_nh = *c;
+  }
   positive("gm_over_id", Dimension::dimensionless, tech.gm_over_id);
   positive("current_budget", Dimension::current, tech.current_budget);
   if (const auto* n = t->get("min_cb")) tech.min_cb = reader.bounded(*n, Dimension::capacitance, "[technology] min_cb", false);
@@ -824,6 +862,7 @@ std::optional<ChainSpec> read_document(const toml::table& root, Diagnostics& dia
   read_target(reader, root, spec);
   read_limits(reader, root, spec);
   read_technology(reader, root, spec);
+  check_signal_limits(reader, spec);
   spec.variation = read_variation(root, diagnostics);
 
   const auto* stages = root.get("stage");

@@ -49,6 +49,13 @@ struct StageSpec {
 
 struct TechnologySpec {
   std::optional<double> ft, c_out_ratio, inductor_q, max_inductance, min_cb, max_gm;
+  // The smallest useful device: lower bound of an open gm (S).
+  std::optional<double> min_gm;
+  SourcePosition min_gm_where;
+  // A coil's capacitance to AC ground per nH of its inductance (F, as the file gives it), half at
+  // each end; it also bounds open inductances by their self-resonance (planner).
+  std::optional<double> coil_c_per_nh;
+  double coil_c_per_l() const { return coil_c_per_nh.value_or(0.0) / 1e-9; }  // F/H
   std::optional<double> gm_over_id, current_budget;
   std::optional<double> k_min, k_max;
   double gamma = 1.0;
@@ -95,6 +102,13 @@ struct LimitsSpec {
   // the main output, s, at [signal] swing.
   std::optional<double> ddj;
   SourcePosition ddj_where;
+  // The largest bit-error ratio the main output may have at the [signal] swing (the statistical
+  // eye's BER, docs/physics.md), and the largest differential rms output noise, V (the noise
+  // behind that BER: noise.differential_rms_v of analyze). Both need a [signal].
+  std::optional<double> ber;
+  SourcePosition ber_where;
+  std::optional<double> noise_rms;
+  SourcePosition noise_rms_where;
 };
 
 struct SignalSpec {
@@ -150,6 +164,9 @@ inline constexpr double kMinDesignM = 0.01, kMaxDesignM = 10.0;
 inline constexpr double kMinDesignZeta = 0.1, kMaxDesignZeta = 10.0;
 // A tia's core: 1 .. kMaxCoreStages identical gm-Rd cells.
 inline constexpr int kMaxCoreStages = 5;
+// The planner's default bounds of an open gm (docs/chain-format.md): [technology] max_gm, and
+// min_gm (the smallest useful device) or else min(kDefaultMinGm, max/2).
+inline constexpr double kDefaultMaxGm = 0.2, kDefaultMinGm = 1e-3;
 // Plausible inductor quality factors ([technology] inductor_q): on-chip coils reach 5 .. 30.
 inline constexpr double kMinInductorQ = 0.1, kMaxInductorQ = 1000.0;
 

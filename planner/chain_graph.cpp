@@ -451,6 +451,7 @@ Chain assemble_chain(const ChainSpec& spec, const std::vector<GraphStage>& graph
     ChainStage stage;
     stage.id = g.id;
     stage.circuit = circuits[g.spec];
+    stage.circuit.coil_c_per_l = spec.technology.coil_c_per_l();
     stage.c_in = c_in[g.spec];
     stage.c_load = c_load[g.spec];
     stage.driver = g.driver;

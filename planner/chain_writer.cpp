@@ -52,7 +52,8 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
     if (t.yield) out += "yield = " + toml_percent(*t.yield) + "\n";
   }
   const auto& l = spec.limits;
-  if (l.overshoot || l.peaking_db || l.group_delay_ripple || l.ripple_band || l.sag_db || l.min_stage_gain_db || l.ddj) {
+  if (l.overshoot || l.peaking_db || l.group_delay_ripple || l.ripple_band || l.sag_db || l.min_stage_gain_db || l.ddj ||
+      l.ber || l.noise_rms) {
     out += "\n[limits]\n";
     if (l.overshoot) out += "overshoot = " + toml_percent(*l.overshoot) + "\n";
     if (l.peaking_db) out += "peaking = " + toml_decibels(*l.peaking_db) + "\n";
@@ -61,6 +62,8 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
     if (l.sag_db) out += "sag = " + toml_decibels(*l.sag_db) + "\n";
     if (l.min_stage_gain_db) out += "min_stage_gain = " + toml_decibels(*l.min_stage_gain_db) + "\n";
     if (l.ddj) out += number_line("ddj", *l.ddj, "s");
+    if (l.ber) out += "ber = " + toml_number(*l.ber) + "\n";
+    if (l.noise_rms) out += number_line("noise_rms", *l.noise_rms, "V");
   }
   const auto& tech = spec.technology;
   out += "\n[technology]\n";
@@ -72,7 +75,9 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
   opt("inductor_q", tech.inductor_q, "");
   opt("max_inductance", tech.max_inductance, "H");
   opt("min_cb", tech.min_cb, "F");
+  opt("min_gm", tech.min_gm, "S");
   opt("max_gm", tech.max_gm, "S");
+  opt("coil_c_per_nh", tech.coil_c_per_nh, "F");
   opt("gm_over_id", tech.gm_over_id, "");
   opt("current_budget", tech.current_budget, "");
   if (tech.k_min && tech.k_max) out += "k_range = [" + toml_number(*tech.k_min) + ", " + toml_number(*tech.k_max) + "]\n";

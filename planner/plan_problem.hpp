@@ -24,6 +24,7 @@
 #include "models/variation.hpp"
 #include "planner/chain_file.hpp"
 #include "planner/chain_graph.hpp"
+#include "planner/requirements.hpp"
 
 namespace peakplan {
 
@@ -62,6 +63,10 @@ struct Evaluation {
   // Unset when not measured.
   std::optional<double> eye_height_v;
   std::optional<double> ddj_pp_s;
+  // With [limits] noise_rms or ber (needs_output_noise): the differential rms output noise, V,
+  // and with ber the statistical eye's BER at the [signal] swing; NaN otherwise.
+  double output_noise_rms_v = std::numeric_limits<double>::quiet_NaN();
+  double ber = std::numeric_limits<double>::quiet_NaN();
 };
 
 // Whether a plan must measure the large-signal eye: [target] output_swing or [limits] ddj.
@@ -81,6 +86,9 @@ LargeSignalEye plan_large_signal_eye(const Chain& chain, const Signal& signal, F
 // to the least that gives its gm, 2 V_T gm (models/pair_curve.hpp).
 inline constexpr std::pair<double, double> kTailCurrentAuto{0.1e-3, 40e-3};
 
+// What the requirements read from a candidate (planner/requirements.hpp).
+Measured as_measured(const Evaluation& e);
+
 // plan_for = "yield": the corners are the global extremes scaled by this factor (0 when the spec
 // has no [variation] global spread or no yield). With c classes spread, each drawn independently,
 // a chip whose every global offset lies within +-a of its spread's range holds with probability
@@ -89,6 +97,18 @@ inline constexpr std::pair<double, double> kTailCurrentAuto{0.1e-3, 40e-3};
 // gaussian, a = z/3 with z = Phi^-1((1 + yield^(1/c))/2) (the spread is 3 sigma); uniform,
 // a = yield^(1/c) of the half-width (derived).
 double yield_corner_scale(const ChainSpec& spec);
+
+// The self-resonance rule for open coils (common practice: a coil is used well below its
+// self-resonance). With [technology] coil_c_per_nh a coil of L carries C = c_per_l L and
+// resonates at f_SR = 1/(2 pi sqrt(L C)) = 1/(2 pi L sqrt(c_per_l)); the planner keeps
+// f_SR >= kCoilResonanceMultiple x the chain's band (coil_band), which bounds every open
+// inductance by 1/(2 pi kCoilResonanceMultiple band sqrt(c_per_l)). At a third of f_SR a lumped
+// L || C acts as L/(1 - 1/9), 12.5 % above L (derived). +inf without coil_c_per_nh or a band.
+inline constexpr double kCoilResonanceMultiple = 3.0;
+// The band a coil must serve: [target] bandwidth, or gain_bandwidth / gain when both are
+// given; +inf otherwise.
+double coil_band(const ChainSpec& spec);
+double coil_inductance_limit(const ChainSpec& spec);
 
 // Whether a plan must measure the input-referred noise: a sensitivity target or "quietest".
 bool needs_input_noise(const ChainSpec& spec);
@@ -130,11 +150,13 @@ class Problem {
   Chain assemble(const std::vector<double>& u) const;
   int variable_index(size_t stage, std::string_view key) const;
   Evaluation measure(const Chain& chain, Fidelity fidelity) const;
+  void measure_output_noise(const Chain& chain, const Cascade& cascade, Fidelity fidelity, Evaluation& e) const;
 
   const ChainSpec& spec_;
   Combination combo_;
   std::vector<GraphStage> graph_;
   std::vector<Variable> variables_;
+  std::vector<Variable> pinned_;  // open values whose bounds meet: each is its lo
   std::vector<Axis> design_;
   std::vector<std::optional<LoadKind>> design_kind_;  // per design axis; set for Axis::design only
   std::vector<double> design_lo_, design_hi_;

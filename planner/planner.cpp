@@ -16,12 +16,9 @@
 namespace peakplan {
 namespace {
 
-std::optional<double> finite(double x) { return std::isfinite(x) ? std::optional(x) : std::nullopt; }
-
 // The search's constraints (planner/requirements.hpp), from a candidate's evaluation.
 std::vector<double> violations(const ChainSpec& spec, const Evaluation& e) {
-  return requirement_violations(spec, {e.f, e.t, e.total_gm, finite(e.input_noise_rms_a), e.min_stage_gain_db,
-                                       e.eye_height_v, e.ddj_pp_s});
+  return requirement_violations(spec, as_measured(e));
 }
 
 size_t constraint_count(const ChainSpec& spec) {
@@ -274,8 +271,7 @@ namespace {
 
 // The checks of a plan: those of check_targets, and the least stage gain on the main path.
 std::vector<PlanCheck> plan_checks(const ChainSpec& spec, const Evaluation& e) {
-  return requirement_checks(spec, {e.f, e.t, e.total_gm, finite(e.input_noise_rms_a), e.min_stage_gain_db,
-                                   e.eye_height_v, e.ddj_pp_s});
+  return requirement_checks(spec, as_measured(e));
 }
 
 }  // namespace

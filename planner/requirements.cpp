@@ -106,6 +106,17 @@ const std::array kRequirements{
     Requirement{"ddj", "s", false, {true, 1e-9}, [](const ChainSpec& s) { return s.limits.ddj; },
                 [](const ChainSpec&, const Measured& m) { return or_nan(m.ddj_pp_s); },
                 [](double v, double l) { return std::isfinite(v) ? (v - 0.99 * l) / std::max(l, 1e-13) : 10.0; }, true},
+    // Aimed 0.1 % inside.
+    Requirement{"noise_rms", "V", false, {true, 1e-9}, [](const ChainSpec& s) { return s.limits.noise_rms; },
+                [](const ChainSpec&, const Measured& m) { return or_nan(m.output_noise_rms_v); },
+                [](double v, double l) { return std::isnan(v) ? 10.0 : v / l - 1.0 + 1e-3; }, true},
+    // In decades (a BER spans many), a hundredth of one inside; three decades over is a large
+    // miss. A BER of 0 (no noise) is far inside.
+    Requirement{"ber", "", false, {true, 1e-9}, [](const ChainSpec& s) { return s.limits.ber; },
+                [](const ChainSpec&, const Measured& m) { return or_nan(m.ber); },
+                [](double v, double l) {
+                  return std::isnan(v) ? 10.0 : (std::log10(std::max(v, 1e-300)) - std::log10(l) + 0.01) / 3.0;
+                }, true},
 };
 
 bool measured(const Requirement& r, const Measured& m) {
@@ -114,6 +125,8 @@ bool measured(const Requirement& r, const Measured& m) {
   if (r.name == "current") return m.total_gm.has_value();
   if (r.name == "output_swing") return m.eye_height_v.has_value();
   if (r.name == "ddj") return m.ddj_pp_s.has_value();
+  if (r.name == "noise_rms") return m.output_noise_rms_v.has_value();
+  if (r.name == "ber") return m.ber.has_value();
   return m.input_noise_rms_a.has_value();
 }
 
@@ -139,6 +152,24 @@ std::vector<double> requirement_violations(const ChainSpec& spec, const Measured
   for (const auto& r : kRequirements)
     if (const auto limit = r.limit(spec)) g.push_back(r.violation(r.value(spec, m), *limit));
   return g;
+}
+
+}  // namespace peakplan
+
+namespace peakplan {
+
+std::vector<PlanCheck> analysis_checks(const ChainSpec& spec, const OutputSummary& main, double total_gm) {
+  Measured m{main.response.frequency, main.response.step, total_gm,
+             main.receiver ? std::optional(main.receiver->input_rms_a) : std::nullopt, std::nullopt};
+  if (const auto& eye = main.eye) {
+    m.output_noise_rms_v = eye->noise.differential_rms_v;
+    if (eye->statistical) m.ber = eye->statistical->ber;
+  }
+  if (const auto& ls = main.large_signal) {
+    m.eye_height_v = ls->height_v;
+    m.ddj_pp_s = ls->ddj_pp_s;
+  }
+  return requirement_checks(spec, m);
 }
 
 }  // namespace peakplan

@@ -24,8 +24,12 @@ struct Measured {
   std::optional<double> min_stage_gain_db;  // a plan's stages on the main path
   // The main output's large-signal eye at [signal] swing (a limiting chain): its height, V, and
   // DDJ, s (NaN when the eye is closed).
-  std::optional<double> eye_height_v;
-  std::optional<double> ddj_pp_s;
+  std::optional<double> eye_height_v = std::nullopt;
+  std::optional<double> ddj_pp_s = std::nullopt;
+  // With a [signal]: the differential rms output noise, V, and with its swing the BER of the
+  // statistical eye (models/eye.hpp), as analyze reports them.
+  std::optional<double> output_noise_rms_v = std::nullopt;
+  std::optional<double> ber = std::nullopt;
 };
 
 // The checks of every requirement the spec sets whose value was measured, in table order.
@@ -34,5 +38,9 @@ std::vector<PlanCheck> requirement_checks(const ChainSpec& spec, const Measured&
 // miss), each <= 0 when met and scaled so that 1 is a large miss; the search aims a little
 // inside every limit, so that the final, finer measurement lands within it too.
 std::vector<double> requirement_violations(const ChainSpec& spec, const Measured& m);
+
+// The checks of an analysed chain (a report's budget): its main output's metrics, noise and BER
+// (when the analysis has them), the chain's total gm and, for a receiver, its input noise.
+std::vector<PlanCheck> analysis_checks(const ChainSpec& spec, const OutputSummary& main, double total_gm);
 
 }  // namespace peakplan

@@ -1,11 +1,13 @@
 #include "planner/sweep.hpp"
 
 #include <algorithm>
+#include <array>
 #include <charconv>
 #include <cmath>
 #include <fmt/format.h>
 #include <functional>
 #include <limits>
+#include <numbers>
 
 #include "planner/chain_graph.hpp"
 #include "planner/overrides.hpp"
@@ -45,12 +47,16 @@ const std::vector<TableKey>& table_keys() {
       {"limits", "peaking", "dB", [](S s) { return s.limits.peaking_db; }},
       {"limits", "group_delay_ripple", "s", [](S s) { return s.limits.group_delay_ripple; }},
       {"limits", "ripple_band", "Hz", [](S s) { return s.limits.ripple_band; }},
+      {"limits", "ber", "", [](S s) { return s.limits.ber; }},
+      {"limits", "noise_rms", "V", [](S s) { return s.limits.noise_rms; }},
       {"technology", "ft", "Hz", [](S s) { return s.technology.ft; }},
       {"technology", "c_out_ratio", "", [](S s) { return s.technology.c_out_ratio; }},
       {"technology", "inductor_q", "", [](S s) { return s.technology.inductor_q; }},
       {"technology", "max_inductance", "H", [](S s) { return s.technology.max_inductance; }},
       {"technology", "min_cb", "F", [](S s) { return s.technology.min_cb; }},
       {"technology", "max_gm", "S", [](S s) { return s.technology.max_gm; }},
+      {"technology", "min_gm", "S", [](S s) { return s.technology.min_gm; }},
+      {"technology", "coil_c_per_nh", "F", [](S s) { return s.technology.coil_c_per_nh; }},
       {"technology", "gm_over_id", "", [](S s) { return s.technology.gm_over_id; }},
       {"technology", "current_budget", "A", [](S s) { return s.technology.current_budget; }},
       {"technology", "gamma", "", [](S s) { return std::optional(s.technology.gamma); }},
@@ -110,11 +116,47 @@ struct Axis {
   Override base;  // target and key; value replaced per point
   std::string start, stop;
   int points = 0;
+  // The list form ID.KEY=A,B,C: each point as written (a word such as a response, or a value).
+  std::vector<std::string> list;
 };
+
+// Keys that name something rather than hold a number; `response` is a word that can still be
+// swept as a list of designs.
+constexpr std::array kWordKeys{"id", "kind", "feeds", "tap", "name", "modulation", "pattern", "objective", "k_range"};
+
+std::optional<Axis> parse_list(const Override& o, Diagnostics& diagnostics) {
+  Axis axis{o, {}, {}, 0, {}};
+  const auto fail = [&](const std::string& message) {
+    diagnostics.error({0, 0, o.origin}, message + "; expected ID.KEY=A,B,..., e.g. --vary a1.response=butterworth,bessel");
+    return std::nullopt;
+  };
+  for (size_t from = 0;;) {
+    const auto comma = o.value.find(',', from);
+    std::string item = o.value.substr(from, comma == std::string::npos ? std::string::npos : comma - from);
+    const auto first = item.find_first_not_of(" \t"), last = item.find_last_not_of(" \t");
+    item = first == std::string::npos ? std::string() : item.substr(first, last - first + 1);
+    if (item.empty()) return fail("an empty point in the list '" + o.value + "'");
+    axis.list.push_back(std::move(item));
+    if (comma == std::string::npos) break;
+    from = comma + 1;
+  }
+  if (axis.list.size() < 2) return fail("a list needs at least 2 points, saw '" + o.value + "'");
+  if (axis.list.size() > static_cast<size_t>(kMaxSweepPoints))
+    return fail(fmt::format("{} points is over the limit of {} points", axis.list.size(), kMaxSweepPoints));
+  axis.points = static_cast<int>(axis.list.size());
+  return axis;
+}
 
 std::optional<Axis> parse_vary(const std::string& text, Diagnostics& diagnostics) {
   auto o = parse_override(text, "--vary", diagnostics);
   if (!o) return std::nullopt;
+  for (const auto* word : kWordKeys)
+    if (o->key == word) {
+      diagnostics.error({0, 0, o->origin}, "'" + o->key + "' is not a number that can be swept; expected "
+                                           "ID.KEY=START:STOP:N or ID.KEY=A,B,..., e.g. --vary a1.rd=80ohm:160ohm:5");
+      return std::nullopt;
+    }
+  if (o->value.find(',') != std::string::npos || o->key == "response") return parse_list(*o, diagnostics);
   const auto first = o->value.find(':');
   const auto second = first == std::string::npos ? std::string::npos : o->value.find(':', first + 1);
   const auto fail = [&](const std::string& message) {
@@ -123,7 +165,7 @@ std::optional<Axis> parse_vary(const std::string& text, Diagnostics& diagnostics
   };
   if (second == std::string::npos || o->value.find(':', second + 1) != std::string::npos)
     return fail("the range '" + o->value + "' is not START:STOP:N");
-  Axis axis{*o, o->value.substr(0, first), o->value.substr(first + 1, second - first - 1), 0};
+  Axis axis{*o, o->value.substr(0, first), o->value.substr(first + 1, second - first - 1), 0, {}};
   const auto n = o->value.substr(second + 1);
   const auto [end, ec] = std::from_chars(n.data(), n.data() + n.size(), axis.points);
   if (ec != std::errc{} || end != n.data() + n.size()) return fail("N must be a whole number of points, saw '" + n + "'");
@@ -131,8 +173,6 @@ std::optional<Axis> parse_vary(const std::string& text, Diagnostics& diagnostics
   if (axis.points > kMaxSweepPoints)
     return fail("N " + n + " is over the limit of " + std::to_string(kMaxSweepPoints) + " points");
   if (axis.start.empty() || axis.stop.empty()) return fail("START and STOP must both be given");
-  for (const auto* word : {"id", "kind", "feeds", "tap", "response", "name", "modulation", "pattern", "objective", "k_range"})
-    if (axis.base.key == word) return fail("'" + axis.base.key + "' is not a number that can be swept");
   return axis;
 }
 
@@ -238,23 +278,87 @@ void fill_metrics(SweepRow& row, const Chain& chain, const ChainSpec& spec, bool
 
 }  // namespace
 
+namespace {
+
+// One point of the axis: its value (SI; NaN for a word), its text as an override, and the word
+// itself when the key is one (a response).
+struct Point {
+  double value = 0.0;
+  std::string text, word;
+};
+
+std::optional<std::vector<Point>> axis_points(const std::string& text, const std::vector<Override>& sets,
+                                              const Axis& axis, bool log, KeyValue& key, Diagnostics& diagnostics) {
+  const bool whole = axis.base.key == "count";
+  std::vector<Point> points;
+  if (!axis.list.empty()) {
+    for (size_t i = 0; i < axis.list.size(); ++i) {
+      const auto& item = axis.list[i];
+      if (axis.base.key == "response") {  // checked as a word at the point, by the reader
+        points.push_back({kNaN, item, item});
+        continue;
+      }
+      const auto value = axis_end(text, sets, axis, item, fmt::format("point {}", i + 1).c_str(), key, diagnostics);
+      if (!value) return std::nullopt;
+      points.push_back({*value, whole ? point_text(*value, true, key.unit) : item, {}});
+    }
+  } else {
+    const auto start = axis_end(text, sets, axis, axis.start, "START", key, diagnostics);
+    if (!start) return std::nullopt;
+    const auto stop = axis_end(text, sets, axis, axis.stop, "STOP", key, diagnostics);
+    if (!stop) return std::nullopt;
+    if (log && !(*start * *stop > 0.0)) {
+      diagnostics.error({0, 0, axis.base.origin},
+                        fmt::format("--log needs START and STOP nonzero and of one sign, saw {:g} and {:g}", *start, *stop));
+      return std::nullopt;
+    }
+    for (int i = 0; i < axis.points; ++i) {
+      const double t = static_cast<double>(i) / (axis.points - 1);
+      const double value = i + 1 == axis.points ? *stop
+                           : log                ? *start * std::pow(*stop / *start, t)
+                                                : *start + (*stop - *start) * t;
+      points.push_back({value, point_text(value, whole, key.unit), {}});
+    }
+  }
+  for (size_t i = 0; i < points.size(); ++i)
+    if (whole && std::fabs(points[i].value - std::round(points[i].value)) > 1e-9) {
+      diagnostics.error({0, 0, axis.base.origin},
+                        fmt::format("count takes whole numbers, but point {} of the sweep is {:g}", i + 1, points[i].value));
+      return std::nullopt;
+    }
+  return points;
+}
+
+// A gm the file leaves to the planner sizes its device (docs/chain-format.md, [technology] ft):
+// a point of gm then carries the capacitances the same rule gives, c_in = gm/(2 pi ft) and
+// c_out = c_out_ratio c_in, so the sweep shows the loading a bigger device brings.
+std::vector<Override> device_overrides(const ChainSpec& file, const Axis& axis, double gm) {
+  const auto* stage = find_stage(file, axis.base.target);
+  const auto* open = stage && axis.base.key == "gm" ? stage->find("gm") : nullptr;
+  if (!open || open->is_fixed() || !file.technology.ft) return {};
+  const double c_in = gm / (2.0 * std::numbers::pi * *file.technology.ft);
+  const double c_out = file.technology.c_out_ratio.value_or(0.0) * c_in;
+  Override in{axis.base.origin, axis.base.target, "c_in", toml_number(c_in)};
+  Override out{axis.base.origin, axis.base.target, "c_out", toml_number(c_out)};
+  return {in, out};
+}
+
+}  // namespace
+
 std::optional<SweepResult> run_sweep(const SweepRequest& request, Diagnostics& diagnostics) {
   const auto sets = parse_overrides(request.sets, diagnostics);
   const auto axis = parse_vary(request.vary, diagnostics);
   const auto text = request.chain_text ? request.chain_text : read_chain_text(request.chain, diagnostics);
   if (!sets || !axis || !text) return std::nullopt;
-
-  KeyValue key;
-  const auto start = axis_end(*text, *sets, *axis, axis->start, "START", key, diagnostics);
-  if (!start) return std::nullopt;
-  const auto stop = axis_end(*text, *sets, *axis, axis->stop, "STOP", key, diagnostics);
-  if (!stop) return std::nullopt;
-  const bool whole = axis->base.key == "count";
-  if (request.log && !(*start * *stop > 0.0)) {
-    diagnostics.error({0, 0, axis->base.origin},
-                      fmt::format("--log needs START and STOP nonzero and of one sign, saw {:g} and {:g}", *start, *stop));
+  if (request.log && !axis->list.empty()) {
+    diagnostics.error({0, 0, axis->base.origin}, "--log spaces a START:STOP:N range; a list is swept as written");
     return std::nullopt;
   }
+
+  KeyValue key;
+  const auto points = axis_points(*text, *sets, *axis, request.log, key, diagnostics);
+  if (!points) return std::nullopt;
+  const bool whole = axis->base.key == "count";
 
   SweepResult result;
   result.target = axis->base.target;
@@ -279,20 +383,16 @@ std::optional<SweepResult> run_sweep(const SweepRequest& request, Diagnostics& d
     base_overrides.clear();
   }
 
-  for (int i = 0; i < axis->points; ++i) {
-    const double t = static_cast<double>(i) / (axis->points - 1);
-    const double value = i + 1 == axis->points ? *stop
-                         : request.log          ? *start * std::pow(*stop / *start, t)
-                                                : *start + (*stop - *start) * t;
-    if (whole && std::fabs(value - std::round(value)) > 1e-9) {
-      diagnostics.error({0, 0, axis->base.origin},
-                        fmt::format("count takes whole numbers, but point {} of the sweep is {:g}", i + 1, value));
-      return std::nullopt;
-    }
+  for (size_t i = 0; i < points->size(); ++i) {
+    const auto& point = (*points)[i];
     auto overrides = base_overrides;
     overrides.push_back(axis->base);
-    overrides.back().value = point_text(value, whole, key.unit);
-    overrides.back().origin += fmt::format(" (point {}: {})", i + 1, overrides.back().value);
+    overrides.back().value = point.text;
+    overrides.back().origin += fmt::format(" (point {}: {})", i + 1, point.text);
+    for (auto& o : device_overrides(*as_set, *axis, point.value)) {
+      o.origin = overrides.back().origin;
+      overrides.push_back(std::move(o));
+    }
     const auto spec = parse_chain_spec(base_text, overrides, diagnostics);
     if (!spec) return std::nullopt;
     if (i == 0) {
@@ -300,7 +400,8 @@ std::optional<SweepResult> run_sweep(const SweepRequest& request, Diagnostics& d
       if (request.replan) result.open = open_values(*spec);
     }
     SweepRow row;
-    row.value = whole ? std::round(value) : value;
+    row.value = whole ? std::round(point.value) : point.value;
+    row.word = point.word;
     if (request.replan) {
       const auto plan = plan_chain(*spec, diagnostics, request.plan_options);
       if (!plan) return std::nullopt;

@@ -4,10 +4,15 @@
 //   --vary ID.KEY=START:STOP:N   2 <= N <= kMaxSweepPoints points from START to STOP inclusive; START and STOP
 //                                as the chain file would write the key (80ohm, "0.2 nH", 5%)
 //                                or plain numbers in the key's plain unit (SI; dB for gains).
+//   --vary ID.KEY=A,B,...        the listed points in their order (at least 2), each as the file
+//                                would write it: values, or words for a word key (a T-coil's
+//                                response: --vary a1.response=butterworth,bessel,critical).
 //
 // Each point is applied as an override of ID.KEY (planner/overrides.hpp), so every check of
 // the chain-file reader applies to it, and the chain is analysed exactly as `peakplan analyze
-// --set ID.KEY=<point>` would. Without replanning, a file with open values is planned once
+// --set ID.KEY=<point>` would. A gm the file leaves open sizes its device: each point of it
+// also sets that stage's c_in = gm/(2 pi ft) and c_out = c_out_ratio c_in ([technology]), as the
+// planner would. Without replanning, a file with open values is planned once
 // (at its own value of the key) and every other value is held at that plan while the key
 // varies. With replanning, each point is planned afresh with the key fixed at the point, and
 // the row carries the plan's status and its choice for every value the file leaves open.
@@ -52,7 +57,8 @@ struct ChosenValue {
 };
 
 struct SweepRow {
-  double value = 0.0;  // the varied key, SI (dB for decibel keys, a fraction for percentages)
+  double value = 0.0;  // the varied key, SI (dB for decibel keys, a fraction for percentages); NaN for a word
+  std::string word;    // the point when the key is a word (a T-coil response), empty otherwise
   // The main output (docs/physics.md (metrics) metrics); NaN where a metric does not exist.
   double gain_db = 0.0;
   double bandwidth_hz = 0.0;

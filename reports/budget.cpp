@@ -6,6 +6,7 @@
 #include <stdexcept>
 
 #include "models/units.hpp"
+#include "planner/requirements.hpp"
 #include "planner/stage_value.hpp"
 #include "reports/caution.hpp"
 
@@ -37,9 +38,11 @@ CheckUnit check_unit(const PlanCheck& c) {
   if (c.unit == "s") return {"ps", kPs, 3};
   if (c.unit == "%") return {"%", 1.0, 2};
   if (c.unit == "A") return {"mA", kMa, 2};
+  if (c.unit == "V") return {"mV", 1e-3, 3};
   return {c.unit, 1.0, 2};
 }
 std::string show_check(const PlanCheck& c, double x) {
+  if (c.unit.empty()) return fmt::format("{:.3g}", x);  // a ratio over decades: a bit-error ratio
   const auto u = check_unit(c);
   return scaled(x, u.scale, u.decimals) + " " + u.unit;
 }
@@ -221,9 +224,7 @@ Budget build_budget(const ChainSpec& spec, const Chain& chain, const ChainAnalys
   t.overshoot_pct = main.response.step.overshoot_pct;
   if (b.has_current) t.total_current_a = t.total_gm / *gm_over_id;
   t.input_network_share_pct = main_delay > 0.0 ? 100.0 - path_share : 0.0;
-  b.checks = check_targets(spec, f, main.response.step, t.total_gm,
-                           main.receiver ? std::optional(main.receiver->input_rms_a) : std::nullopt,
-                           main.large_signal ? &*main.large_signal : nullptr);
+  b.checks = analysis_checks(spec, main, t.total_gm);
   return b;
 }
 
@@ -451,6 +452,7 @@ std::string shown_requirement(const PlanCheck& check) {
   if (check.unit == "%") return sign + show_pct(check.limit);
   if (check.unit == "s") return sign + show_ps(check.limit);
   if (check.unit == "A") return sign + scaled(check.limit, kMa, 2) + " mA";
+  if (check.unit.empty()) return sign + fmt::format("{:.3g}", check.limit);
   return sign + show_number(check.limit, 3) + " " + check.unit;
 }
 

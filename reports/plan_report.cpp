@@ -13,6 +13,7 @@ namespace {
 std::string shown(const PlanCheck& c, double x) {
   if (c.unit == "dB") return fmt::format("{:.2f} dB", x);
   if (c.unit == "%") return fmt::format("{:.2f} %", x);
+  if (c.unit.empty()) return fmt::format("{:.3g}", x);  // a ratio over decades: a bit-error ratio
   return format_si(x, c.unit, 4);
 }
 

@@ -80,7 +80,8 @@ std::string sweep_text(const SweepResult& s) {
   }
   out += head + "\n";
   for (const auto& r : s.rows) {
-    std::string line = fmt::format("  {:>{}} {:>8} {:>10} {:>8} {:>10} {:>9}", shown(r.value, s.unit, whole), first,
+    std::string line = fmt::format("  {:>{}} {:>8} {:>10} {:>8} {:>10} {:>9}",
+                                   r.word.empty() ? shown(r.value, s.unit, whole) : r.word, first,
                                    fixed(r.gain_db, "{:.2f}"), shown(r.bandwidth_hz, "Hz"), fixed(r.peaking_db, "{:.2f}"),
                                    fixed(r.overshoot_pct, "{:.2f} %"), shown(r.group_delay_ripple_s, "s"));
     if (s.has_signal) line += fmt::format(" {:>7}", r.eye_height ? fixed(*r.eye_height, "{:.3f}") : "-");
@@ -128,7 +129,7 @@ std::string sweep_csv(const SweepResult& s) {
   }
   out += "\n";
   for (const auto& r : s.rows) {
-    out += fmt::format("{},{},{},{},{},{}", csv_number(r.value), csv_number(r.gain_db), csv_number(r.bandwidth_hz),
+    out += fmt::format("{},{},{},{},{},{}", r.word.empty() ? csv_number(r.value) : r.word, csv_number(r.gain_db), csv_number(r.bandwidth_hz),
                        csv_number(r.peaking_db), csv_number(r.overshoot_pct), csv_number(r.group_delay_ripple_s));
     if (s.has_signal) out += "," + (r.eye_height ? csv_number(*r.eye_height) : std::string());
     if (s.has_large_signal) {
@@ -169,7 +170,7 @@ nlohmann::json sweep_json(const SweepResult& s) {
   for (const auto& o : s.open) doc["open"].push_back({{"id", o.stage}, {"key", o.key}, {"unit", o.unit}});
   doc["rows"] = nlohmann::json::array();
   for (const auto& r : s.rows) {
-    nlohmann::json row{{"value", r.value},
+    nlohmann::json row{{"value", r.word.empty() ? nlohmann::json(r.value) : nlohmann::json(r.word)},
                        {"dc_gain_db", number(r.gain_db)},
                        {"bandwidth_hz", number(r.bandwidth_hz)},
                        {"peaking_db", number(r.peaking_db)},

@@ -262,6 +262,19 @@ const std::vector<Fault>& faults() {
        {"tail_current belongs to a limiting stage"}},
       {"extinction_ratio_zero.toml", "an extinction ratio of 0 dB is no signal", 8, 20,
        {"[signal] extinction_ratio must be above 0 dB"}},
+      // Planning limits on the eye and the noise, and the planner's technology bounds.
+      {"limits_ber_zero.toml", "a BER limit of 0 is outside (0, 0.5)", 7, 7, {"[limits] ber must be in (0, 0.5)", "saw 0"}},
+      {"limits_ber_half.toml", "a BER limit of 0.5 is outside (0, 0.5)", 7, 7, {"[limits] ber must be in (0, 0.5)", "saw 0.5"}},
+      {"limits_ber_without_swing.toml", "a BER limit without a [signal] swing is an error at ber", 6, 7,
+       {"[limits] ber is the bit-error ratio at the input swing", "swing"}},
+      {"limits_noise_rms_negative.toml", "a negative noise_rms is an error at its value", 6, 13,
+       {"[limits] noise_rms must be positive", "\"-1 mV\""}},
+      {"limits_noise_rms_without_signal.toml", "a noise_rms limit without a [signal] is an error at noise_rms", 3, 13,
+       {"[limits] noise_rms limits the output noise analyze reports with a [signal]"}},
+      {"technology_min_gm_above_max.toml", "min_gm above the (default) max_gm leaves no device to choose", 3, 10,
+       {"[technology] min_gm \"300 mS\" is above max_gm 200.0 mS"}},
+      {"technology_coil_c_negative.toml", "a negative coil self-capacitance is an error", 3, 17,
+       {"[technology] coil_c_per_nh must be zero or positive"}},
   };
   return table;
 }

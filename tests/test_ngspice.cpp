@@ -333,6 +333,23 @@ Chain tcoil_lossy_chain() {
   return finish(c);
 }
 
+// Every kind with a coil, each coil with a self-capacitance of 20 fF per nH ([technology]
+// coil_c_per_nh), lossy, so the netlist's coil capacitors and the stamps must agree.
+Chain coil_capacitance_chain() {
+  Chain c{"coils with self-capacitance", 50.0, {}, std::nullopt};
+  const double c_per_l = 20e-15 / 1e-9;
+  StageCircuit s = inductive(LoadKind::shunt, 0.04, 100.0, 0.35e-9, 5.0, 25e-15);
+  StageCircuit r = inductive(LoadKind::series, 0.04, 100.0, 0.30e-9, 4.0, 20e-15);
+  StageCircuit t = tcoil(0.04, 100.0, 380e-12, 320e-12, 0.4, 8e-15, 20e-15);
+  t.r_l1 = 5.0;
+  t.r_l2 = 4.0;
+  for (auto* x : {&s, &r, &t}) x->coil_c_per_l = c_per_l;
+  c.stages.push_back(make_stage("s1", -1, s, 50e-15));
+  c.stages.push_back(make_stage("r2", 0, r, 45e-15));
+  c.stages.push_back(make_stage("t3", 1, t, 40e-15, 30e-15));
+  return finish(c);
+}
+
 Chain fan_out_chain() {
   // A T-coil stage feeding a shunt stage (then a series stage, the main output) and a plain
   // monitor stage; the T-coil node is tapped. Ids carry what a netlist must survive: a
@@ -415,6 +432,9 @@ TEST_CASE("ngspice: Battjes' maximally flat T-coil overshoots 100*exp(-pi) % wit
 
 TEST_CASE("ngspice: lossy asymmetric T-coil gives peakplan's response") {
   check_with_ngspice(tcoil_lossy_chain());
+}
+TEST_CASE("ngspice: coils with self-capacitance (shunt, series, T-coil) give peakplan's response") {
+  check_with_ngspice(coil_capacitance_chain());
 }
 TEST_CASE("ngspice: fan-out with a tap gives peakplan's response at every output") {
   const auto c = check_with_ngspice(fan_out_chain());

@@ -12,24 +12,12 @@
 #include <string>
 #include <vector>
 
-#include "cli_support.hpp"
+#include "cli_json.hpp"
 
 using nlohmann::json;
 using namespace peakplan::test;
 
 namespace {
-
-json run_json(const std::vector<std::string>& args, int expected_status = 0) {
-  const auto r = run_cli(args);
-  INFO("stderr: " << r.err);
-  REQUIRE(r.status == expected_status);
-  return json::parse(r.out);
-}
-
-// Relative closeness with an absolute floor for values that are zero (peaking, overshoot).
-bool close(double a, double b, double relative) {
-  return std::fabs(a - b) <= relative * std::max({std::fabs(a), std::fabs(b), 1e-30});
-}
 
 // Every number of `a` equals the one at the same place in `b` to `relative`; every other
 // value is equal. Reports the first difference by its JSON path.
@@ -437,4 +425,87 @@ TEST_CASE("--set of a design replaces the stage's other design and its elements,
   const auto sweep = run_cli({"sweep", demo, "--vary", "a1.zeta=0.6:1.0:3", "--format", "json"});
   REQUIRE_MESSAGE(sweep.status == 0, sweep.err);
   CHECK(nlohmann::json::parse(sweep.out)["rows"].size() == 3);
+}
+
+TEST_CASE("what-if: a list sweep of a T-coil response equals analyze --set of each response") {
+  const std::string demo = std::string(PEAKPLAN_SOURCE_DIR) + "/chains/demo_postamp.toml";
+  const auto sweep = run_json({"sweep", demo, "--vary", "a1.response=butterworth,bessel,critical", "--format", "json"});
+  REQUIRE(sweep["rows"].size() == 3);
+  const char* words[] = {"butterworth", "bessel", "critical"};
+  for (size_t i = 0; i < 3; ++i) {
+    const auto& row = sweep["rows"][i];
+    CHECK(row["value"] == words[i]);  // a word key reports the word, not a number
+    const auto analysis = run_json({"analyze", demo, "--json", "--set", std::string("a1.response=") + words[i]});
+    const auto& out = main_output(analysis);
+    for (const std::string key : {"dc_gain_db", "bandwidth_hz", "peaking_db", "overshoot_pct", "group_delay_ripple_s"}) {
+      CAPTURE(key);
+      CHECK(close(row[key].get<double>(), out[key].get<double>(), 1e-12));  // the same computation: equal to roundoff
+    }
+  }
+  // Derived (Battjes' conditions, docs/physics.md): a lower zeta peaks the T-coil stage more and
+  // widens it, so the chain's bandwidth falls from Butterworth (0.707) to critical damping (1).
+  CHECK(sweep["rows"][0]["bandwidth_hz"].get<double>() > sweep["rows"][1]["bandwidth_hz"].get<double>());
+  CHECK(sweep["rows"][1]["bandwidth_hz"].get<double>() > sweep["rows"][2]["bandwidth_hz"].get<double>());
+  // A numeric list runs too, and a misspelt word is the reader's error at its point.
+  CHECK(run_json({"sweep", demo, "--vary", "a2.rd=80ohm,95ohm,110ohm", "--format", "json"})["rows"].size() == 3);
+  const auto bad = run_cli({"sweep", demo, "--vary", "a1.response=bessel,besel"});
+  CHECK(bad.status == 2);
+  CHECK(bad.err.find("(point 2: besel)") != std::string::npos);
+  CHECK(bad.err.find("did you mean \"bessel\"?") != std::string::npos);
+}
+
+TEST_CASE("what-if: a held-plan sweep of an open gm resizes the device: c_in = gm/(2 pi fT), c_out = ratio c_in") {
+  TempDir scratch("peakplan_what_if");
+  // Written for this test (not a design): a sized plain stage driving a fixed plain stage.
+  const auto chain = scratch.write("sized.toml", R"([chain]
+name = "sized device"
+[target]
+gain = "12 dB"
+objective = "leanest"
+[technology]
+ft = "200 GHz"
+c_out_ratio = 0.5
+[[stage]]
+id = "a"
+kind = "plain"
+gm = "auto"
+rd = "100 ohm"
+[[stage]]
+id = "b"
+kind = "plain"
+gm = "20 mS"
+rd = "80 ohm"
+c_in = "30 fF"
+c_out = "10 fF"
+c_load = "40 fF"
+)");
+  const auto sweep = run_json({"sweep", chain, "--vary", "a.gm=20mS:60mS:3", "--format", "json"});
+  REQUIRE(sweep["held_plan"] == "met");
+  REQUIRE(sweep["rows"].size() == 3);
+  const auto planned = (scratch.path / "planned.toml").string();
+  REQUIRE(run_cli({"plan", chain, "--write", planned}).status == 0);
+  for (const auto& row : sweep["rows"]) {
+    const double gm = row["value"].get<double>();
+    const double c_in = gm / (2.0 * std::numbers::pi * 200e9), c_out = 0.5 * c_in;  // the file's device rule
+    char set_gm[64], set_in[64], set_out[64];
+    std::snprintf(set_gm, sizeof set_gm, "a.gm=%.17g", gm);
+    std::snprintf(set_in, sizeof set_in, "a.c_in=%.17g", c_in);
+    std::snprintf(set_out, sizeof set_out, "a.c_out=%.17g", c_out);
+    const auto analysis = run_json({"analyze", planned, "--json", "--set", set_gm, "--set", set_in, "--set", set_out});
+    const auto& out = main_output(analysis);
+    for (const std::string key : {"dc_gain_db", "bandwidth_hz", "group_delay_ripple_s"}) {
+      CAPTURE(key);
+      CHECK(close(row[key].get<double>(), out[key].get<double>(), 1e-12));  // the same computation
+    }
+    // Derived: two plain stages driven by an ideal source are two real poles, a's at
+    // 1/(2 pi 100 (30 fF + c_out)) and b's at 1/(2 pi 80 (10 + 40) fF); |H|^2 halves where
+    // (1 + f^2/p1^2)(1 + f^2/p2^2) = 2, a quadratic in f^2. Solved exactly, so 1e-9.
+    const double p1 = 1.0 / (2.0 * std::numbers::pi * 100.0 * (30e-15 + c_out));
+    const double p2 = 1.0 / (2.0 * std::numbers::pi * 80.0 * 50e-15);
+    const double a = 1.0 / (p1 * p1 * p2 * p2), b = 1.0 / (p1 * p1) + 1.0 / (p2 * p2);
+    const double f2 = (-b + std::sqrt(b * b + 4.0 * a)) / (2.0 * a);
+    CHECK(close(row["bandwidth_hz"].get<double>(), std::sqrt(f2), 1e-9));
+  }
+  // The bigger device loads a's node more: the bandwidth falls as gm grows.
+  CHECK(sweep["rows"][0]["bandwidth_hz"].get<double>() > sweep["rows"][2]["bandwidth_hz"].get<double>());
 }

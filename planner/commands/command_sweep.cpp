@@ -36,7 +36,7 @@ Command add_sweep_command(CLI::App& app) {
   auto args = std::make_shared<SweepArgs>();
   auto* cmd = app.add_subcommand("sweep", "the main output's metrics against one value stepped linearly");
   cmd->add_option("chain", args->request.chain, "chain file (TOML), or - for standard input")->required();
-  cmd->add_option("--vary", args->request.vary, "ID.KEY=START:STOP:N, e.g. a1.rd=80ohm:160ohm:5")->required();
+  cmd->add_option("--vary", args->request.vary, "ID.KEY=START:STOP:N or ID.KEY=A,B,... (a list, words too), e.g. a1.rd=80ohm:160ohm:5 or a1.response=butterworth,bessel")->required();
   cmd->add_flag("--replan", args->request.replan, "re-plan the open values at every point");
   cmd->add_flag("--log", args->request.log, "space the points geometrically (START and STOP of one sign)");
   cmd->add_option("--format", args->format, "text, csv or json")->check(CLI::IsMember({"text", "csv", "json"}));
