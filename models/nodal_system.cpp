@@ -5,6 +5,8 @@
 #include <numbers>
 #include <stdexcept>
 
+#include "models/small_lu.hpp"
+
 namespace peakplan {
 namespace {
 
@@ -144,7 +146,7 @@ std::vector<NodalSystem::NoiseGenerator> NodalSystem::noise_generators() const {
 const NodalSystem::Assembled& NodalSystem::assembled() const {
   if (!assembled_)
     assembled_ = Assembled{G().cast<std::complex<double>>(), C().cast<std::complex<double>>(),
-                           b().cast<std::complex<double>>()};
+                           b().cast<std::complex<double>>(), G(), C(), b()};
   return *assembled_;
 }
 
@@ -158,17 +160,27 @@ std::complex<double> NodalSystem::transfer(std::complex<double> s) const {
 
 namespace {
 
-// H and dH/ds (per scaled s) of an N-unknown system: (G + sC) x = b, (G + sC) dx = -C x.
+// H and dH/ds (per scaled s) of an N-unknown system: (G + sC) x = b, (G + sC) dx = -C x, the
+// derivative from the same factorisation. G, C and b are real: only s makes the system complex.
 template <int N, class Assembled>
 std::pair<std::complex<double>, std::complex<double>> solve_fixed(const Assembled& a, std::complex<double> s_scaled,
                                                                   int output, double time_scale) {
-  using Matrix = Eigen::Matrix<std::complex<double>, N, N>;
-  using Vector = Eigen::Matrix<std::complex<double>, N, 1>;
-  const Eigen::Map<const Matrix> g(a.g.data()), c(a.c.data());  // views, no copies
-  const Eigen::PartialPivLU<Matrix> lu(g + s_scaled * c);
-  const Vector x = lu.solve(Eigen::Map<const Vector>(a.b.data()));
-  const Vector dx = -lu.solve(c * x);
-  return {x(output), dx(output) * time_scale};
+  const double* g = a.g_real.data();  // column-major N x N
+  const double* c = a.c_real.data();
+  const SmallLU<N> lu([&](int r, int col) {
+    const double cv = c[col * N + r];
+    return std::complex<double>(g[col * N + r] + s_scaled.real() * cv, s_scaled.imag() * cv);
+  });
+  typename SmallLU<N>::Vector x, dx;
+  for (int r = 0; r < N; ++r) x[r] = a.b_real(r);
+  lu.solve(x);
+  for (int r = 0; r < N; ++r) {
+    std::complex<double> cx = 0.0;
+    for (int col = 0; col < N; ++col) cx += c[col * N + r] * x[col];
+    dx[r] = -cx;
+  }
+  lu.solve(dx);
+  return {x[output], dx[output] * time_scale};
 }
 
 }  // namespace

@@ -52,6 +52,9 @@ class CircuitNoise {
  private:
   Eigen::MatrixXcd g_, c_;
   Eigen::VectorXcd b_, e_out_;
+  Eigen::MatrixXd g_real_, c_real_;  // the same, for the fixed-size solves
+  Eigen::VectorXd b_real_;
+  int output_ = 0;
   std::vector<std::pair<NodalSystem::NoiseGenerator, double>> generators_;  // with their PSD
 };
 
