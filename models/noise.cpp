@@ -105,17 +105,31 @@ ChainNoise::ChainNoise(const Chain& chain, int output, NoiseOptions options) : o
     source.set_output(in);
     blocks_.emplace_back(source, options_);
   }
-  for (int s : chain.path_to(output))
-    blocks_.emplace_back(build_stage_system(chain.stages[static_cast<size_t>(s)].circuit), options_);
+  alike_.assign(blocks_.size(), 0);
+  for (size_t b = 0; b < blocks_.size(); ++b) alike_[b] = b;
+  std::vector<const StageCircuit*> circuits(blocks_.size(), nullptr);  // none for the source network
+  for (int s : chain.path_to(output)) {
+    const StageCircuit& circuit = chain.stages[static_cast<size_t>(s)].circuit;
+    const size_t b = blocks_.size();
+    circuits.push_back(&circuit);
+    alike_.push_back(b);
+    for (size_t j = 0; j < b && alike_[b] == b; ++j)
+      if (circuits[j] && *circuits[j] == circuit) alike_[b] = j;
+    if (alike_[b] == b) blocks_.emplace_back(build_stage_system(circuit), options_);
+    else blocks_.push_back(blocks_[alike_[b]]);
+  }
   cascade_ = output_cascade(chain, output);
 }
 
 std::pair<std::complex<double>, double> ChainNoise::evaluate(double f_hz) const {
+  // A stage repeating an earlier one's circuit has its transfer and noise: solved once.
+  std::vector<std::pair<std::complex<double>, double>> at(blocks_.size());
+  for (size_t b = 0; b < blocks_.size(); ++b) at[b] = alike_[b] == b ? blocks_[b].evaluate(f_hz) : at[alike_[b]];
   // From the output backwards, so each block's own noise meets the gain after it.
   double psd = 0.0, gain_after = 1.0;
   std::complex<double> h = 1.0;
-  for (auto it = blocks_.rbegin(); it != blocks_.rend(); ++it) {
-    const auto [hi, own] = it->evaluate(f_hz);
+  for (size_t b = blocks_.size(); b-- > 0;) {
+    const auto [hi, own] = at[b];
     psd += own * gain_after;
     gain_after *= std::norm(hi);
     h *= hi;

@@ -75,6 +75,7 @@ class ChainNoise {
 
  private:
   std::vector<CircuitNoise> blocks_;  // source network (if any) first, then the stages in order
+  std::vector<size_t> alike_;         // per block, the first block with the same circuit (itself if none)
   NoiseOptions options_;
   Cascade cascade_;
 };
