@@ -5,11 +5,11 @@
 // Eigen's PartialPivLU would do, but it picks each pivot by |z|, one hypot call per candidate,
 // which made up about a third of a sampled response's time. The pivot here is the largest
 // |re| + |im| of the column, the choice LAPACK's zgetrf makes (izamax, through dcabs1): the
-// two magnitudes are within a factor sqrt(2) of each other, so the bound on element growth is
-// that of partial pivoting either way. The elimination and the two triangular sweeps are
-// otherwise the textbook ones (Golub and Van Loan, Matrix Computations, algorithms 3.4.1 and
-// 3.1.3/3.1.4), column-oriented, with each pivot inverted once (a division costs several
-// multiplications). A zero pivot (a singular matrix) is left in place, as Eigen leaves it, and
+// two magnitudes are within a factor sqrt(2) of each other, so every multiplier is at most
+// sqrt(2) in modulus instead of 1, and the elimination stays as stable as partial pivoting.
+// The elimination and the two triangular sweeps are otherwise the textbook ones (Golub and
+// Van Loan, Matrix Computations, sections 3.1 and 3.4), column-oriented, with each pivot
+// inverted once (a division costs several multiplications). A zero pivot (a singular matrix) is left in place, as Eigen leaves it, and
 // solutions then hold infinities or NaNs.
 #pragma once
 

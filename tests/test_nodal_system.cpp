@@ -78,9 +78,10 @@ double small_lu_residual(std::mt19937& rng) {
 
 TEST_CASE("nodal: the small fixed-size LU solves random complex systems to rounding and pivots past a zero") {
   // Gaussian elimination with partial pivoting is backward stable: the computed x solves
-  // (A + E) x = b with |E| <= about n * growth * eps |A| (Golub and Van Loan, Matrix Computations,
-  // 3.4.6). For random matrices of order <= 8 the growth is a few units; 1e-13 (about 500 eps)
-  // leaves room for it and fails on any wrong pivot, swap or sweep, which leaves residuals of order 1.
+  // (A + E) x = b with |E| <= gamma_3n |L| |U|, gamma_3n about 3n eps (Higham, Accuracy and
+  // Stability of Numerical Algorithms, 2nd ed., theorem 9.4; from memory). For random matrices of
+  // order <= 8, |L| |U| is a few times |A|; 1e-13 (about 500 eps) leaves room for that and fails
+  // on any wrong pivot, swap or sweep, which leaves residuals of order 1.
   std::mt19937 rng(20261203);
   for (int trial = 0; trial < 50; ++trial) {
     CHECK(small_lu_residual<1>(rng) < 1e-13);
