@@ -36,6 +36,37 @@ ReceiverSummary receiver_summary(const Chain& chain, const ChainNoise& noise, co
   return r;
 }
 
+// For each stage, the first stage with the same circuit (itself when none comes before it).
+std::vector<size_t> first_alike(const Chain& chain) {
+  std::vector<size_t> first(chain.stages.size());
+  for (size_t i = 0; i < chain.stages.size(); ++i) {
+    first[i] = i;
+    for (size_t j = 0; j < i && first[i] == i; ++j)
+      if (chain.stages[j].circuit == chain.stages[i].circuit) first[i] = j;
+  }
+  return first;
+}
+
+// A stage resolved from a closed-form design against what the design promises; none without one.
+std::optional<DesignCheck> design_check(const ChainStage& s, const ResponseSummary& alone, const AnalysisOptions& options) {
+  const auto& info = load_kind_info(s.circuit.kind);
+  if (s.intent.kind == DesignIntent::Kind::none || !info.ideal_response) return std::nullopt;
+  AnalysisOptions bare;
+  bare.points = 2;
+  bare.ripple_band_hz = options.ripple_band_hz;
+  bare.keep_waveforms = false;
+  const auto ideal = summarise_rational_only(Cascade({info.ideal_response(s.circuit)}), bare);
+  DesignCheck check;
+  check.label = s.intent.label;
+  check.ideal_bandwidth_hz = ideal.frequency.bandwidth_hz;
+  check.ideal_peaking_db = ideal.frequency.peaking_db;
+  check.ideal_overshoot_pct = ideal.step.overshoot_pct;
+  check.bandwidth_departure = alone.frequency.bandwidth_hz / check.ideal_bandwidth_hz - 1.0;
+  check.peaking_departure_db = alone.frequency.peaking_db - check.ideal_peaking_db;
+  check.input_impedance_error = input_impedance_error(s.circuit, 3.0 * check.ideal_bandwidth_hz);
+  return check;
+}
+
 }  // namespace
 
 ResponseSummary summarise(const Cascade& cascade, const std::vector<const NodalSystem*>& exact,
@@ -74,12 +105,15 @@ double input_impedance_error(const StageCircuit& stage, double f_max_hz) {
 ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) {
   ChainAnalysis result;
   result.signal = options.signal;
+  // Stages with the same circuit (count = N copies, a cell repeated down the chain) have the same
+  // system, transfer function and response alone: each distinct circuit is analysed once.
+  const auto alike = first_alike(chain);
   std::vector<NodalSystem> systems;
   std::vector<Rational> rationals;
   systems.reserve(chain.stages.size());
-  for (const auto& s : chain.stages) {
-    systems.push_back(build_stage_system(s.circuit));
-    rationals.push_back(systems.back().rational());
+  for (size_t i = 0; i < chain.stages.size(); ++i) {
+    systems.push_back(alike[i] == i ? build_stage_system(chain.stages[i].circuit) : systems[alike[i]]);
+    rationals.push_back(alike[i] == i ? systems.back().rational() : rationals[alike[i]]);
   }
 
   NodalSystem source_system;
@@ -112,31 +146,14 @@ ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) 
   // result does not depend on the thread count.
   result.stages.resize(chain.stages.size());
   parallel_for(chain.stages.size(), options.threads, [&](size_t i) {
-    StageSummary stage;
-    stage.stage = static_cast<int>(i);
-    stage.alone = summarise(Cascade({rationals[i]}), {&systems[i]}, options, span);
-    const auto& s = chain.stages[i];
-    const auto& info = load_kind_info(s.circuit.kind);
-    if (s.intent.kind != DesignIntent::Kind::none && info.ideal_response) {
-      AnalysisOptions bare;
-      bare.points = 2;
-      bare.ripple_band_hz = options.ripple_band_hz;
-      bare.keep_waveforms = false;
-      const auto ideal = summarise_rational_only(
-          Cascade({info.ideal_response(s.circuit)}),
-          bare);
-      DesignCheck check;
-      check.label = s.intent.label;
-      check.ideal_bandwidth_hz = ideal.frequency.bandwidth_hz;
-      check.ideal_peaking_db = ideal.frequency.peaking_db;
-      check.ideal_overshoot_pct = ideal.step.overshoot_pct;
-      check.bandwidth_departure = stage.alone.frequency.bandwidth_hz / check.ideal_bandwidth_hz - 1.0;
-      check.peaking_departure_db = stage.alone.frequency.peaking_db - check.ideal_peaking_db;
-      check.input_impedance_error =
-          input_impedance_error(s.circuit, 3.0 * check.ideal_bandwidth_hz);
-      stage.design_check = check;
-    }
-    result.stages[i] = std::move(stage);
+    if (alike[i] == i) result.stages[i].alone = summarise(Cascade({rationals[i]}), {&systems[i]}, options, span);
+  });
+  for (size_t i = 0; i < chain.stages.size(); ++i) {
+    result.stages[i].stage = static_cast<int>(i);
+    if (alike[i] != i) result.stages[i].alone = result.stages[alike[i]].alone;
+  }
+  parallel_for(chain.stages.size(), options.threads, [&](size_t i) {
+    result.stages[i].design_check = design_check(chain.stages[i], result.stages[i].alone, options);
   });
 
   for (size_t i = 0; i < chain.stages.size(); ++i) {

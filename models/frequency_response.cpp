@@ -165,6 +165,130 @@ std::vector<double> scan_points(const std::vector<double>& roots_hz, double f_lo
 
 }  // namespace
 
+namespace {
+
+// Log-frequency coordinates u = ln(f / f_lo) and the cascade's magnitude there.
+struct LogAxis {
+  const Cascade& cascade;
+  double f_lo;
+  double freq(double u) const { return f_lo * std::exp(u); }
+  double mag(double u) const { return cascade.gain_at(kTwoPi * freq(u)); }
+};
+
+// The magnitude at every scan point, and the largest one above h0 (peak_index = size: none).
+struct MagnitudeScan {
+  std::vector<double> us, mags;
+  double peak_mag = 0.0;
+  size_t peak_index = 0;
+  size_t size() const { return us.size(); }
+};
+
+MagnitudeScan scan_magnitude(const LogAxis& axis, std::vector<double> us, double h0) {
+  MagnitudeScan s;
+  s.us = std::move(us);
+  s.mags.resize(s.size());
+  s.peak_mag = h0;
+  s.peak_index = s.size();
+  for (size_t i = 0; i < s.size(); ++i) {
+    s.mags[i] = axis.mag(s.us[i]);
+    if (s.mags[i] > s.peak_mag) {
+      s.peak_mag = s.mags[i];
+      s.peak_index = i;
+    }
+  }
+  return s;
+}
+
+// The first fall below `level`, bracketed by the scan: the scan index (size: none) and the
+// bracket [a, b] in u. A shallow dip can touch the level between two scan points: every local
+// minimum of the scan within 0.5 dB of the level is refined, and the crossing taken in the first
+// that reaches it.
+struct Crossing {
+  size_t index;
+  double a = 0.0, b = 0.0;
+};
+
+Crossing first_crossing(const LogAxis& axis, const MagnitudeScan& scan, double level) {
+  const auto& us = scan.us;
+  const auto& mags = scan.mags;
+  const size_t n = scan.size();
+  Crossing c{n};
+  for (size_t i = 0; i < n && c.index == n; ++i) {
+    if (mags[i] < level) {
+      if (i == 0) break;  // already below at the bottom of the span: not expected for dc-coupled
+      c = {i, us[i - 1], us[i]};
+    } else if (i > 0 && i + 1 < n && mags[i] <= mags[i - 1] && mags[i] <= mags[i + 1] && mags[i] < level * 1.06) {
+      const auto [u_min, neg] = golden_max([&](double u) { return -axis.mag(u); }, us[i - 1], us[i + 1]);
+      if (-neg < level) c = {i, us[i - 1], u_min};
+    }
+  }
+  return c;
+}
+
+// The crossing inside its bracket by bisection, Hz.
+double bisect_crossing(const LogAxis& axis, double level, double a, double b) {
+  for (int it = 0; it < 100 && b - a > 1e-14; ++it) {
+    const double mid = 0.5 * (a + b);
+    (axis.mag(mid) >= level ? a : b) = mid;
+  }
+  return axis.freq(0.5 * (a + b));
+}
+
+// Sags: interior minima of the scan before the crossing that the response rises out of (by more
+// than 0.01 dB, so that numerical flatness is not one); the deepest, refined, into m.
+void measure_sag(const LogAxis& axis, const MagnitudeScan& scan, size_t crossing, double h0, FrequencyMetrics& m) {
+  const auto& us = scan.us;
+  const auto& mags = scan.mags;
+  const size_t n = scan.size();
+  double rise_after = 0.0;
+  for (size_t i = crossing; i-- > 1;) {
+    rise_after = std::max(rise_after, mags[i + 1 < n ? i + 1 : i]);
+    if (mags[i] <= mags[i - 1] && mags[i] <= mags[i + 1] && rise_after > mags[i] * 1.00115) {
+      const auto [u_min, neg] = golden_max([&](double u) { return -axis.mag(u); }, us[i - 1], us[i + 1]);
+      const double dip_db = 20.0 * std::log10(std::max(-neg, 1e-300) / h0);
+      if (dip_db < m.sag_db) {
+        m.sag_db = dip_db;
+        m.sag_frequency_hz = axis.freq(u_min);
+      }
+    }
+  }
+}
+
+// The peak above h0, refined about the scan's largest point, into m.
+void measure_peak(const LogAxis& axis, const MagnitudeScan& scan, double h0, FrequencyMetrics& m) {
+  const size_t n = scan.size(), i = scan.peak_index;
+  if (i >= n || !(scan.peak_mag > h0 * (1.0 + 1e-12))) return;
+  const auto [u, g] = golden_max([&](double x) { return axis.mag(x); }, scan.us[i == 0 ? 0 : i - 1],
+                                 scan.us[std::min(n - 1, i + 1)]);
+  const double peak_u = g > scan.peak_mag ? u : scan.us[i];
+  m.peaking_db = 20.0 * std::log10(std::max(g, scan.peak_mag) / h0);
+  m.peak_frequency_hz = axis.freq(peak_u);
+}
+
+// Group-delay ripple over (0, band]: a scan at the magnitude scan's step (`step` in u), then every
+// interior extremum refined; the DC delay counts as one end.
+double group_delay_ripple(const LogAxis& axis, const std::vector<double>& roots_hz, double band, double step,
+                          double dc_delay) {
+  auto tau = [&](double u) { return group_delay(axis.cascade, axis.freq(u)); };
+  const double u_end = std::log(band / axis.f_lo);
+  const auto ts = scan_points(roots_hz, axis.f_lo, u_end, std::max(3, static_cast<int>(u_end / step) + 2));
+  const size_t n = ts.size();
+  std::vector<double> taus(n);
+  for (size_t i = 0; i < n; ++i) taus[i] = tau(ts[i]);
+  double hi = std::max({dc_delay, taus.front(), taus.back()});
+  double lo = std::min({dc_delay, taus.front(), taus.back()});
+  for (size_t i = 1; i + 1 < n; ++i) {
+    const double t = taus[i];
+    const double left = taus[i - 1], right = taus[i + 1];
+    if (t >= left && t >= right) hi = std::max({hi, t, golden_max(tau, ts[i - 1], ts[i + 1]).second});
+    if (t <= left && t <= right)
+      lo = std::min({lo, t, -golden_max([&](double u) { return -tau(u); }, ts[i - 1], ts[i + 1]).second});
+  }
+  return hi - lo;
+}
+
+}  // namespace
+
 FrequencyMetrics frequency_metrics(const Cascade& cascade, double ripple_band_hz, const ScanResolution& scan) {
   FrequencyMetrics m;
   m.dc_gain = cascade.dc_value();
@@ -173,100 +297,26 @@ FrequencyMetrics frequency_metrics(const Cascade& cascade, double ripple_band_hz
   if (h0 == 0.0 || !std::isfinite(h0)) return m;
 
   const auto roots_hz = root_frequencies(cascade);
-  // Named, not a structured binding: the lambdas below capture it (clang 14, the fuzz build,
-  // cannot capture a binding).
-  const auto span = span_of(roots_hz, scan.margin_decades);
-  const double f_lo = span.first, f_hi = span.second;
+  const auto [f_lo, f_hi] = span_of(roots_hz, scan.margin_decades);
   const int points = std::max(2, static_cast<int>(std::log10(f_hi / f_lo) * scan.per_decade));
-  auto freq = [&](double u) { return f_lo * std::exp(u); };
-  auto mag = [&](double u) { return cascade.gain_at(kTwoPi * freq(u)); };
-  const auto us = scan_points(roots_hz, f_lo, std::log(f_hi / f_lo), points);
-  const size_t n_scan = us.size();
+  const LogAxis axis{cascade, f_lo};
+  const auto mags = scan_magnitude(axis, scan_points(roots_hz, f_lo, std::log(f_hi / f_lo), points), h0);
 
   // Bandwidth: the first fall below h0/sqrt(2), bracketed by the scan, then bisection.
   const double level = h0 / std::sqrt(2.0);
-  double peak_mag = h0;
-  size_t peak_index = n_scan;
-  std::vector<double> mags(n_scan);
-  for (size_t i = 0; i < n_scan; ++i) {
-    mags[i] = mag(us[i]);
-    if (mags[i] > peak_mag) {
-      peak_mag = mags[i];
-      peak_index = i;
-    }
-  }
-  // A shallow dip can touch the level between two scan points: every local minimum of the scan
-  // within 0.5 dB of the level is refined, and the crossing taken in the first that reaches it.
-  size_t crossing = n_scan;
-  double a = 0.0, b = 0.0;  // the bracket of the crossing
-  for (size_t i = 0; i < n_scan && crossing == n_scan; ++i) {
-    if (mags[i] < level) {
-      if (i == 0) break;  // already below at the bottom of the span: not expected for dc-coupled
-      crossing = i;
-      a = us[i - 1];
-      b = us[i];
-    } else if (i > 0 && i + 1 < n_scan && mags[i] <= mags[i - 1] && mags[i] <= mags[i + 1] &&
-               mags[i] < level * 1.06) {
-      const auto [u_min, neg] = golden_max([&](double u) { return -mag(u); }, us[i - 1], us[i + 1]);
-      if (-neg < level) {
-        crossing = i;
-        a = us[i - 1];
-        b = u_min;
-      }
-    }
-  }
-  if (crossing < n_scan) {
-    for (int it = 0; it < 100 && b - a > 1e-14; ++it) {
-      const double mid = 0.5 * (a + b);
-      (mag(mid) >= level ? a : b) = mid;
-    }
-    m.bandwidth_hz = freq(0.5 * (a + b));
+  const auto crossing = first_crossing(axis, mags, level);
+  if (crossing.index < mags.size()) {
+    m.bandwidth_hz = bisect_crossing(axis, level, crossing.a, crossing.b);
     if (scan.bandwidth_only) return m;
-    // Sags: interior minima of the scan before the crossing that the response rises out of
-    // (by more than 0.01 dB, so that numerical flatness is not one).
-    double rise_after = 0.0;
-    for (size_t i = crossing; i-- > 1;) {
-      rise_after = std::max(rise_after, mags[i + 1 < n_scan ? i + 1 : i]);
-      if (mags[i] <= mags[i - 1] && mags[i] <= mags[i + 1] && rise_after > mags[i] * 1.00115) {
-        const auto [u_min, neg] = golden_max([&](double u) { return -mag(u); }, us[i - 1], us[i + 1]);
-        const double dip_db = 20.0 * std::log10(std::max(-neg, 1e-300) / h0);
-        if (dip_db < m.sag_db) {
-          m.sag_db = dip_db;
-          m.sag_frequency_hz = freq(u_min);
-        }
-      }
-    }
+    measure_sag(axis, mags, crossing.index, h0, m);
   }
+  measure_peak(axis, mags, h0, m);
 
-  if (peak_index < n_scan && peak_mag > h0 * (1.0 + 1e-12)) {
-    const auto [u, g] = golden_max(mag, us[peak_index == 0 ? 0 : peak_index - 1], us[std::min(n_scan - 1, peak_index + 1)]);
-    const double peak_u = g > peak_mag ? u : us[peak_index];
-    peak_mag = std::max(g, peak_mag);
-    m.peaking_db = 20.0 * std::log10(peak_mag / h0);
-    m.peak_frequency_hz = freq(peak_u);
-  }
-
-  // Group-delay ripple over (0, band]: scan, then refine every interior extremum.
   const double band = std::isfinite(ripple_band_hz) ? ripple_band_hz : m.bandwidth_hz;
   if (std::isfinite(band) && band > 0.0) {
     m.ripple_band_hz = band;
-    auto tau = [&](double u) { return group_delay(cascade, freq(u)); };
-    const double u_end = std::log(band / f_lo);
-    const double step = std::log(f_hi / f_lo) / (points - 1);
-    const auto ts = scan_points(roots_hz, f_lo, u_end, std::max(3, static_cast<int>(u_end / step) + 2));
-    const size_t n = ts.size();
-    std::vector<double> taus(n);
-    for (size_t i = 0; i < n; ++i) taus[i] = tau(ts[i]);
-    double hi = std::max({m.group_delay_s, taus.front(), taus.back()});
-    double lo = std::min({m.group_delay_s, taus.front(), taus.back()});
-    for (size_t i = 1; i + 1 < n; ++i) {
-      const double t = taus[i];
-      const double left = taus[i - 1], right = taus[i + 1];
-      if (t >= left && t >= right) hi = std::max({hi, t, golden_max(tau, ts[i - 1], ts[i + 1]).second});
-      if (t <= left && t <= right)
-        lo = std::min({lo, t, -golden_max([&](double u) { return -tau(u); }, ts[i - 1], ts[i + 1]).second});
-    }
-    m.group_delay_ripple_s = hi - lo;
+    m.group_delay_ripple_s =
+        group_delay_ripple(axis, roots_hz, band, std::log(f_hi / f_lo) / (points - 1), m.group_delay_s);
   }
   return m;
 }

@@ -1,9 +1,12 @@
 #include "models/nodal_system.hpp"
 
+#include <algorithm>
 #include <cmath>
 #include <limits>
 #include <numbers>
 #include <stdexcept>
+
+#include "models/small_lu.hpp"
 
 namespace peakplan {
 namespace {
@@ -144,7 +147,7 @@ std::vector<NodalSystem::NoiseGenerator> NodalSystem::noise_generators() const {
 const NodalSystem::Assembled& NodalSystem::assembled() const {
   if (!assembled_)
     assembled_ = Assembled{G().cast<std::complex<double>>(), C().cast<std::complex<double>>(),
-                           b().cast<std::complex<double>>()};
+                           b().cast<std::complex<double>>(), G(), C(), b()};
   return *assembled_;
 }
 
@@ -158,17 +161,27 @@ std::complex<double> NodalSystem::transfer(std::complex<double> s) const {
 
 namespace {
 
-// H and dH/ds (per scaled s) of an N-unknown system: (G + sC) x = b, (G + sC) dx = -C x.
+// H and dH/ds (per scaled s) of an N-unknown system: (G + sC) x = b, (G + sC) dx = -C x, the
+// derivative from the same factorisation. G, C and b are real: only s makes the system complex.
 template <int N, class Assembled>
 std::pair<std::complex<double>, std::complex<double>> solve_fixed(const Assembled& a, std::complex<double> s_scaled,
                                                                   int output, double time_scale) {
-  using Matrix = Eigen::Matrix<std::complex<double>, N, N>;
-  using Vector = Eigen::Matrix<std::complex<double>, N, 1>;
-  const Eigen::Map<const Matrix> g(a.g.data()), c(a.c.data());  // views, no copies
-  const Eigen::PartialPivLU<Matrix> lu(g + s_scaled * c);
-  const Vector x = lu.solve(Eigen::Map<const Vector>(a.b.data()));
-  const Vector dx = -lu.solve(c * x);
-  return {x(output), dx(output) * time_scale};
+  const double* g = a.g_real.data();  // column-major N x N
+  const double* c = a.c_real.data();
+  const SmallLU<N> lu([&](int r, int col) {
+    const double cv = c[col * N + r];
+    return std::complex<double>(g[col * N + r] + s_scaled.real() * cv, s_scaled.imag() * cv);
+  });
+  typename SmallLU<N>::Vector x, dx;
+  for (int r = 0; r < N; ++r) x[r] = a.b_real(r);
+  lu.solve(x);
+  for (int r = 0; r < N; ++r) {
+    std::complex<double> cx = 0.0;
+    for (int col = 0; col < N; ++col) cx += c[col * N + r] * x[col];
+    dx[r] = -cx;
+  }
+  lu.solve(dx);
+  return {x[output], dx[output] * time_scale};
 }
 
 }  // namespace
@@ -203,56 +216,67 @@ std::complex<double> NodalSystem::impedance(int node, std::complex<double> s) co
 
 double NodalSystem::characteristic_rate() const { return 0.1; }
 
-Rational NodalSystem::rational() const {
-  if (output_ == ground) throw std::logic_error("NodalSystem: no output node set");
-  const int n = size();
-  int samples = 8;
-  while (samples < n + 2) samples *= 2;
+namespace {
 
-  const Eigen::MatrixXcd& g = assembled().g;
-  const Eigen::MatrixXcd& c = assembled().c;
-  const Eigen::VectorXcd& rhs = assembled().b;
-
-  // Interpolates p(rho*z) on the unit circle; returns coefficients of powers of (rho*z).
-  // The sample points and the DFT weights are the same roots of unity: w[m] = exp(-2 pi i m / N).
+// The N-point DFT weights w[m] = exp(-2 pi i m / N); their conjugates are the sample points on
+// the unit circle.
+std::vector<std::complex<double>> unit_roots(int samples) {
   std::vector<std::complex<double>> w(static_cast<size_t>(samples));
   for (int m = 0; m < samples; ++m) w[static_cast<size_t>(m)] = std::polar(1.0, -2.0 * std::numbers::pi * m / samples);
-  auto interpolate = [&](double rho, std::vector<double>& num, std::vector<double>& den) {
-    std::vector<std::complex<double>> d_samples(samples), n_samples(samples);
+  return w;
+}
+
+// The polynomials det(G + sC) (den) and det(G + sC) * v_out(s) (num) of the scaled s, as
+// coefficients of powers of (rho z): interpolated from their values at s = rho z on the unit
+// circle, z the conjugates of the weights w.
+void interpolate_on_circle(const Eigen::MatrixXcd& g, const Eigen::MatrixXcd& c, const Eigen::VectorXcd& rhs,
+                           int output, const std::vector<std::complex<double>>& w, double rho,
+                           std::vector<double>& num, std::vector<double>& den) {
+  const int samples = static_cast<int>(w.size());
+  std::vector<std::complex<double>> d_samples(samples), n_samples(samples);
+  for (int j = 0; j < samples; ++j) {
+    const auto z = std::conj(w[static_cast<size_t>(j)]);
+    const Eigen::PartialPivLU<Eigen::MatrixXcd> lu(g + (rho * z) * c);
+    const auto det = lu.determinant();
+    d_samples[j] = det;
+    n_samples[j] = det * lu.solve(rhs)(output);
+  }
+  num.assign(samples, 0.0);
+  den.assign(samples, 0.0);
+  for (int k = 0; k < samples; ++k) {
+    std::complex<double> dn = 0, nn = 0;
     for (int j = 0; j < samples; ++j) {
-      const auto z = std::conj(w[static_cast<size_t>(j)]);
-      const Eigen::PartialPivLU<Eigen::MatrixXcd> lu(g + (rho * z) * c);
-      const auto det = lu.determinant();
-      d_samples[j] = det;
-      n_samples[j] = det * lu.solve(rhs)(output_);
+      const auto& wk = w[static_cast<size_t>((j * k) % samples)];
+      dn += d_samples[j] * wk;
+      nn += n_samples[j] * wk;
     }
-    num.assign(samples, 0.0);
-    den.assign(samples, 0.0);
-    for (int k = 0; k < samples; ++k) {
-      std::complex<double> dn = 0, nn = 0;
-      for (int j = 0; j < samples; ++j) {
-        const auto& wk = w[static_cast<size_t>((j * k) % samples)];
-        dn += d_samples[j] * wk;
-        nn += n_samples[j] * wk;
-      }
-      den[k] = dn.real() / samples;
-      num[k] = nn.real() / samples;
-    }
-  };
+    den[k] = dn.real() / samples;
+    num[k] = nn.real() / samples;
+  }
+}
 
-  auto trim = [](std::vector<double>& p, double floor) {
-    for (auto& a : p)
-      if (std::fabs(a) < floor) a = 0.0;
-    while (p.size() > 1 && p.back() == 0.0) p.pop_back();
-  };
+double largest_coefficient(const std::vector<double>& p) {
+  double biggest = 0.0;
+  for (double a : p) biggest = std::max(biggest, std::fabs(a));
+  return biggest;
+}
 
-  // Root magnitudes set the radius; a circle near them keeps every coefficient significant.
-  double rho = characteristic_rate();
-  std::vector<double> num, den;
+// Zeroes coefficients below `floor` and drops the vanished leading ones.
+void trim(std::vector<double>& p, double floor) {
+  for (auto& a : p)
+    if (std::fabs(a) < floor) a = 0.0;
+  while (p.size() > 1 && p.back() == 0.0) p.pop_back();
+}
+
+// Interpolates on circles until the radius sits within a factor 2 of the roots' geometric mean
+// magnitude (at most three passes): a circle near the roots keeps every coefficient significant.
+// Returns the radius used; num and den are the last pass's (den trimmed).
+double interpolate_at_root_radius(const Eigen::MatrixXcd& g, const Eigen::MatrixXcd& c, const Eigen::VectorXcd& rhs,
+                                  int output, const std::vector<std::complex<double>>& w, double rho,
+                                  std::vector<double>& num, std::vector<double>& den) {
   for (int pass = 0; pass < 3; ++pass) {
-    interpolate(rho, num, den);
-    double biggest = 0.0;
-    for (double a : den) biggest = std::max(biggest, std::fabs(a));
+    interpolate_on_circle(g, c, rhs, output, w, rho, num, den);
+    const double biggest = largest_coefficient(den);
     if (biggest == 0.0) throw std::logic_error("NodalSystem: singular circuit");
     trim(den, 1e-10 * biggest);
     const int order = static_cast<int>(den.size()) - 1;
@@ -261,22 +285,25 @@ Rational NodalSystem::rational() const {
     if (mean_root > rho / 2 && mean_root < rho * 2) break;
     rho = mean_root;
   }
-  double biggest = 0.0;
-  for (double a : den) biggest = std::max(biggest, std::fabs(a));
+  return rho;
+}
+
+// Scales both polynomials by den's largest coefficient (num trimmed against it) and undoes the
+// radius: the coefficient of s_hat^k is that of (rho z)^k divided by rho^k.
+void normalise_and_unscale(std::vector<double>& num, std::vector<double>& den, double rho) {
+  const double biggest = largest_coefficient(den);
   trim(num, 1e-10 * biggest);
   for (auto& a : num) a /= biggest;
   for (auto& a : den) a /= biggest;
-  // Undo the radius: coefficient of s_hat^k is (coefficient of (rho z)^k) / rho^k.
   for (size_t k = 0; k < den.size(); ++k) den[k] /= std::pow(rho, static_cast<double>(k));
   for (size_t k = 0; k < num.size(); ++k) num[k] /= std::pow(rho, static_cast<double>(k));
+}
 
-  const bool all_zero = num.size() == 1 && num[0] == 0.0;
-  if (all_zero || num.size() == 1 || den.size() == 1) return Rational(num, den, time_scale);
-
-  // Remove pole-zero pairs that cancel (the ideal T-coil's q(s) appears in both N and det Y;
-  // at critical damping det Y has a fourfold root, which no root finder resolves better than
-  // about 1e-4). Candidates are matched loosely, divided out of both polynomials, and kept only
-  // if the reduced function reproduces the original at test points.
+// Removes pole-zero pairs that cancel (the ideal T-coil's q(s) appears in both N and det Y; at
+// critical damping det Y has a fourfold root, which no root finder resolves better than about
+// 1e-4). Candidates are matched loosely, divided out of both polynomials, and kept only if the
+// reduced function reproduces the original at test points about the radius rho (scaled s).
+void cancel_common_roots(std::vector<double>& num, std::vector<double>& den, double rho, double time_scale) {
   const Rational original(num, den, time_scale);
   auto reproduces = [&](const std::vector<double>& n2, const std::vector<double>& d2) {
     const Rational reduced(n2, d2, time_scale);
@@ -305,6 +332,19 @@ Rational NodalSystem::rational() const {
       den = std::move(d2);
     }
   }
+}
+
+}  // namespace
+
+Rational NodalSystem::rational() const {
+  if (output_ == ground) throw std::logic_error("NodalSystem: no output node set");
+  int samples = 8;
+  while (samples < size() + 2) samples *= 2;
+  const auto& a = assembled();
+  std::vector<double> num, den;
+  const double rho = interpolate_at_root_radius(a.g, a.c, a.b, output_, unit_roots(samples), characteristic_rate(), num, den);
+  normalise_and_unscale(num, den, rho);
+  if (num.size() > 1 && den.size() > 1) cancel_common_roots(num, den, rho, time_scale);  // no roots to cancel otherwise
   return Rational(num, den, time_scale);
 }
 

@@ -105,6 +105,8 @@ class NodalSystem {
   struct Assembled {
     Eigen::MatrixXcd g, c;
     Eigen::VectorXcd b;
+    Eigen::MatrixXd g_real, c_real;  // the same, for the fixed-size solves (only s is complex)
+    Eigen::VectorXd b_real;
   };
   mutable std::optional<Assembled> assembled_;
   const Assembled& assembled() const;

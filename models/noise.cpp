@@ -6,6 +6,8 @@
 #include <numbers>
 #include <stdexcept>
 
+#include "models/small_lu.hpp"
+
 namespace peakplan {
 namespace {
 
@@ -26,34 +28,40 @@ double generator_psd(const NodalSystem::NoiseGenerator& g, const NoiseOptions& o
 template <class Vector>
 std::complex<double> excitation(const Vector& w, const NodalSystem::NoiseGenerator& g) {
   std::complex<double> v = 0.0;
-  if (g.plus != NodalSystem::ground) v += w(g.plus);
-  if (g.minus != NodalSystem::ground) v -= w(g.minus);
+  if (g.plus != NodalSystem::ground) v += w[g.plus];
+  if (g.minus != NodalSystem::ground) v -= w[g.minus];
   return v;
 }
 
 // w = (G + sC)^-T e_out, then the transfer w . b and the PSD sum |w . e_gen|^2 S_gen; fixed-size
-// matrices (N unknowns, unrolled by Eigen) for the small systems stages are.
+// solves (N unknowns, models/small_lu.hpp) for the small systems stages are. G, C and b are real.
 template <int N, class Generators>
-std::pair<std::complex<double>, double> evaluate_fixed(const Eigen::MatrixXcd& g, const Eigen::MatrixXcd& c,
-                                                       const Eigen::VectorXcd& b, const Eigen::VectorXcd& e_out,
+std::pair<std::complex<double>, double> evaluate_fixed(const Eigen::MatrixXd& g, const Eigen::MatrixXd& c,
+                                                       const Eigen::VectorXd& b, int output,
                                                        const Generators& generators, std::complex<double> s_scaled) {
-  using Matrix = Eigen::Matrix<std::complex<double>, N, N>;
-  using Vector = Eigen::Matrix<std::complex<double>, N, 1>;
-  const Eigen::Map<const Matrix> gm(g.data()), cm(c.data());  // views, no copies
-  const Matrix y = (gm + s_scaled * cm).transpose();
-  const Vector w = Eigen::PartialPivLU<Matrix>(y).solve(Eigen::Map<const Vector>(e_out.data()));
+  // (G + sC)^T, with s purely imaginary: entry (r, col) is that of (col, r).
+  const SmallLU<N> lu([&](int r, int col) { return std::complex<double>(g(col, r), s_scaled.imag() * c(col, r)); });
+  typename SmallLU<N>::Vector w{};
+  w[output] = 1.0;
+  lu.solve(w);
   double psd = 0.0;
   for (const auto& [gen, density] : generators) psd += std::norm(excitation(w, gen)) * density;
-  return {w.cwiseProduct(Eigen::Map<const Vector>(b.data())).sum(), psd};
+  std::complex<double> h = 0.0;
+  for (int r = 0; r < N; ++r) h += w[r] * b(r);
+  return {h, psd};
 }
 
 }  // namespace
 
 CircuitNoise::CircuitNoise(const NodalSystem& system, const NoiseOptions& options) {
   if (system.output_node() == NodalSystem::ground) throw std::logic_error("noise: no output node set");
-  g_ = system.G().cast<std::complex<double>>();
-  c_ = system.C().cast<std::complex<double>>();
-  b_ = system.b().cast<std::complex<double>>();
+  g_real_ = system.G();
+  c_real_ = system.C();
+  b_real_ = system.b();
+  output_ = system.output_node();
+  g_ = g_real_.cast<std::complex<double>>();
+  c_ = c_real_.cast<std::complex<double>>();
+  b_ = b_real_.cast<std::complex<double>>();
   e_out_ = Eigen::VectorXcd::Zero(system.size());
   e_out_(system.output_node()) = 1.0;
   for (const auto& g : system.noise_generators()) {
@@ -66,14 +74,14 @@ std::pair<std::complex<double>, double> CircuitNoise::evaluate(double f_hz) cons
   const std::complex<double> s_scaled(0.0, kTwoPi * f_hz * NodalSystem::time_scale);
   // v_out = e_out^T (G + sC)^-1 e = w^T e for every right-hand side e: one transposed solve.
   switch (g_.rows()) {
-    case 1: return evaluate_fixed<1>(g_, c_, b_, e_out_, generators_, s_scaled);
-    case 2: return evaluate_fixed<2>(g_, c_, b_, e_out_, generators_, s_scaled);
-    case 3: return evaluate_fixed<3>(g_, c_, b_, e_out_, generators_, s_scaled);
-    case 4: return evaluate_fixed<4>(g_, c_, b_, e_out_, generators_, s_scaled);
-    case 5: return evaluate_fixed<5>(g_, c_, b_, e_out_, generators_, s_scaled);
-    case 6: return evaluate_fixed<6>(g_, c_, b_, e_out_, generators_, s_scaled);
-    case 7: return evaluate_fixed<7>(g_, c_, b_, e_out_, generators_, s_scaled);
-    case 8: return evaluate_fixed<8>(g_, c_, b_, e_out_, generators_, s_scaled);
+    case 1: return evaluate_fixed<1>(g_real_, c_real_, b_real_, output_, generators_, s_scaled);
+    case 2: return evaluate_fixed<2>(g_real_, c_real_, b_real_, output_, generators_, s_scaled);
+    case 3: return evaluate_fixed<3>(g_real_, c_real_, b_real_, output_, generators_, s_scaled);
+    case 4: return evaluate_fixed<4>(g_real_, c_real_, b_real_, output_, generators_, s_scaled);
+    case 5: return evaluate_fixed<5>(g_real_, c_real_, b_real_, output_, generators_, s_scaled);
+    case 6: return evaluate_fixed<6>(g_real_, c_real_, b_real_, output_, generators_, s_scaled);
+    case 7: return evaluate_fixed<7>(g_real_, c_real_, b_real_, output_, generators_, s_scaled);
+    case 8: return evaluate_fixed<8>(g_real_, c_real_, b_real_, output_, generators_, s_scaled);
     default: break;
   }
   const Eigen::MatrixXcd y = (g_ + s_scaled * c_).transpose();
@@ -97,17 +105,31 @@ ChainNoise::ChainNoise(const Chain& chain, int output, NoiseOptions options) : o
     source.set_output(in);
     blocks_.emplace_back(source, options_);
   }
-  for (int s : chain.path_to(output))
-    blocks_.emplace_back(build_stage_system(chain.stages[static_cast<size_t>(s)].circuit), options_);
+  alike_.assign(blocks_.size(), 0);
+  for (size_t b = 0; b < blocks_.size(); ++b) alike_[b] = b;
+  std::vector<const StageCircuit*> circuits(blocks_.size(), nullptr);  // none for the source network
+  for (int s : chain.path_to(output)) {
+    const StageCircuit& circuit = chain.stages[static_cast<size_t>(s)].circuit;
+    const size_t b = blocks_.size();
+    circuits.push_back(&circuit);
+    alike_.push_back(b);
+    for (size_t j = 0; j < b && alike_[b] == b; ++j)
+      if (circuits[j] && *circuits[j] == circuit) alike_[b] = j;
+    if (alike_[b] == b) blocks_.emplace_back(build_stage_system(circuit), options_);
+    else blocks_.push_back(blocks_[alike_[b]]);
+  }
   cascade_ = output_cascade(chain, output);
 }
 
 std::pair<std::complex<double>, double> ChainNoise::evaluate(double f_hz) const {
+  // A stage repeating an earlier one's circuit has its transfer and noise: solved once.
+  std::vector<std::pair<std::complex<double>, double>> at(blocks_.size());
+  for (size_t b = 0; b < blocks_.size(); ++b) at[b] = alike_[b] == b ? blocks_[b].evaluate(f_hz) : at[alike_[b]];
   // From the output backwards, so each block's own noise meets the gain after it.
   double psd = 0.0, gain_after = 1.0;
   std::complex<double> h = 1.0;
-  for (auto it = blocks_.rbegin(); it != blocks_.rend(); ++it) {
-    const auto [hi, own] = it->evaluate(f_hz);
+  for (size_t b = blocks_.size(); b-- > 0;) {
+    const auto [hi, own] = at[b];
     psd += own * gain_after;
     gain_after *= std::norm(hi);
     h *= hi;

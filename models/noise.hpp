@@ -52,6 +52,9 @@ class CircuitNoise {
  private:
   Eigen::MatrixXcd g_, c_;
   Eigen::VectorXcd b_, e_out_;
+  Eigen::MatrixXd g_real_, c_real_;  // the same, for the fixed-size solves
+  Eigen::VectorXd b_real_;
+  int output_ = 0;
   std::vector<std::pair<NodalSystem::NoiseGenerator, double>> generators_;  // with their PSD
 };
 
@@ -72,6 +75,7 @@ class ChainNoise {
 
  private:
   std::vector<CircuitNoise> blocks_;  // source network (if any) first, then the stages in order
+  std::vector<size_t> alike_;         // per block, the first block with the same circuit (itself if none)
   NoiseOptions options_;
   Cascade cascade_;
 };

@@ -81,16 +81,66 @@ SteppedSimulator::SteppedSimulator(StateSpace model, double dt) : model_(std::mo
   const Eigen::MatrixXd e = (augmented * (dt / model_.time_scale)).exp();
   phi_ = e.topLeftCorner(n, n);
   gamma_ = e.topRightCorner(n, 1);
+  // The rows each column of phi has entries in: from its first to its last nonzero.
+  rows_.assign(static_cast<size_t>(n), {0, 0});
+  for (int j = 0; j < n; ++j) {
+    int first = 0, last = n - 1;
+    while (first < n && phi_(first, j) == 0.0) ++first;
+    while (last > first && phi_(last, j) == 0.0) --last;
+    rows_[static_cast<size_t>(j)] = first < n ? std::pair{first, last + 1} : std::pair{0, 0};
+  }
 }
+
+namespace {
+
+// x[k+1] = phi x[k] + gamma u[k], y[k] = c x[k] + d u[k], for a fixed order N (0: the general
+// order n), so the compiler unrolls the small ones. The product is written out column by column:
+// for the few states of a cascade a general matrix-vector product costs more in its set-up than
+// in its arithmetic. Column j of phi is used over rows rows[j].first .. rows[j].second - 1 only:
+// a cascade's phi is block lower triangular, with exact zeros above the blocks, and leaving out
+// a product with an exact zero changes no sum. Each row sums its terms in column order, as the
+// general product did, and y uses Eigen's own dot product, so the results are the same bits.
+template <int N>
+void stepped_loop(int n, const double* phi, const std::vector<std::pair<int, int>>& rows, const double* gamma,
+                  const Eigen::RowVectorXd& c, double d, const std::vector<double>& u, std::vector<double>& y) {
+  if constexpr (N > 0) n = N;
+  Eigen::VectorXd x = Eigen::VectorXd::Zero(n), next(n);
+  for (size_t k = 0; k < u.size(); ++k) {
+    y[k] = c.dot(x) + d * u[k];
+    const double* xs = x.data();
+    double* ns = next.data();
+    for (int r = 0; r < n; ++r) ns[r] = 0.0;
+    for (int j = 0; j < n; ++j) {
+      const double xj = xs[j];
+      const double* column = phi + static_cast<std::ptrdiff_t>(j) * n;
+      if constexpr (N > 0) {
+        for (int r = 0; r < N; ++r) ns[r] += column[r] * xj;
+      } else {
+        const auto [first, end] = rows[static_cast<size_t>(j)];
+        for (int r = first; r < end; ++r) ns[r] += column[r] * xj;
+      }
+    }
+    for (int r = 0; r < n; ++r) ns[r] += gamma[r] * u[k];
+    x.swap(next);
+  }
+}
+
+}  // namespace
 
 std::vector<double> SteppedSimulator::run(const std::vector<double>& u) const {
   std::vector<double> y(u.size());
-  Eigen::VectorXd x = Eigen::VectorXd::Zero(model_.order());
-  Eigen::VectorXd next(model_.order());
-  for (size_t k = 0; k < u.size(); ++k) {
-    y[k] = model_.c.dot(x) + model_.d * u[k];
-    next.noalias() = phi_ * x + gamma_ * u[k];
-    x.swap(next);
+  const double* phi = phi_.data();  // column-major
+  const double* gamma = gamma_.data();
+  const auto& c = model_.c;
+  const double d = model_.d;
+  switch (model_.order()) {
+    case 1: stepped_loop<1>(1, phi, rows_, gamma, c, d, u, y); break;
+    case 2: stepped_loop<2>(2, phi, rows_, gamma, c, d, u, y); break;
+    case 3: stepped_loop<3>(3, phi, rows_, gamma, c, d, u, y); break;
+    case 4: stepped_loop<4>(4, phi, rows_, gamma, c, d, u, y); break;
+    case 5: stepped_loop<5>(5, phi, rows_, gamma, c, d, u, y); break;
+    case 6: stepped_loop<6>(6, phi, rows_, gamma, c, d, u, y); break;
+    default: stepped_loop<0>(model_.order(), phi, rows_, gamma, c, d, u, y); break;
   }
   return y;
 }

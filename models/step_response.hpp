@@ -8,6 +8,7 @@
 #pragma once
 
 #include <Eigen/Dense>
+#include <utility>
 #include <vector>
 
 #include "models/rational.hpp"
@@ -41,6 +42,7 @@ class SteppedSimulator {
   double dt_;
   Eigen::MatrixXd phi_;
   Eigen::VectorXd gamma_;
+  std::vector<std::pair<int, int>> rows_;  // per column of phi: its nonzero rows [first, end)
 };
 
 // Exact responses to sampled inputs u[k] (at t = k*dt) under two holds:

@@ -156,3 +156,36 @@ TEST_CASE("cascade: an analysis on two threads equals the one-thread analysis bi
   CHECK(a.eye->noise.differential_rms_v == b.eye->noise.differential_rms_v);
   CHECK(a.eye->statistical->height_at_ber == b.eye->statistical->height_at_ber);
 }
+
+TEST_CASE("cascade: a stage repeating an earlier stage's circuit gets the response alone its own circuit gives") {
+  // analyze_chain analyses each distinct circuit once and copies the summary to the stages that
+  // repeat it (models/analysis.cpp). Derived: the response alone depends on the circuit only, so
+  // the copy must equal that stage's own summary bit for bit, and a stage that differs (here by
+  // its load capacitance, the next stage's c_in) must not be given another's.
+  Chain chain;
+  chain.name = "a repeated shunt stage (test)";
+  chain.r_source = 50.0;
+  StageCircuit shunt = plain_circuit(0.04, 95.0, 14e-15);
+  shunt.kind = LoadKind::shunt;
+  shunt.l = 0.13e-9;
+  chain.stages.push_back(make_stage("a", -1, shunt, 25e-15));
+  chain.stages.push_back(make_stage("b", 0, shunt, 25e-15));
+  chain.stages.push_back(make_stage("c", 1, shunt, 25e-15));
+  chain.stages.push_back(make_stage("d", 2, shunt, 40e-15, 20e-15));
+  fill_node_capacitances(chain);
+  REQUIRE(chain.stages[0].circuit == chain.stages[1].circuit);
+  REQUIRE_FALSE(chain.stages[2].circuit == chain.stages[1].circuit);  // c feeds d's larger c_in
+  const auto analysis = analyze_chain(chain);
+  for (size_t i = 0; i < chain.stages.size(); ++i) {
+    CAPTURE(i);
+    const auto system = build_stage_system(chain.stages[i].circuit);
+    const auto own = summarise(Cascade({system.rational()}), {&system}, AnalysisOptions{});
+    const auto& alone = analysis.stages[i].alone;
+    CHECK(analysis.stages[i].stage == static_cast<int>(i));
+    CHECK(alone.frequency.bandwidth_hz == own.frequency.bandwidth_hz);
+    CHECK(alone.frequency.peaking_db == own.frequency.peaking_db);
+    CHECK(alone.step.overshoot_pct == own.step.overshoot_pct);
+    CHECK(alone.poles == own.poles);
+  }
+  CHECK(analysis.stages[1].alone.frequency.bandwidth_hz != analysis.stages[2].alone.frequency.bandwidth_hz);
+}

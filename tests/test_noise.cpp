@@ -218,3 +218,35 @@ TEST_CASE("noise: a receiver bandwidth limits the noise behind Q as a first-orde
   const auto open = summarise_noise(ChainNoise(chain, 0, NoiseOptions{}));
   CHECK(open.output_rms_v * open.output_rms_v == doctest::Approx(s0 * kPi / 2.0 * fc).epsilon(kQuadrature));
 }
+
+TEST_CASE("noise: a chain whose stages repeat a circuit composes every stage's own noise and gain") {
+  // ChainNoise solves a circuit that repeats an earlier stage's once per frequency and uses it for
+  // both (models/noise.cpp). Derived, from the cascade formula of models/noise.hpp:
+  //   S_out = S_c + S_b |H_c|^2 + S_a |H_b H_c|^2,
+  // composed here from each stage's own CircuitNoise in the same order, so the two agree bit for
+  // bit; a copy taken from the wrong stage (b is another circuit) would not.
+  Chain chain;
+  chain.name = "a, b, a again (test)";
+  StageCircuit shunt = test::plain_circuit(0.04, 95.0, 14e-15);
+  shunt.kind = LoadKind::shunt;
+  shunt.l = 0.13e-9;
+  shunt.r_l = 4.0;
+  chain.stages.push_back(test::make_stage("a", -1, shunt, 25e-15));
+  chain.stages.push_back(test::make_stage("b", 0, test::plain_circuit(0.03, 120.0, 10e-15), 25e-15));
+  chain.stages.push_back(test::make_stage("c", 1, shunt, 25e-15, 25e-15));
+  fill_node_capacitances(chain);
+  REQUIRE(chain.stages[0].circuit == chain.stages[2].circuit);
+  const NoiseOptions options;
+  const ChainNoise noise(chain, 2, options);
+  const CircuitNoise a(build_stage_system(chain.stages[0].circuit), options);
+  const CircuitNoise b(build_stage_system(chain.stages[1].circuit), options);
+  for (double f : {1e8, 3e9, 2e10, 7e10}) {
+    CAPTURE(f);
+    const auto [ha, sa] = a.evaluate(f);
+    const auto [hb, sb] = b.evaluate(f);
+    const double psd = (sa * 1.0 + sb * std::norm(ha)) + sa * (std::norm(ha) * std::norm(hb));
+    const auto [h, s] = noise.evaluate(f);
+    CHECK(s == psd);
+    CHECK(h == ha * hb * ha);
+  }
+}
