@@ -606,3 +606,107 @@ TEST_CASE("variation: the corner envelope a report draws contains the nominal cu
   }
   CHECK(widest > 1.0);
 }
+
+namespace {
+
+// kPlainStage with its C+ and C- extremes: three cases whose poles sit at f0/1.08, f0 and f0/0.92.
+std::string plain_stage_extremes() {
+  std::string text = kPlainStage;
+  const auto at = text.find("corners = \"none\"");
+  REQUIRE(at != std::string::npos);
+  text.replace(at, 16, "corners = \"extremes\"");
+  return text;
+}
+
+}  // namespace
+
+TEST_CASE("variation: the corner envelope holds every corner at every point of the nominal grid, the first and the "
+          "last included") {
+  // Derived: the plain stage is -gm Rd / (1 + s Rd C), so a corner moving C by the offset o has
+  //   |H(f)| = gm Rd / sqrt(1 + (2 pi f Rd C0 (1 + o))^2)
+  // and, divided by its DC gain, the step 1 - exp(-t / (Rd C0 (1 + o))). The band at each point
+  // must be the least and greatest of the three corners' values there. The C- corner's own
+  // natural span starts above the nominal grid's first point (its pole is higher), so a corner
+  // read off its own grid would be missing there: the check below makes sure of that first.
+  const auto loaded = load(plain_stage_extremes());
+  const auto r = analyze_variation(loaded.spec, loaded.chain, {1, std::nullopt, 1, {}});
+  REQUIRE(r.corners.size() == 3);
+  const auto options = analysis_options(loaded.spec);
+  const auto nominal = analyze_chain(loaded.chain, options);
+  const auto e = corner_envelope(r, loaded.chain, nominal, options);
+  REQUIRE(e.frequency_hz.size() >= 2);
+  REQUIRE(e.time_s.size() >= 2);
+
+  const double gm = 0.02, rd = 100.0, c0 = 50e-15;
+  std::vector<double> offsets;
+  bool some_corner_starts_higher = false;
+  for (const auto& c : r.corners) {
+    offsets.push_back(c.corner.offset[static_cast<size_t>(VariationClass::capacitance)]);
+    const auto own = analyze_chain(apply_variation(loaded.chain, c.corner.draw()), options);
+    some_corner_starts_higher = some_corner_starts_higher ||
+                                own.outputs.back().response.sampled.frequency_hz.front() > e.frequency_hz.front();
+  }
+  CHECK(some_corner_starts_higher);
+
+  auto band_of = [&](auto value) {
+    double lo = INFINITY, hi = -INFINITY;
+    for (double o : offsets) {
+      lo = std::min(lo, value(o));
+      hi = std::max(hi, value(o));
+    }
+    return std::pair{lo, hi};
+  };
+  // The nodal solve of a one-node circuit is exact to rounding (about 1e-15 relative, 1e-14 dB):
+  // 1e-9 dB leaves room and is far below the 0.007 dB the C- corner moves the first point by.
+  for (size_t k = 0; k < e.frequency_hz.size(); ++k) {
+    const double f = e.frequency_hz[k];
+    const auto [lo, hi] = band_of([&](double o) {
+      const double x = 2.0 * std::numbers::pi * f * rd * c0 * (1.0 + o);
+      return 20.0 * std::log10(gm * rd / std::sqrt(1.0 + x * x));
+    });
+    INFO("f = " << f);
+    CHECK(std::fabs(e.magnitude_lo_db[k] - lo) <= 1e-9);
+    CHECK(std::fabs(e.magnitude_hi_db[k] - hi) <= 1e-9);
+  }
+  // The step: each corner's record is read by linear interpolation, whose error is at most
+  // dt^2 max|y''| / 8 = (dt/tau)^2 / 8 <= (12/4000)^2 / 8 = 1.1e-6 (models/step_response.cpp:
+  // dt <= duration/4000, duration = 14 tau); past its own record (14 tau of the C- corner, shorter
+  // than the nominal's) a corner holds its last value, within e^-14 = 8.3e-7 of 1. 1e-5 bounds
+  // both with the time-stepping's own error.
+  for (size_t k = 0; k < e.time_s.size(); ++k) {
+    const double t = e.time_s[k];
+    const auto [lo, hi] = band_of([&](double o) { return 1.0 - std::exp(-t / (rd * c0 * (1.0 + o))); });
+    INFO("t = " << t);
+    CHECK(std::fabs(e.step_lo[k] - lo) <= 1e-5);
+    CHECK(std::fabs(e.step_hi[k] - hi) <= 1e-5);
+  }
+}
+
+TEST_CASE("variation: the report's magnitude envelope spans the frequencies of its magnitude plot") {
+  // Derived: both plots draw the same chain's main output, so a reader lays one over the other;
+  // corners_magnitude.svg is given magnitude.svg's frequency axis (reports/plots.hpp
+  // plotted_frequency_span), which ends at the decade above five times the widest bandwidth,
+  // not at the top of the sampled grid (a decade above the chain's highest root). The demo
+  // chain's T-coil puts that top at 3 THz, past the 1 THz the magnitude plot stops at.
+  TempDir dir;
+  const auto path = dir.write("demo.toml", read_file(std::string(PEAKPLAN_SOURCE_DIR) + "/chains/demo_postamp.toml") +
+                                               "\n[variation]\ncapacitance = { global = \"8 %\" }\n");
+  const auto out = dir.path / "report";
+  const auto run = run_cli({"report", path, "--out", out.string(), "--samples", "20"});
+  INFO(run.err);
+  REQUIRE(run.status == 0);
+  auto x_domain = [&](const char* file) {
+    const auto svg = read_file(out / file);
+    const auto at = svg.find("data-x-domain=\"");
+    REQUIRE(at != std::string::npos);
+    const auto from = at + 15;
+    return svg.substr(from, svg.find('"', from) - from);
+  };
+  const auto envelope = x_domain("corners_magnitude.svg");
+  CHECK(envelope == x_domain("magnitude.svg"));
+  // The sampled grid runs past the axis, so an envelope drawn over its own grid would not match.
+  const auto doc = nlohmann::json::parse(read_file(out / "result.json"));
+  const double grid_top = doc["outputs"].back()["response"]["frequency_hz"].back().get<double>();
+  const double top = std::stod(envelope.substr(envelope.find(' ') + 1));
+  CHECK(grid_top > 2.0 * top);
+}
