@@ -125,10 +125,12 @@ ChainAnalysis analyze_chain(const Chain& chain, const AnalysisOptions& options) 
                                 chain.stages[static_cast<size_t>(chain.input_stage())].c_in);
     source_system.set_output(in);
   }
-  // One span for every sampled response: the union of the stages' and the source's natural
-  // spans, which holds every cascade's poles and zeros.
+  // One span for every sampled response: the caller's, or the union of the stages' and the
+  // source's natural spans, which holds every cascade's poles and zeros.
   std::optional<std::pair<double, double>> span;
-  if (options.keep_waveforms) {
+  if (options.keep_waveforms && options.frequency_span) {
+    span = options.frequency_span;
+  } else if (options.keep_waveforms) {
     std::pair<double, double> all{std::numeric_limits<double>::infinity(), 0.0};
     auto include = [&](const Rational& r) {
       const auto [lo, hi] = natural_span(Cascade({r}), 1.0);

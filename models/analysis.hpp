@@ -4,6 +4,7 @@
 
 #include <complex>
 #include <optional>
+#include <utility>
 #include <vector>
 
 #include "models/chain.hpp"
@@ -19,6 +20,10 @@ namespace peakplan {
 
 struct AnalysisOptions {
   int points = 201;                      // samples of the reported frequency response
+  // Where the kept frequency responses are sampled (Hz, lo and hi); by default the chain's own
+  // natural span. A corner envelope gives every corner the nominal chain's span, so that each
+  // corner is sampled on the nominal grid itself (planner/corner_envelope).
+  std::optional<std::pair<double, double>> frequency_span;
   double ripple_band_hz = not_found;     // group-delay ripple band; NaN = up to the bandwidth
   bool keep_waveforms = true;            // keep sampled responses and the step waveform
   // With a signal, every output also gets its eye, its noise and (when the signal has a swing)

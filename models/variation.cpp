@@ -119,6 +119,9 @@ std::vector<Corner> extreme_corners(const Variation& variation) {
     if (variation.spread(c).global > 0.0) spread.push_back(c);
   const size_t k = spread.size();
   std::vector<Corner> corners;
+  // With no global spread the one "combination" is the nominal chain itself, which every corner
+  // list has already: adding it would list the nominal twice, the second time unnamed.
+  if (k == 0) return corners;
   for (size_t bits = 0; bits < (size_t{1} << k); ++bits) {
     Corner corner;
     for (size_t j = 0; j < k; ++j) {

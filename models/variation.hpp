@@ -81,7 +81,8 @@ struct Corner {
 Corner nominal_corner();
 // Every +- combination of the global spreads of the classes that have one: 2^k corners, in a
 // fixed order (the first class in all_variation_classes varies slowest, minus before plus),
-// each named by its signs ("gm- C+ L-").
+// each named by its signs ("gm- C+ L-"); none when no class has a global spread (k = 0: the
+// nominal case, which callers list first, is the only one).
 std::vector<Corner> extreme_corners(const Variation& variation);
 
 }  // namespace peakplan

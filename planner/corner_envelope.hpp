@@ -1,9 +1,9 @@
 // The spread of the main output's magnitude and step responses across a [variation] result's
 // corners, for a report to draw as a band: every corner analysed with the nominal analysis's
-// options (no eye, no noise: only the responses are wanted) and its curve interpolated onto the
-// nominal grids (log frequency for the magnitude, linear time for the step), then the least and
-// greatest value at each grid point. The nominal corner is one of the corners, so the band
-// contains the nominal curve.
+// options (no eye, no noise: only the responses are wanted), its magnitude sampled on the
+// nominal frequency grid itself and its step interpolated onto the nominal time axis (linear
+// time), then the least and greatest value at each grid point. The nominal corner is one of the
+// corners, so the band contains the nominal curve.
 #pragma once
 
 #include <vector>

@@ -61,29 +61,6 @@ std::string stage_label(const Chain& chain, int stage) {
 double rounded_down(double x, double step) { return std::floor(x / step) * step; }
 double rounded_up(double x, double step) { return std::ceil(x / step) * step; }
 
-// The frequency span every sampled curve shares at least partly: the union of their grids.
-std::pair<double, double> frequency_span(const ChainAnalysis& analysis) {
-  double lo = kInf, hi = 0.0;
-  auto include = [&](const SampledResponse& s) {
-    if (s.frequency_hz.empty()) return;
-    lo = std::min(lo, s.frequency_hz.front());
-    hi = std::max(hi, s.frequency_hz.back());
-  };
-  for (const auto& s : analysis.stages) include(s.alone.sampled);
-  for (const auto& o : analysis.outputs) include(o.response.sampled);
-  // Beyond a few times the widest bandwidth there is only roll-off: stop at the decade above 5x.
-  double widest = 0.0;
-  for (const auto& s : analysis.stages)
-    if (std::isfinite(s.alone.frequency.bandwidth_hz)) widest = std::max(widest, s.alone.frequency.bandwidth_hz);
-  for (const auto& o : analysis.outputs)
-    if (std::isfinite(o.response.frequency.bandwidth_hz)) widest = std::max(widest, o.response.frequency.bandwidth_hz);
-  if (widest > 0.0) {
-    const double cap = std::pow(10.0, std::ceil(std::log10(5.0 * widest)));
-    if (cap > lo) hi = std::min(hi, cap);
-  }
-  return {lo, hi};
-}
-
 std::vector<double> scaled(const std::vector<double>& v, double factor) {
   std::vector<double> r(v.size());
   std::transform(v.begin(), v.end(), r.begin(), [&](double x) { return x * factor; });
@@ -99,7 +76,7 @@ std::string gain_summary(const FrequencyMetrics& f) {
 
 PlotFile magnitude_plot(const Chain& chain, const ChainAnalysis& analysis) {
   const auto& main = analysis.outputs.back();
-  const auto [f_lo, f_hi] = frequency_span(analysis);
+  const auto [f_lo, f_hi] = plotted_frequency_span(analysis);
   const double main_dc_db = to_db(main.response.frequency.dc_gain);
   double top = -kInf, lowest_dc = kInf;
   auto track = [&](const ResponseSummary& r) {
@@ -143,7 +120,7 @@ PlotFile magnitude_plot(const Chain& chain, const ChainAnalysis& analysis) {
 
 PlotFile group_delay_plot(const Chain& chain, const ChainAnalysis& analysis) {
   const auto& main = analysis.outputs.back();
-  const auto [f_lo, f_hi] = frequency_span(analysis);
+  const auto [f_lo, f_hi] = plotted_frequency_span(analysis);
   double top = 0.0, bottom = 0.0;
   auto track = [&](const SampledResponse& s) {
     for (double v : s.group_delay_s) {
@@ -489,6 +466,29 @@ PlotFile input_noise_plot(const Chain& chain, const ChainAnalysis& analysis) {
 }
 
 }  // namespace
+
+std::pair<double, double> plotted_frequency_span(const ChainAnalysis& analysis) {
+  double lo = kInf, hi = 0.0;
+  auto include = [&](const SampledResponse& s) {
+    if (s.frequency_hz.empty()) return;
+    lo = std::min(lo, s.frequency_hz.front());
+    hi = std::max(hi, s.frequency_hz.back());
+  };
+  for (const auto& s : analysis.stages) include(s.alone.sampled);
+  for (const auto& o : analysis.outputs) include(o.response.sampled);
+  // Beyond a few times the widest bandwidth there is only roll-off: stop at the decade above 5x.
+  double widest = 0.0;
+  for (const auto& s : analysis.stages)
+    if (std::isfinite(s.alone.frequency.bandwidth_hz)) widest = std::max(widest, s.alone.frequency.bandwidth_hz);
+  for (const auto& o : analysis.outputs)
+    if (std::isfinite(o.response.frequency.bandwidth_hz)) widest = std::max(widest, o.response.frequency.bandwidth_hz);
+  if (widest > 0.0) {
+    const double cap = std::pow(10.0, std::ceil(std::log10(5.0 * widest)));
+    if (cap > lo) hi = std::min(hi, cap);
+  }
+  return {lo, hi};
+}
+
 
 std::vector<PlotFile> chain_plots(const Chain& chain, const ChainAnalysis& analysis) {
   if (analysis.outputs.empty() || analysis.stages.empty())

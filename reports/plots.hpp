@@ -3,6 +3,7 @@
 #pragma once
 
 #include <string>
+#include <utility>
 #include <vector>
 
 #include "models/analysis.hpp"
@@ -15,6 +16,11 @@ struct PlotFile {
   std::string title;  // a human caption, e.g. "Magnitude of every stage alone and of the cascade"
   std::string svg;    // a complete standalone SVG document
 };
+
+// The frequency axis of the magnitude and group-delay plots: the union of every sampled grid,
+// cut at the decade above five times the widest bandwidth (beyond it there is only roll-off).
+// Any other plot over frequency of the same chain uses it too, so that they line up.
+std::pair<double, double> plotted_frequency_span(const ChainAnalysis& analysis);
 
 // Every plot of an analysed chain, in the order above; eye.svg only when the main output
 // (analysis.outputs.back()) has an eye. When it also has a large-signal eye with traces, the

@@ -54,7 +54,7 @@ std::vector<ReportFile> build_report(const ReportSource& source, const Chain& ch
   if (variation)
     for (auto& p : variation_plots(chain.name, *variation)) plots.push_back(std::move(p));
   if (envelope)
-    for (auto& p : envelope_plots(chain.name, *envelope)) plots.push_back(std::move(p));
+    for (auto& p : envelope_plots(chain.name, *envelope, plotted_frequency_span(analysis))) plots.push_back(std::move(p));
   if (dynamic_range && spec.signal && spec.signal->swing)
     for (auto& p : dynamic_range_plots(*dynamic_range, *spec.signal->swing)) plots.push_back(std::move(p));
   for (const auto& p : plots) files.push_back({p.name, p.svg});

@@ -351,153 +351,195 @@ std::vector<Chart::PlacedEntry> Chart::place_legend() const {
   return placed;
 }
 
+// The layout render decides once the legend is placed: the plot box, the data-to-pixel maps
+// and the document-wide ids every part draws with.
+struct Chart::Frame {
+  double left, top, right, bottom;
+  Axis xa, ya;
+  std::string id_prefix;  // ids are document-wide once inlined into HTML: "peakplan-<plot name>"
+  std::string clip;       // the plot area's clip path
+
+  // Pixels of a data value, +-infinity standing for the plot area's edges.
+  double x_px(double v) const { return std::isinf(v) ? (v > 0 ? right : left) : xa.pixel(v); }
+  double y_px(double v) const { return std::isinf(v) ? (v > 0 ? top : bottom) : ya.pixel(v); }
+};
+
 std::string Chart::render() const {
   const auto placed = place_legend();
   const int rows = placed.empty() ? 0 : static_cast<int>(std::lround((placed.back().y - kLegendTop) / kRowHeight)) + 1;
   const auto box = plot_box(rows);
-  const double left = box.left, right = box.right, top = box.top, bottom = box.bottom;
-  const double font = kFont;
-  const Axis xa(x_.scale, x_.lo, x_.hi, left, right);
-  const Axis ya(y_.scale, y_.lo, y_.hi, bottom, top);
-  // Ids are document-wide once inlined into HTML: prefixed with the project and the plot's name.
-  const std::string id_prefix = "peakplan-" + name_;
-  const std::string clip = id_prefix + "-plot-area";
+  const Frame f{box.left,
+                box.top,
+                box.right,
+                box.bottom,
+                Axis(x_.scale, x_.lo, x_.hi, box.left, box.right),
+                Axis(y_.scale, y_.lo, y_.hi, box.bottom, box.top),
+                "peakplan-" + name_,
+                "peakplan-" + name_ + "-plot-area"};
 
   std::string out;
   out.reserve(64 * 1024);
-  out += fmt::format(
+  out += render_heading(f);
+  out += render_plot_area(f);
+  out += render_grid_and_ticks(f);
+  out += render_axis_titles(f);
+  for (const auto& element : elements_) out += std::visit([&](const auto& e) { return draw(e, f); }, element);
+  out += fmt::format(R"(<rect x="{}" y="{}" width="{}" height="{}" fill="none" stroke="{}" stroke-width="1"/>)" "\n",
+                     px(f.left), px(f.top), px(f.right - f.left), px(f.bottom - f.top), theme::frame);
+  out += "</g>\n";
+  out += render_legend(placed);
+  out += "</svg>\n";
+  return out;
+}
+
+// The document's opening, its title and the subtitle.
+std::string Chart::render_heading(const Frame& f) const {
+  std::string out = fmt::format(
       R"(<svg xmlns="http://www.w3.org/2000/svg" class="peakplan-plot" data-plot="{}" width="{}" height="{}" viewBox="0 0 {} {}" font-family="{}" role="img" aria-labelledby="{}-title">)"
       "\n",
-      xml_escape(name_), width, height, width, height, xml_escape(theme::font_family), xml_escape(id_prefix));
-  out += fmt::format(R"(<title id="{}-title">{}</title>)" "\n", xml_escape(id_prefix), xml_escape(title_));
+      xml_escape(name_), width, height, width, height, xml_escape(theme::font_family), xml_escape(f.id_prefix));
+  out += fmt::format(R"(<title id="{}-title">{}</title>)" "\n", xml_escape(f.id_prefix), xml_escape(title_));
   out += fmt::format(R"(<rect width="{}" height="{}" fill="#ffffff"/>)" "\n", width, height);
-  out += text_element(left - 56.0, 30.0, title_, {TextStyle::Anchor::start, 17.0, std::string(theme::ink), true, false});
-  if (!subtitle_.empty()) {
-    // A long chain name must not run off the page: the subtitle's type shrinks to fit (to 9 px).
-    // Longer still, it is cut at a character boundary and ends in an ellipsis.
-    const double room = width - 12.0 - (left - 56.0);
-    const double size = std::clamp(12.5 * room / std::max(1.0, text_width(subtitle_, 12.5)), 9.0, 12.5);
-    std::string shown = subtitle_;
-    if (text_width(shown, size) > room) {
-      while (!shown.empty() && text_width(shown + "\u2026", size) > room) {
-        while (!shown.empty() && (static_cast<unsigned char>(shown.back()) & 0xC0) == 0x80) shown.pop_back();
-        if (!shown.empty()) shown.pop_back();  // the character's lead byte, or an ASCII character
-      }
-      shown += "\u2026";
+  out += text_element(f.left - 56.0, 30.0, title_, {TextStyle::Anchor::start, 17.0, std::string(theme::ink), true, false});
+  if (subtitle_.empty()) return out;
+  // A long chain name must not run off the page: the subtitle's type shrinks to fit (to 9 px).
+  // Longer still, it is cut at a character boundary and ends in an ellipsis.
+  const double room = width - 12.0 - (f.left - 56.0);
+  const double size = std::clamp(12.5 * room / std::max(1.0, text_width(subtitle_, 12.5)), 9.0, 12.5);
+  std::string shown = subtitle_;
+  if (text_width(shown, size) > room) {
+    while (!shown.empty() && text_width(shown + "\u2026", size) > room) {
+      while (!shown.empty() && (static_cast<unsigned char>(shown.back()) & 0xC0) == 0x80) shown.pop_back();
+      if (!shown.empty()) shown.pop_back();  // the character's lead byte, or an ASCII character
     }
-    out += text_element(left - 56.0, 49.0, shown, {TextStyle::Anchor::start, size, std::string(theme::muted), false, false});
+    shown += "\u2026";
   }
+  return out + text_element(f.left - 56.0, 49.0, shown, {TextStyle::Anchor::start, size, std::string(theme::muted), false, false});
+}
 
-  // Plot area, its grid and ticks. The mapping is published on the group so tests and scripts
-  // can turn pixels back into data.
-  out += fmt::format(
+// The plot area's group (left open for the grid, the elements and the frame), its clip path and
+// its fill. The mapping is published on the group so tests and scripts can turn pixels back
+// into data.
+std::string Chart::render_plot_area(const Frame& f) const {
+  std::string out = fmt::format(
       R"(<g class="plot-area" data-x-scale="{}" data-x-domain="{} {}" data-x-pixels="{} {}" data-y-scale="{}" data-y-domain="{} {}" data-y-pixels="{} {}">)"
       "\n",
-      x_.scale == Scale::log ? "log" : "linear", x_.lo, x_.hi, left, right,
-      y_.scale == Scale::log ? "log" : "linear", y_.lo, y_.hi, bottom, top);
+      x_.scale == Scale::log ? "log" : "linear", x_.lo, x_.hi, f.left, f.right,
+      y_.scale == Scale::log ? "log" : "linear", y_.lo, y_.hi, f.bottom, f.top);
   out += fmt::format(R"(<clipPath id="{}"><rect x="{}" y="{}" width="{}" height="{}"/></clipPath>)" "\n",
-                     xml_escape(clip), px(left), px(top), px(right - left), px(bottom - top));
-  out += fmt::format(R"(<rect x="{}" y="{}" width="{}" height="{}" fill="{}"/>)" "\n", px(left), px(top),
-                     px(right - left), px(bottom - top), theme::plot_fill);
+                     xml_escape(f.clip), px(f.left), px(f.top), px(f.right - f.left), px(f.bottom - f.top));
+  out += fmt::format(R"(<rect x="{}" y="{}" width="{}" height="{}" fill="{}"/>)" "\n", px(f.left), px(f.top),
+                     px(f.right - f.left), px(f.bottom - f.top), theme::plot_fill);
+  return out;
+}
+
+// Grid lines at every tick (minor ones first, fainter) and the major ticks' labels.
+std::string Chart::render_grid_and_ticks(const Frame& f) const {
   const auto xticks = x_.scale == Scale::log ? log_ticks(x_.lo, x_.hi, x_.unit) : linear_ticks(x_.lo, x_.hi, x_.unit);
   const auto yticks = y_.scale == Scale::log ? log_ticks(y_.lo, y_.hi, y_.unit) : linear_ticks(y_.lo, y_.hi, y_.unit);
   std::string minor_d, major_d;
   for (const auto& t : xticks) {
     auto& d = t.major ? major_d : minor_d;
-    d += fmt::format("M{} {}V{}", px(xa.pixel(t.value)), px(top), px(bottom));
+    d += fmt::format("M{} {}V{}", px(f.xa.pixel(t.value)), px(f.top), px(f.bottom));
   }
   for (const auto& t : yticks) {
     auto& d = t.major ? major_d : minor_d;
-    d += fmt::format("M{} {}H{}", px(left), px(ya.pixel(t.value)), px(right));
+    d += fmt::format("M{} {}H{}", px(f.left), px(f.ya.pixel(t.value)), px(f.right));
   }
+  std::string out;
   if (!minor_d.empty())
     out += fmt::format(R"(<path d="{}" stroke="{}" stroke-width="1" fill="none"/>)" "\n", minor_d, theme::grid_minor);
   if (!major_d.empty())
     out += fmt::format(R"(<path d="{}" stroke="{}" stroke-width="1" fill="none"/>)" "\n", major_d, theme::grid_major);
-  const TextStyle tick_style{TextStyle::Anchor::middle, font, std::string(theme::muted), false, false};
+  const TextStyle tick_style{TextStyle::Anchor::middle, kFont, std::string(theme::muted), false, false};
   for (const auto& t : xticks)
-    if (!t.label.empty()) out += text_element(xa.pixel(t.value), bottom + 18.0, t.label, tick_style);
+    if (!t.label.empty()) out += text_element(f.xa.pixel(t.value), f.bottom + 18.0, t.label, tick_style);
   TextStyle ytick_style = tick_style;
   ytick_style.anchor = TextStyle::Anchor::end;
   for (const auto& t : yticks)
-    if (!t.label.empty()) out += text_element(left - 7.0, ya.pixel(t.value) + 4.0, t.label, ytick_style);
-  const TextStyle axis_title{TextStyle::Anchor::middle, 13.0, std::string(theme::ink), false, false};
-  out += text_element((left + right) / 2.0, bottom + 42.0, x_.title, axis_title);
-  out += fmt::format(R"~(<g transform="translate({} {}) rotate(-90)">)~", px(left - 62.0), px((top + bottom) / 2.0));
-  out += text_element(0.0, 0.0, y_.title, axis_title);
-  out += "</g>\n";
-
-  auto x_px = [&](double v) {
-    return std::isinf(v) ? (v > 0 ? right : left) : xa.pixel(v);
-  };
-  auto y_px = [&](double v) {
-    return std::isinf(v) ? (v > 0 ? top : bottom) : ya.pixel(v);
-  };
-  for (const auto& element : elements_) {
-    if (const auto* l = std::get_if<Line>(&element)) {
-      const std::string d = path_data(l->x, l->y, xa, ya);
-      if (d.empty()) continue;
-      out += fmt::format(R"~(<path d="{}" fill="none"{} stroke-linejoin="round" clip-path="url(#{})"/>)~" "\n", d,
-                         stroke_attributes(l->stroke), xml_escape(clip));
-    } else if (const auto* g = std::get_if<LineGroup>(&element)) {
-      out += fmt::format(R"~(<g fill="none"{} stroke-linejoin="round" clip-path="url(#{})">)~" "\n",
-                         stroke_attributes(g->stroke), xml_escape(clip));
-      for (const auto& y : g->ys) {
-        const std::string d = path_data(g->x, y, xa, ya);
-        if (!d.empty()) out += fmt::format(R"(<path d="{}"/>)" "\n", d);
-      }
-      out += "</g>\n";
-    } else if (const auto* b = std::get_if<Band>(&element)) {
-      const double x0 = std::clamp(x_px(b->x0), left, right), x1 = std::clamp(x_px(b->x1), left, right);
-      const double y0 = std::clamp(y_px(b->y0), top, bottom), y1 = std::clamp(y_px(b->y1), top, bottom);
-      if (!std::isfinite(x0 + x1 + y0 + y1)) continue;
-      out += fmt::format(R"(<rect x="{}" y="{}" width="{}" height="{}" fill="{}" fill-opacity="{}"/>)" "\n",
-                         px(std::min(x0, x1)), px(std::min(y0, y1)), px(std::fabs(x1 - x0)), px(std::fabs(y1 - y0)),
-                         b->colour, format_number(b->opacity, 3));
-    } else if (const auto* s = std::get_if<Segment>(&element)) {
-      const double x0 = x_px(s->x0), y0 = y_px(s->y0), x1 = x_px(s->x1), y1 = y_px(s->y1);
-      if (!std::isfinite(x0 + y0 + x1 + y1)) continue;
-      std::string d = fmt::format("M{} {}L{} {}", px(x0), px(y0), px(x1), px(y1));
-      if (s->caps) {
-        // Bars of 8 px across the segment's direction at both ends.
-        const double len = std::hypot(x1 - x0, y1 - y0);
-        const double nx = len > 0 ? -(y1 - y0) / len * 4.0 : 0.0, ny = len > 0 ? (x1 - x0) / len * 4.0 : 4.0;
-        d += fmt::format("M{} {}L{} {}M{} {}L{} {}", px(x0 - nx), px(y0 - ny), px(x0 + nx), px(y0 + ny),
-                         px(x1 - nx), px(y1 - ny), px(x1 + nx), px(y1 + ny));
-      }
-      out += fmt::format(R"(<path d="{}" fill="none"{} stroke-linecap="round"/>)" "\n", d, stroke_attributes(s->stroke));
-    } else if (const auto* m = std::get_if<Marker>(&element)) {
-      const double x = xa.pixel(m->x), y = ya.pixel(m->y);
-      if (std::isfinite(x) && std::isfinite(y)) out += marker_element(x, y, m->shape, m->colour, m->size, m->name);
-    } else if (const auto* t = std::get_if<Text>(&element)) {
-      const double x = t->fraction ? left + t->x * (right - left) : x_px(t->x);
-      const double y = t->fraction ? bottom - t->y * (bottom - top) : y_px(t->y);
-      if (std::isfinite(x) && std::isfinite(y))
-        out += text_element(x, y, t->content, kept_inside(x, t->content, t->style, left, right));
-    }
-  }
-  out += fmt::format(R"(<rect x="{}" y="{}" width="{}" height="{}" fill="none" stroke="{}" stroke-width="1"/>)" "\n",
-                     px(left), px(top), px(right - left), px(bottom - top), theme::frame);
-  out += "</g>\n";
-
-  if (!placed.empty()) {
-    out += "<g class=\"legend\">\n";
-    for (const auto& p : placed) {
-      const auto& e = *p.entry;
-      if (e.is_line) {
-        Stroke s = e.stroke;
-        s.width = std::max(s.width, 2.0);
-        s.opacity = std::max(s.opacity, 0.8);
-        out += fmt::format(R"(<path d="M{} {}h22" fill="none"{}/>)" "\n", px(p.x), px(p.y), stroke_attributes(s));
-      } else {
-        out += marker_element(p.x + 11.0, p.y, e.shape, e.stroke.colour, 5.0, "");
-      }
-      out += text_element(p.x + 28.0, p.y + 4.0, e.label, {TextStyle::Anchor::start, font, std::string(theme::ink), false, false});
-    }
-    out += "</g>\n";
-  }
-  out += "</svg>\n";
+    if (!t.label.empty()) out += text_element(f.left - 7.0, f.ya.pixel(t.value) + 4.0, t.label, ytick_style);
   return out;
+}
+
+// The x axis title under the tick labels, the y axis title turned to read upwards.
+std::string Chart::render_axis_titles(const Frame& f) const {
+  const TextStyle axis_title{TextStyle::Anchor::middle, 13.0, std::string(theme::ink), false, false};
+  std::string out = text_element((f.left + f.right) / 2.0, f.bottom + 42.0, x_.title, axis_title);
+  out += fmt::format(R"~(<g transform="translate({} {}) rotate(-90)">)~", px(f.left - 62.0), px((f.top + f.bottom) / 2.0));
+  out += text_element(0.0, 0.0, y_.title, axis_title);
+  return out + "</g>\n";
+}
+
+std::string Chart::draw(const Line& l, const Frame& f) {
+  const std::string d = path_data(l.x, l.y, f.xa, f.ya);
+  if (d.empty()) return {};
+  return fmt::format(R"~(<path d="{}" fill="none"{} stroke-linejoin="round" clip-path="url(#{})"/>)~" "\n", d,
+                     stroke_attributes(l.stroke), xml_escape(f.clip));
+}
+
+std::string Chart::draw(const LineGroup& g, const Frame& f) {
+  std::string out = fmt::format(R"~(<g fill="none"{} stroke-linejoin="round" clip-path="url(#{})">)~" "\n",
+                                stroke_attributes(g.stroke), xml_escape(f.clip));
+  for (const auto& y : g.ys) {
+    const std::string d = path_data(g.x, y, f.xa, f.ya);
+    if (!d.empty()) out += fmt::format(R"(<path d="{}"/>)" "\n", d);
+  }
+  return out + "</g>\n";
+}
+
+std::string Chart::draw(const Band& b, const Frame& f) {
+  const double x0 = std::clamp(f.x_px(b.x0), f.left, f.right), x1 = std::clamp(f.x_px(b.x1), f.left, f.right);
+  const double y0 = std::clamp(f.y_px(b.y0), f.top, f.bottom), y1 = std::clamp(f.y_px(b.y1), f.top, f.bottom);
+  if (!std::isfinite(x0 + x1 + y0 + y1)) return {};
+  return fmt::format(R"(<rect x="{}" y="{}" width="{}" height="{}" fill="{}" fill-opacity="{}"/>)" "\n",
+                     px(std::min(x0, x1)), px(std::min(y0, y1)), px(std::fabs(x1 - x0)), px(std::fabs(y1 - y0)),
+                     b.colour, format_number(b.opacity, 3));
+}
+
+std::string Chart::draw(const Segment& s, const Frame& f) {
+  const double x0 = f.x_px(s.x0), y0 = f.y_px(s.y0), x1 = f.x_px(s.x1), y1 = f.y_px(s.y1);
+  if (!std::isfinite(x0 + y0 + x1 + y1)) return {};
+  std::string d = fmt::format("M{} {}L{} {}", px(x0), px(y0), px(x1), px(y1));
+  if (s.caps) {
+    // Bars of 8 px across the segment's direction at both ends.
+    const double len = std::hypot(x1 - x0, y1 - y0);
+    const double nx = len > 0 ? -(y1 - y0) / len * 4.0 : 0.0, ny = len > 0 ? (x1 - x0) / len * 4.0 : 4.0;
+    d += fmt::format("M{} {}L{} {}M{} {}L{} {}", px(x0 - nx), px(y0 - ny), px(x0 + nx), px(y0 + ny),
+                     px(x1 - nx), px(y1 - ny), px(x1 + nx), px(y1 + ny));
+  }
+  return fmt::format(R"(<path d="{}" fill="none"{} stroke-linecap="round"/>)" "\n", d, stroke_attributes(s.stroke));
+}
+
+std::string Chart::draw(const Marker& m, const Frame& f) {
+  const double x = f.xa.pixel(m.x), y = f.ya.pixel(m.y);
+  if (!std::isfinite(x) || !std::isfinite(y)) return {};
+  return marker_element(x, y, m.shape, m.colour, m.size, m.name);
+}
+
+std::string Chart::draw(const Text& t, const Frame& f) {
+  const double x = t.fraction ? f.left + t.x * (f.right - f.left) : f.x_px(t.x);
+  const double y = t.fraction ? f.bottom - t.y * (f.bottom - f.top) : f.y_px(t.y);
+  if (!std::isfinite(x) || !std::isfinite(y)) return {};
+  return text_element(x, y, t.content, kept_inside(x, t.content, t.style, f.left, f.right));
+}
+
+// The legend's rows above the plot area: a stroke sample or a marker, then the label.
+std::string Chart::render_legend(const std::vector<PlacedEntry>& placed) const {
+  if (placed.empty()) return {};
+  std::string out = "<g class=\"legend\">\n";
+  for (const auto& p : placed) {
+    const auto& e = *p.entry;
+    if (e.is_line) {
+      Stroke s = e.stroke;
+      s.width = std::max(s.width, 2.0);
+      s.opacity = std::max(s.opacity, 0.8);
+      out += fmt::format(R"(<path d="M{} {}h22" fill="none"{}/>)" "\n", px(p.x), px(p.y), stroke_attributes(s));
+    } else {
+      out += marker_element(p.x + 11.0, p.y, e.shape, e.stroke.colour, 5.0, "");
+    }
+    out += text_element(p.x + 28.0, p.y + 4.0, e.label, {TextStyle::Anchor::start, kFont, std::string(theme::ink), false, false});
+  }
+  return out + "</g>\n";
 }
 
 }  // namespace peakplan::svg

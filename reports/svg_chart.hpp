@@ -160,6 +160,20 @@ class Chart {
   struct PlacedEntry { double x, y; const LegendEntry* entry; };
   std::vector<PlacedEntry> place_legend() const;
 
+  // render's parts, in the order they are written; each returns its SVG text.
+  struct Frame;
+  std::string render_heading(const Frame& f) const;
+  std::string render_plot_area(const Frame& f) const;
+  std::string render_grid_and_ticks(const Frame& f) const;
+  std::string render_axis_titles(const Frame& f) const;
+  static std::string draw(const Line& l, const Frame& f);
+  static std::string draw(const LineGroup& g, const Frame& f);
+  static std::string draw(const Band& b, const Frame& f);
+  static std::string draw(const Segment& s, const Frame& f);
+  static std::string draw(const Marker& m, const Frame& f);
+  static std::string draw(const Text& t, const Frame& f);
+  std::string render_legend(const std::vector<PlacedEntry>& placed) const;
+
   std::string name_, title_, subtitle_;
   AxisSpec x_, y_;
   std::vector<Element> elements_;

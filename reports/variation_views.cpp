@@ -127,17 +127,36 @@ PlotFile histogram_plot(const std::string& chain_name, const VariationResult& r,
   return {std::string(h.file), std::string(h.title), chart.render()};
 }
 
+// The indices of x (increasing) a plot over [lo, hi] draws: the points inside and one beyond
+// each end, so the curves and the band reach the edges (the chart clips them there).
+std::pair<size_t, size_t> shown_indices(const std::vector<double>& x, double lo, double hi) {
+  size_t first = 0, last = x.empty() ? 0 : x.size() - 1;
+  while (first + 1 < x.size() && x[first + 1] <= lo) ++first;
+  while (last > first && x[last - 1] >= hi) --last;
+  return {first, last};
+}
+
+struct EnvelopeCurves {
+  const std::vector<double>&x, &nominal, &lo, &hi;
+};
+
 PlotFile envelope_plot(const std::string& chain_name, int corners, std::string_view file, std::string_view title,
-                       svg::AxisSpec x_axis, std::string y_title, svg::AxisUnit y_unit, const std::vector<double>& x,
-                       const std::vector<double>& nominal, const std::vector<double>& lo, const std::vector<double>& hi,
+                       svg::AxisSpec x_axis, std::string y_title, svg::AxisUnit y_unit, const EnvelopeCurves& c,
                        double y_floor) {
+  const auto [first, last] = shown_indices(c.x, x_axis.lo, x_axis.hi);
+  auto shown = [&, first = first, last = last](const std::vector<double>& v) {
+    return std::vector<double>(v.begin() + static_cast<std::ptrdiff_t>(first), v.begin() + static_cast<std::ptrdiff_t>(last) + 1);
+  };
+  const auto x = shown(c.x), nominal = shown(c.nominal), lo = shown(c.lo), hi = shown(c.hi);
   double y_lo = std::numeric_limits<double>::infinity(), y_hi = -y_lo;
   for (const auto* v : {&nominal, &lo, &hi})
-    for (double y : *v)
-      if (std::isfinite(y)) {
+    for (size_t k = 0; k < x.size(); ++k) {
+      const double y = (*v)[k];
+      if (std::isfinite(y) && x[k] >= x_axis.lo && x[k] <= x_axis.hi) {
         y_lo = std::min(y_lo, y);
         y_hi = std::max(y_hi, y);
       }
+    }
   y_lo = std::max(y_lo, y_floor);
   const double pad = 0.06 * std::max(y_hi - y_lo, 1e-9);
   svg::Chart chart(std::string(file.substr(0, file.size() - 4)), std::string(title),
@@ -161,21 +180,35 @@ PlotFile envelope_plot(const std::string& chain_name, int corners, std::string_v
   return {std::string(file), std::string(title), chart.render()};
 }
 
+// The step plot's window rule (reports/plots.cpp: 1.3 times the settling time or 3 times the
+// 90 % crossing, whichever is later) applied to the band's slower edges: the last time either
+// edge is outside 1 +- 1 %, and the first time the least edge reaches 0.9.
+double band_step_end(const CornerEnvelope& e) {
+  double settled = 0.0, t90 = 0.0;
+  for (size_t k = 0; k < e.time_s.size(); ++k) {
+    if (std::fabs(e.step_lo[k] - 1.0) > 0.01 || std::fabs(e.step_hi[k] - 1.0) > 0.01) settled = e.time_s[k];
+    if (t90 == 0.0 && e.step_lo[k] >= 0.9) t90 = e.time_s[k];
+  }
+  const double end = std::max(1.3 * settled, 3.0 * t90);
+  return end > e.time_s.front() && end < e.time_s.back() ? end : e.time_s.back();
+}
+
 }  // namespace
 
-std::vector<PlotFile> envelope_plots(const std::string& chain_name, const CornerEnvelope& e) {
+std::vector<PlotFile> envelope_plots(const std::string& chain_name, const CornerEnvelope& e,
+                                     std::pair<double, double> frequency_span) {
   if (e.frequency_hz.size() < 2 || e.time_s.size() < 2) return {};
   std::vector<PlotFile> plots;
   // 60 dB below the nominal DC gain is roll-off enough to compare the corners' edges.
   const double floor_db = e.magnitude_db.front() - 60.0;
   plots.push_back(envelope_plot(chain_name, e.corners, "corners_magnitude.svg", "Magnitude across the process corners",
-                                svg::AxisSpec{"Frequency", svg::AxisUnit{"Hz", true}, svg::Scale::log, e.frequency_hz.front(),
-                                              e.frequency_hz.back()},
-                                "Gain", svg::AxisUnit{"dB", false}, e.frequency_hz, e.magnitude_db, e.magnitude_lo_db,
-                                e.magnitude_hi_db, floor_db));
+                                svg::AxisSpec{"Frequency", svg::AxisUnit{"Hz", true}, svg::Scale::log, frequency_span.first,
+                                              frequency_span.second},
+                                "Gain", svg::AxisUnit{"dB", false},
+                                {e.frequency_hz, e.magnitude_db, e.magnitude_lo_db, e.magnitude_hi_db}, floor_db));
   plots.push_back(envelope_plot(chain_name, e.corners, "corners_step.svg", "Step response across the process corners",
-                                svg::AxisSpec{"Time", svg::AxisUnit{"s", true}, svg::Scale::linear, e.time_s.front(), e.time_s.back()},
-                                "Output \u00f7 DC gain", svg::AxisUnit{"", false}, e.time_s, e.step, e.step_lo, e.step_hi,
+                                svg::AxisSpec{"Time", svg::AxisUnit{"s", true}, svg::Scale::linear, e.time_s.front(), band_step_end(e)},
+                                "Output \u00f7 DC gain", svg::AxisUnit{"", false}, {e.time_s, e.step, e.step_lo, e.step_hi},
                                 -std::numeric_limits<double>::infinity()));
   return plots;
 }

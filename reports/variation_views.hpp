@@ -4,6 +4,7 @@
 #pragma once
 
 #include <string>
+#include <utility>
 #include <vector>
 
 #include "planner/corner_envelope.hpp"
@@ -37,7 +38,9 @@ Histogram histogram(const std::vector<double>& values, int bins);
 std::vector<PlotFile> variation_plots(const std::string& chain_name, const VariationResult& result);
 
 // corners_magnitude.svg and corners_step.svg: the least-to-greatest band over the corners with
-// the nominal curve on top.
-std::vector<PlotFile> envelope_plots(const std::string& chain_name, const CornerEnvelope& envelope);
+// the nominal curve on top. The magnitude is drawn over `frequency_span` (Hz), the span of the
+// chain's other magnitude plot (plotted_frequency_span of the nominal analysis).
+std::vector<PlotFile> envelope_plots(const std::string& chain_name, const CornerEnvelope& envelope,
+                                     std::pair<double, double> frequency_span);
 
 }  // namespace peakplan

@@ -131,8 +131,10 @@ TEST_CASE("browser: chromium renders the demo report with the budget table, ever
   CHECK(spread > 10.0);
 }
 
-// A report with [variation]: the corner and yield tables and the Monte Carlo histograms render.
-TEST_CASE("browser: chromium renders a [variation] report with its corner and yield tables and every histogram") {
+// A report with [variation]: the corner and yield tables, the Monte Carlo histograms and the
+// corner envelopes render.
+TEST_CASE("browser: chromium renders a [variation] report with its corner and yield tables, every histogram and "
+          "both corner envelopes") {
   const std::string chromium = chromium_or_skip();
   if (chromium.empty()) return;
   TempDir dir("peakplan_browser");
@@ -144,9 +146,16 @@ TEST_CASE("browser: chromium renders a [variation] report with its corner and yi
   const std::string page = rendered_dom(chromium, dir.path, url);
   CHECK(page.find("<table id=\"corners\"") != std::string::npos);
   CHECK(page.find("<table id=\"yield\"") != std::string::npos);
-  for (const auto* plot : {"mc_bandwidth", "mc_overshoot", "mc_eye_height"}) {
+  for (const auto* plot : {"mc_bandwidth", "mc_overshoot", "mc_eye_height", "corners_magnitude", "corners_step"}) {
     CHECK_MESSAGE(fs::exists(report / (std::string(plot) + ".svg")), plot);
     CHECK_MESSAGE(page.find("data-plot=\"" + std::string(plot) + "\"") != std::string::npos, "the rendered page has no " << plot);
+  }
+  // Each envelope's band (rectangles in the theme's highlight colour) is in the rendered page.
+  for (const auto* plot : {"corners_magnitude", "corners_step"}) {
+    const auto at = page.find("data-plot=\"" + std::string(plot) + "\"");
+    if (at == std::string::npos) continue;
+    const auto svg = page.substr(at, page.find("</svg>", at) - at);
+    CHECK_MESSAGE(svg.find("fill=\"#e9b73f\"") != std::string::npos, "no band in the rendered " << plot);
   }
 }
 

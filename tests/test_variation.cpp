@@ -196,14 +196,15 @@ seed = 11
 }
 
 TEST_CASE("variation: corners = \"extremes\" of k classes gives 2^k corners plus nominal, each with its own signs") {
-  // Derived: every +- combination of k global spreads.
+  // Derived: every +- combination of k global spreads; with k = 0 there is no combination to add
+  // to the nominal case.
   for (int k = 0; k <= 3; ++k) {
     Variation v;
     const VariationClass classes[] = {VariationClass::gm, VariationClass::inductance, VariationClass::coupling};
     for (int j = 0; j < k; ++j) v.spread(classes[j]).global = 0.05;
     v.spread(VariationClass::resistance).local = 0.02;  // a local spread alone adds no corner
     const auto corners = extreme_corners(v);
-    CHECK(corners.size() == (size_t{1} << k));
+    CHECK(corners.size() == (k == 0 ? 0 : size_t{1} << k));
     std::set<std::string> names;
     for (const auto& c : corners) {
       names.insert(c.name);
@@ -220,6 +221,48 @@ TEST_CASE("variation: corners = \"extremes\" of k classes gives 2^k corners plus
   CHECK(r.corners.front().corner.name == "nominal");
   CHECK(r.corners[1].corner.name == "gm- C- L- R-");
   CHECK(r.corners.back().corner.name == "slow");
+}
+
+TEST_CASE("variation: analyze lists 2^k + 1 cases for k = 1 .. 5 classes with a global spread, and the nominal "
+          "alone for k = 0") {
+  // Derived: corners = "extremes" adds every +- combination of the k global spreads (2^k) to the
+  // nominal case; local spreads add none. A T-coil stage makes coupling an element that moves.
+  const char* spreads[] = {"gm = { global = \"10 %\" }", "capacitance = { global = \"8 %\" }",
+                           "inductance = { global = \"4 %\" }", "resistance = { global = \"15 %\" }",
+                           "coupling = { global = 0.02 }"};
+  for (int k = 0; k <= 5; ++k) {
+    CAPTURE(k);
+    std::string table = "[variation]\nsamples = 1\ncorners = \"extremes\"\nresistance = { local = \"1 %\" }\n";
+    if (k >= 4) table = "[variation]\nsamples = 1\ncorners = \"extremes\"\n";  // resistance then has a global spread
+    for (int j = 0; j < k; ++j) table += std::string(spreads[j]) + "\n";
+    const auto loaded = load(table + R"(
+[[stage]]
+id = "a1"
+kind = "tcoil"
+gm = "30 mS"
+rd = "110 ohm"
+c_in = "30 fF"
+c_out = "20 fF"
+l1 = "150 pH"
+l2 = "150 pH"
+k = 0.5
+cb = "5 fF"
+r_l1 = "2 ohm"
+r_l2 = "2 ohm"
+[[stage]]
+id = "a2"
+kind = "plain"
+gm = "40 mS"
+rd = "60 ohm"
+c_out = "15 fF"
+)");
+    const auto r = analyze_variation(loaded.spec, loaded.chain, {1, std::nullopt, 1, {}});
+    CHECK(r.corners.size() == (k == 0 ? 1u : (size_t{1} << k) + 1));
+    std::set<std::string> names;
+    for (const auto& c : r.corners) names.insert(c.corner.name);
+    CHECK(names.size() == r.corners.size());  // no case listed twice
+    CHECK(r.corners.front().corner.name == "nominal");
+  }
 }
 
 TEST_CASE("variation: a named corner equals analyze --set of the same element values to 1e-12") {
@@ -407,8 +450,9 @@ std::string two_stages_open(const std::string& plan_for) {
   return text;
 }
 
-// Plans `text`, writes the plan, analyzes the written file and returns the analysis document.
-nlohmann::json plan_write_and_analyze(const std::string& text, Plan& plan) {
+// Plans `text`, writes the plan, analyzes the written file and returns the analysis document;
+// `printed`, when given, receives what analyze prints (text) for the written file.
+nlohmann::json plan_write_and_analyze(const std::string& text, Plan& plan, std::string* printed = nullptr) {
   Diagnostics d("corner_plan.toml");
   const auto spec = parse_chain_spec(text, d);
   REQUIRE(spec);
@@ -421,6 +465,11 @@ nlohmann::json plan_write_and_analyze(const std::string& text, Plan& plan) {
   const auto run = run_cli({"analyze", written, "--json", "--samples", "200"});
   INFO(run.err);
   REQUIRE(run.status == 0);
+  if (printed) {
+    const auto shown = run_cli({"analyze", written, "--samples", "200"});
+    REQUIRE(shown.status == 0);
+    *printed = shown.out;
+  }
   return nlohmann::json::parse(run.out);
 }
 
@@ -445,13 +494,25 @@ TEST_CASE("variation: a plan for corners, written and re-analysed, meets every c
   // The planner's own claim checked the way a user would: the written plan (every value fixed,
   // the [variation] table kept) analysed on its own, each corner measured like analyze measures.
   SUBCASE("the shipped T-coil example") {
+    // The README's example: planned for corners, every corner meets every check, and analyze of
+    // the plan prints the corner table and the yield with its interval.
     Plan plan;
-    const auto doc = plan_write_and_analyze(read_file(std::string(PEAKPLAN_SOURCE_DIR) + "/chains/variation_post_amp.toml"), plan);
+    std::string printed;
+    const auto doc = plan_write_and_analyze(read_file(std::string(PEAKPLAN_SOURCE_DIR) + "/chains/variation_post_amp.toml"),
+                                            plan, &printed);
     CHECK(plan.termination == Plan::Termination::met);
     CHECK(plan.for_corners);
     CHECK(plan.corner_count == 10);  // 2^3 extremes of gm, C, R, nominal and "slow"
     CHECK_FALSE(plan.binding_corner.empty());
     check_every_corner_met(doc, 10);
+    CHECK(printed.find("corners (main output; every target and limit checked at each)") != std::string::npos);
+    CHECK(printed.find("10 of 10 corners meet every check") != std::string::npos);
+    CHECK(printed.find("overall (every check)") != std::string::npos);
+    CHECK(printed.find("(95 % Wilson score interval ") != std::string::npos);
+    const auto& ci = doc["variation"]["monte_carlo"]["yield_ci95"];
+    REQUIRE(ci.size() == 2);
+    CHECK(ci[0].get<double>() <= doc["variation"]["monte_carlo"]["overall_yield"].get<double>());
+    CHECK(doc["variation"]["monte_carlo"]["overall_yield"].get<double>() <= ci[1].get<double>());
   }
   SUBCASE("a shunt and a plain stage") {
     Plan plan;
@@ -474,6 +535,29 @@ TEST_CASE("variation: a plan for corners, written and re-analysed, meets every c
     for (const auto& c : nominal_doc["variation"]["corners"]) some_corner_fails = some_corner_fails || c["met"] == false;
     CHECK(some_corner_fails);
   }
+}
+
+TEST_CASE("variation: a corner plan is the same on 1 and 2 threads (written file byte for byte, JSON but its time)") {
+  // Derived: each corner is measured into its own slot (planner/plan_problem.cpp) and combined in
+  // corner order, so the search sees the same numbers whatever the thread count.
+  TempDir dir;
+  const auto path = dir.write("open.toml", two_stages_open("corners"));
+  auto plan_with = [&](const char* threads, const std::string& written) {
+    ::setenv("PEAKPLAN_THREADS", threads, 1);
+    auto run = run_cli({"plan", path, "--json", "--write", written});
+    ::unsetenv("PEAKPLAN_THREADS");
+    INFO(run.err);
+    REQUIRE(run.status == 0);
+    auto doc = nlohmann::json::parse(run.out);
+    REQUIRE(doc.contains("plan_time_s"));
+    doc.erase("plan_time_s");  // wall-clock time, the one thing that may differ
+    return doc;
+  };
+  const auto one = plan_with("1", (dir.path / "one.toml").string());
+  const auto two = plan_with("2", (dir.path / "two.toml").string());
+  CHECK(one == two);
+  CHECK(one["status"] == "met");
+  CHECK(read_file(dir.path / "one.toml") == read_file(dir.path / "two.toml"));
 }
 
 TEST_CASE("variation: plan_for = \"corners\" without a [variation] table is bad input at plan_for") {
@@ -605,4 +689,108 @@ TEST_CASE("variation: the corner envelope a report draws contains the nominal cu
     CHECK(e.step[k] <= e.step_hi[k]);
   }
   CHECK(widest > 1.0);
+}
+
+namespace {
+
+// kPlainStage with its C+ and C- extremes: three cases whose poles sit at f0/1.08, f0 and f0/0.92.
+std::string plain_stage_extremes() {
+  std::string text = kPlainStage;
+  const auto at = text.find("corners = \"none\"");
+  REQUIRE(at != std::string::npos);
+  text.replace(at, 16, "corners = \"extremes\"");
+  return text;
+}
+
+}  // namespace
+
+TEST_CASE("variation: the corner envelope holds every corner at every point of the nominal grid, the first and the "
+          "last included") {
+  // Derived: the plain stage is -gm Rd / (1 + s Rd C), so a corner moving C by the offset o has
+  //   |H(f)| = gm Rd / sqrt(1 + (2 pi f Rd C0 (1 + o))^2)
+  // and, divided by its DC gain, the step 1 - exp(-t / (Rd C0 (1 + o))). The band at each point
+  // must be the least and greatest of the three corners' values there. The C- corner's own
+  // natural span starts above the nominal grid's first point (its pole is higher), so a corner
+  // read off its own grid would be missing there: the check below makes sure of that first.
+  const auto loaded = load(plain_stage_extremes());
+  const auto r = analyze_variation(loaded.spec, loaded.chain, {1, std::nullopt, 1, {}});
+  REQUIRE(r.corners.size() == 3);
+  const auto options = analysis_options(loaded.spec);
+  const auto nominal = analyze_chain(loaded.chain, options);
+  const auto e = corner_envelope(r, loaded.chain, nominal, options);
+  REQUIRE(e.frequency_hz.size() >= 2);
+  REQUIRE(e.time_s.size() >= 2);
+
+  const double gm = 0.02, rd = 100.0, c0 = 50e-15;
+  std::vector<double> offsets;
+  bool some_corner_starts_higher = false;
+  for (const auto& c : r.corners) {
+    offsets.push_back(c.corner.offset[static_cast<size_t>(VariationClass::capacitance)]);
+    const auto own = analyze_chain(apply_variation(loaded.chain, c.corner.draw()), options);
+    some_corner_starts_higher = some_corner_starts_higher ||
+                                own.outputs.back().response.sampled.frequency_hz.front() > e.frequency_hz.front();
+  }
+  CHECK(some_corner_starts_higher);
+
+  auto band_of = [&](auto value) {
+    double lo = INFINITY, hi = -INFINITY;
+    for (double o : offsets) {
+      lo = std::min(lo, value(o));
+      hi = std::max(hi, value(o));
+    }
+    return std::pair{lo, hi};
+  };
+  // The nodal solve of a one-node circuit is exact to rounding (about 1e-15 relative, 1e-14 dB):
+  // 1e-9 dB leaves room and is far below the 0.007 dB the C- corner moves the first point by.
+  for (size_t k = 0; k < e.frequency_hz.size(); ++k) {
+    const double f = e.frequency_hz[k];
+    const auto [lo, hi] = band_of([&](double o) {
+      const double x = 2.0 * std::numbers::pi * f * rd * c0 * (1.0 + o);
+      return 20.0 * std::log10(gm * rd / std::sqrt(1.0 + x * x));
+    });
+    INFO("f = " << f);
+    CHECK(std::fabs(e.magnitude_lo_db[k] - lo) <= 1e-9);
+    CHECK(std::fabs(e.magnitude_hi_db[k] - hi) <= 1e-9);
+  }
+  // The step: each corner's record is read by linear interpolation, whose error is at most
+  // dt^2 max|y''| / 8 = (dt/tau)^2 / 8 <= (12/4000)^2 / 8 = 1.1e-6 (models/step_response.cpp:
+  // dt <= duration/4000, duration = 14 tau); past its own record (14 tau of the C- corner, shorter
+  // than the nominal's) a corner holds its last value, within e^-14 = 8.3e-7 of 1. 1e-5 bounds
+  // both with the time-stepping's own error.
+  for (size_t k = 0; k < e.time_s.size(); ++k) {
+    const double t = e.time_s[k];
+    const auto [lo, hi] = band_of([&](double o) { return 1.0 - std::exp(-t / (rd * c0 * (1.0 + o))); });
+    INFO("t = " << t);
+    CHECK(std::fabs(e.step_lo[k] - lo) <= 1e-5);
+    CHECK(std::fabs(e.step_hi[k] - hi) <= 1e-5);
+  }
+}
+
+TEST_CASE("variation: the report's magnitude envelope spans the frequencies of its magnitude plot") {
+  // Derived: both plots draw the same chain's main output, so a reader lays one over the other;
+  // corners_magnitude.svg is given magnitude.svg's frequency axis (reports/plots.hpp
+  // plotted_frequency_span), which ends at the decade above five times the widest bandwidth,
+  // not at the top of the sampled grid (a decade above the chain's highest root). The demo
+  // chain's T-coil puts that top at 3 THz, past the 1 THz the magnitude plot stops at.
+  TempDir dir;
+  const auto path = dir.write("demo.toml", read_file(std::string(PEAKPLAN_SOURCE_DIR) + "/chains/demo_postamp.toml") +
+                                               "\n[variation]\ncapacitance = { global = \"8 %\" }\n");
+  const auto out = dir.path / "report";
+  const auto run = run_cli({"report", path, "--out", out.string(), "--samples", "20"});
+  INFO(run.err);
+  REQUIRE(run.status == 0);
+  auto x_domain = [&](const char* file) {
+    const auto svg = read_file(out / file);
+    const auto at = svg.find("data-x-domain=\"");
+    REQUIRE(at != std::string::npos);
+    const auto from = at + 15;
+    return svg.substr(from, svg.find('"', from) - from);
+  };
+  const auto envelope = x_domain("corners_magnitude.svg");
+  CHECK(envelope == x_domain("magnitude.svg"));
+  // The sampled grid runs past the axis, so an envelope drawn over its own grid would not match.
+  const auto doc = nlohmann::json::parse(read_file(out / "result.json"));
+  const double grid_top = doc["outputs"].back()["response"]["frequency_hz"].back().get<double>();
+  const double top = std::stod(envelope.substr(envelope.find(' ') + 1));
+  CHECK(grid_top > 2.0 * top);
 }
