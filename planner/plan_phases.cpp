@@ -96,19 +96,29 @@ std::vector<Candidate> search_combinations(SearchContext& context, const std::ve
   return explored;
 }
 
-Candidate global_phase(SearchContext& context, const Problem& p, size_t index, const std::vector<double>* around,
-                       int& evaluations, std::vector<Score>& finals) {
+namespace {
+
+}  // namespace
+
+int near_best(const ChainSpec& spec, const std::vector<Score>& finals) {
+  double best = std::numeric_limits<double>::infinity();
+  for (const auto& s : finals)
+    if (s.feasible()) best = std::min(best, s.objective);
+  const double near = std::max(0.01 * std::fabs(best), objective_tolerance(spec, best));
+  int n = 0;
+  for (const auto& s : finals) n += s.feasible() && s.objective - best <= near;
+  return n;
+}
+
+namespace {
+
+// One batch of the global phase: `count` starts from `seed`, run by successive halving.
+Candidate global_batch(SearchContext& context, const Problem& p, size_t index, const std::vector<double>* around,
+                       int count, unsigned seed, int& evaluations, std::vector<Score>& finals) {
   const int n = static_cast<int>(p.variables().size());
   const auto lo = lower_units(p);
   const auto hi = upper_units(p);
-  // Budgets from the problem size (measured on the planning suite, tests/planning): 12 + n starts
-  // for up to 12 values, 8 past that (the design space then carries the search), each first run
-  // for 6 (n + 2) evaluations; the best quarter continue for 24 (n + 2), then the best half of
-  // those for 36 (n + 2).
-  const int effort = std::max(1, context.options().effort);
-  const int count = effort * (n <= 12 ? 12 + n : 8);
   const int round_budget = 6 * (n + 2);
-  const unsigned seed = context.options().seed + 7919u * static_cast<unsigned>(index);
   // Starts in the per-stage design coordinates (Problem::start_point); without them (no open Rd,
   // gm or designed element) anywhere in the full space.
   const size_t sd = p.start_dimensions();
@@ -156,6 +166,31 @@ Candidate global_phase(SearchContext& context, const Problem& p, size_t index, c
   for (const auto& t : tracks) finals.push_back(t.score);
   const auto& best = tracks[alive.front()];
   return {index, best.u, best.score};
+}
+
+}  // namespace
+
+Candidate global_phase(SearchContext& context, const Problem& p, size_t index, const std::vector<double>* around,
+                       int& evaluations, std::vector<Score>& finals) {
+  // Budgets from the problem size and from the landscape (measured on the planning suite,
+  // tests/planning): a batch is 12 + n starts for up to 12 values, 8 past that (the design space
+  // then carries the search), each first run for 6 (n + 2) evaluations; the best quarter
+  // continue for 24 (n + 2), then the best half of those for 36 (n + 2). When fewer than three
+  // starts agree on the best (near_best), the landscape is rugged and another batch twice the
+  // size of the last is drawn (more starts survive to the long rounds), up to three batches for
+  // up to 12 values.
+  const int n = static_cast<int>(p.variables().size());
+  const int count = std::max(1, context.options().effort) * (n <= 12 ? 12 + n : 8);
+  const int batches = n <= 12 ? 3 : 1;
+  constexpr int kAgreeing = 3;
+  Candidate best;
+  for (int b = 0; b < batches; ++b) {
+    const unsigned seed = context.options().seed + 7919u * static_cast<unsigned>(index) + 104729u * static_cast<unsigned>(b);
+    const auto c = global_batch(context, p, index, around, count << b, seed, evaluations, finals);
+    if (b == 0 || c.score.better_than(best.score)) best = c;
+    if (near_best(context.spec(), finals) >= kAgreeing) break;
+  }
+  return best;
 }
 
 std::vector<Candidate> refine(SearchContext& context, const std::vector<Problem>& problems,
@@ -269,9 +304,7 @@ PlanSpread start_spread(const ChainSpec& spec, const std::vector<Score>& finals)
   const double best = values.front();
   const size_t m = values.size();
   const double median = m % 2 ? values[m / 2] : 0.5 * (values[m / 2 - 1] + values[m / 2]);
-  // Within 1 % of the best objective (flatness, which may be 0: within 0.01).
-  const double near = spec.target.objective == "flattest" ? std::max(0.01 * std::fabs(best), 0.01) : 0.01 * std::fabs(best);
-  for (double v : values) spread.near_best += v - best <= near;
+  spread.near_best = near_best(spec, finals);
   spread.best = objective_in_si(spec, best);
   spread.median = objective_in_si(spec, median);
   return spread;

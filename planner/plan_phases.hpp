@@ -52,6 +52,10 @@ void repair(SearchContext& context, const Problem& p, Candidate& best, FinalChec
 Candidate final_phase(SearchContext& context, const std::vector<Problem>& problems,
                       const std::vector<Candidate>& ranked, FinalChecks& checks, int& evaluations);
 
+// Feasible scores within 1 % of the best objective, or within its tie tolerance when that is
+// wider (flatness: 0.05; plan_search.hpp).
+int near_best(const ChainSpec& spec, const std::vector<Score>& finals);
+
 // The spread of the global phase's starts, in the objective's SI terms (planner.hpp).
 PlanSpread start_spread(const ChainSpec& spec, const std::vector<Score>& finals);
 

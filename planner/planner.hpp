@@ -82,7 +82,7 @@ struct PlanCheck {
 struct PlanSpread {
   int starts = 0;     // 0: no global phase (nothing open)
   int feasible = 0;   // starts that met every target and limit
-  int near_best = 0;  // feasible starts within 1 % of the best (flatness: within 0.01)
+  int near_best = 0;  // feasible starts within 1 % of the best (flatness: within 0.05)
   double best = std::numeric_limits<double>::quiet_NaN();
   double median = std::numeric_limits<double>::quiet_NaN();
 };

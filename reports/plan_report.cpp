@@ -39,7 +39,7 @@ std::string spread_text(const ChainSpec& spec, const PlanSpread& s) {
   const auto unit = objective_unit(spec);
   auto shown = [&](double x) { return unit.empty() ? fmt::format("{:.3f}", x) : format_si(x, unit, 4); };
   return fmt::format("search spread: {} of {} global starts met every target and limit; {} objective best {}, median "
-                     "{}; {} within 1 % of their best\n",
+                     "{}; {} within 1 % of their best (flatness: within 0.05)\n",
                      s.feasible, s.starts, spec.target.objective, shown(s.best), shown(s.median), s.near_best);
 }
 
