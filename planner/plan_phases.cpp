@@ -173,15 +173,13 @@ Candidate global_batch(SearchContext& context, const Problem& p, size_t index, c
 Candidate global_phase(SearchContext& context, const Problem& p, size_t index, const std::vector<double>* around,
                        int& evaluations, std::vector<Score>& finals) {
   // Budgets from the problem size and from the landscape (measured on the planning suite,
-  // tests/planning): a batch is 12 + n starts for up to 12 values, 8 past that (the design space
-  // then carries the search), each first run for 6 (n + 2) evaluations; the best quarter
+  // tests/planning): a batch is 12 + n starts, each first run for 6 (n + 2) evaluations; the best quarter
   // continue for 24 (n + 2), then the best half of those for 36 (n + 2). When fewer than three
   // starts agree on the best (near_best), the landscape is rugged and another batch twice the
-  // size of the last is drawn (more starts survive to the long rounds), up to three batches for
-  // up to 12 values.
+  // size of the last is drawn (more starts survive to the long rounds), up to three batches.
   const int n = static_cast<int>(p.variables().size());
-  const int count = std::max(1, context.options().effort) * (n <= 12 ? 12 + n : 8);
-  const int batches = n <= 12 ? 3 : 1;
+  const int count = std::max(1, context.options().effort) * (12 + n);
+  constexpr int batches = 3;
   constexpr int kAgreeing = 3;
   Candidate best;
   for (int b = 0; b < batches; ++b) {

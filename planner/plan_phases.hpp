@@ -17,7 +17,7 @@ namespace peakplan {
 std::vector<Candidate> search_combinations(SearchContext& context, const std::vector<Problem>& problems,
                                            int& evaluations);
 
-// 2. Global phase over the full space of one combination's open values: a Latin hypercube of
+// 2. Global phase over the full space of one combination's open values (up to 12; planner.cpp): a Latin hypercube of
 //    starts, each a short COBYLA run with the targets and limits as constraints, then successive
 //    halving (the best quarter continue with a smaller step and a larger budget, then the best
 //    half of those). Even starts are independent of the closed-form designs (per-stage gains and

@@ -8,16 +8,21 @@
 //     size and taper, m and zeta), from the closed-form seed (equal gain per stage, maximally
 //     flat shunt peaking, the T-coil conditions), then fixed-seed random design-space starts for
 //     the three most promising combinations;
-//  2. global phase: over the full space of every open value of the most promising combination,
-//     independent of the closed forms: a Latin hypercube of starts (fixed seed), each a short
-//     COBYLA run, then successive halving (the best quarter continue, then the best half of
-//     those). It finds optima no closed-form design is near: unequal stage gains with one stage
-//     peaking hard to equalise another's pole, an asymmetric T-coil;
-//  3. refinement: the best combinations' design-space optima in the full space; the best of
-//     those and of the global phase, with a tie-break towards fewer stages and less current when
-//     the objectives are equal within a tolerance (plan_search.hpp), is polished with small steps;
+//  2. global phase: over the full space of every open value of the most promising combination
+//     (up to 12 values; past that the design space carries the search): a Latin hypercube of
+//     12 + n starts (fixed seed), half drawn per stage independently of the closed forms (each
+//     stage's own gain and peaking anywhere in range), half around the design-space optimum; each
+//     a short COBYLA run, then successive halving (the best quarter continue, then the best half
+//     of those); while fewer than three starts agree on the best, a batch twice the size follows
+//     (three at most). It finds optima no closed-form design is near: unequal stage gains with
+//     one stage peaking hard to equalise another's pole, an asymmetric T-coil;
+//  3. refinement: the best combinations' design-space optima in the full space, ranked with the
+//     global phase's best; the first by the tie-break towards fewer stages and less current when
+//     the objectives are equal within a tolerance (plan_search.hpp) is polished with small steps;
 //  4. final check: the plan measured like analyze measures it; should a limit the search only
-//     just met be missed there, a short repair run at full fidelity follows.
+//     just met be missed there, a short repair run at full fidelity follows, and failing that
+//     the runner-up that meets every check.
+// The spread of the global phase's starts (PlanSpread) says how sure the plan is.
 // Independent pieces (combinations, starts) run on every thread (PEAKPLAN_THREADS) and merge in
 // index order (plan_phases.hpp). When the constraints cannot all be met, COBYLA's merit function
 // still reduces the violation, so an infeasible target yields its best try. Every limit of the
@@ -80,7 +85,7 @@ struct PlanCheck {
 // dimensionless flatness); NaN when none did. Many starts near the best mean a landscape with one
 // clear optimum; few mean the best was hard to find and a longer run might do better.
 struct PlanSpread {
-  int starts = 0;     // 0: no global phase (nothing open)
+  int starts = 0;     // 0: no global phase (nothing open, or more than 12 values)
   int feasible = 0;   // starts that met every target and limit
   int near_best = 0;  // feasible starts within 1 % of the best (flatness: within 0.05)
   double best = std::numeric_limits<double>::quiet_NaN();
