@@ -178,8 +178,12 @@ Candidate global_phase(SearchContext& context, const Problem& p, size_t index, c
   // starts agree on the best (near_best), the landscape is rugged and another batch twice the
   // size of the last is drawn (more starts survive to the long rounds), up to three batches.
   const int n = static_cast<int>(p.variables().size());
-  const int count = std::max(1, context.options().effort) * (12 + n);
-  constexpr int batches = 3;
+  // A plan for corners measures every corner per evaluation (ten chains, say): one batch of
+  // half the starts keeps it near its cost without the global phase (measured on
+  // chains/variation_post_amp.toml).
+  const bool corners = !p.corners().empty();
+  const int count = std::max(1, context.options().effort) * (corners ? (12 + n) / 2 : 12 + n);
+  const int batches = corners ? 1 : 3;
   constexpr int kAgreeing = 3;
   Candidate best;
   for (int b = 0; b < batches; ++b) {
