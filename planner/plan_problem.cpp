@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <fmt/format.h>
 #include <cmath>
+#include <functional>
 #include <limits>
 #include <numbers>
 
@@ -475,6 +476,15 @@ std::vector<double> Problem::expand(const std::vector<double>& z) const {
     if (variables_[v].key == "rd") set(v, stage_gain / std::max(value(u, variables_[v].spec, "gm", 0.02), 1e-6));
     if (variables_[v].key == "tail_current") set(v, std::exp(log_tail));
   }
+  return with_designs(std::move(u), [&](size_t, LoadKind kind) { return factor(kind); });
+}
+
+std::vector<double> Problem::with_designs(std::vector<double> u,
+                                          const std::function<double(size_t, LoadKind)>& factor) const {
+  auto set = [&](size_t v, double x) {
+    const auto& var = variables_[v];
+    if (std::isfinite(x) && (x > 0.0 || !var.log_scale)) u[v] = var.to_unit(std::clamp(x, var.lo, var.hi));
+  };
   // Peaking elements from the published designs, against each stage's actual load (the node
   // capacitances are all they need, so no designs or losses are resolved here).
   const Chain chain = assemble(u);
@@ -487,10 +497,70 @@ std::vector<double> Problem::expand(const std::vector<double>& z) const {
     if (!p || p->role != ParameterRole::element || info.design == DesignFactor::none) continue;
     if (!(info.design_capacitance(c) > 0.0)) continue;
     StageCircuit designed = c;
-    info.apply_design(designed, factor(c.kind));
+    info.apply_design(designed, factor(var.spec, c.kind));
     set(v, designed.*(p->field));
   }
   return u;
+}
+
+size_t Problem::start_dimensions() const {
+  size_t n = 0;
+  for (size_t i = 0; i < spec_.stages.size(); ++i) n += start_axes(i);
+  return n;
+}
+
+int Problem::start_axes(size_t stage) const {
+  const auto& info = load_kind_info(combo_.kinds[stage]);
+  bool open_element = false;
+  for (const auto& v : variables_)
+    open_element = open_element || (v.spec == stage && v.key != "gm" && v.key != "rd");
+  return (variable_index(stage, "rd") >= 0) + (variable_index(stage, "gm") >= 0) +
+         (open_element && info.design != DesignFactor::none);
+}
+
+std::vector<double> Problem::start_point(const std::vector<double>& cube) const {
+  // The peaking drawn log-uniformly over the design range widened kWider times each way: an
+  // equalising stage peaks far harder than any flat design (m = 2.5, say).
+  constexpr double kWider = 2.0;
+  // The seed's bounds and gain share (design_seed) for scaling the drawn gains together.
+  std::vector<double> u(variables_.size());
+  for (size_t v = 0; v < variables_.size(); ++v)
+    u[v] = 0.5 * (variables_[v].to_unit(variables_[v].lo) + variables_[v].to_unit(variables_[v].hi));
+  std::vector<double> log_gain(spec_.stages.size(), 0.0);
+  std::vector<double> factor(spec_.stages.size(), std::numeric_limits<double>::quiet_NaN());
+  size_t k = 0;
+  double drawn_db = 0.0, fixed_db = 0.0;
+  int free_copies = 0;
+  for (size_t i = 0; i < spec_.stages.size(); ++i) {
+    const auto& info = load_kind_info(combo_.kinds[i]);
+    if (const int v = variable_index(i, "gm"); v >= 0) {
+      const auto& var = variables_[static_cast<size_t>(v)];
+      u[static_cast<size_t>(v)] = var.to_unit(var.lo) + cube[k++] * (var.to_unit(var.hi) - var.to_unit(var.lo));
+    }
+    if (variable_index(i, "rd") >= 0) {
+      log_gain[i] = std::log(1.02) + cube[k++] * (std::log(40.0) - std::log(1.02));
+      drawn_db += combo_.counts[i] * to_db(std::exp(log_gain[i]));
+      free_copies += combo_.counts[i];
+    } else {
+      const auto* gm = spec_.stages[i].find("gm");
+      const auto* rd = spec_.stages[i].find("rd");
+      if (gm && gm->is_fixed() && rd && rd->is_fixed()) fixed_db += combo_.counts[i] * to_db(gm->value * rd->value);
+    }
+    if (start_axes(i) > (variable_index(i, "rd") >= 0) + (variable_index(i, "gm") >= 0))
+      factor[i] = std::exp(std::log(kWider * info.design_hi) - cube[k++] * std::log(kWider * kWider * info.design_hi / info.design_lo));
+  }
+  // Unequal gains in the drawn proportions, together making the target gain (or as drawn).
+  const double shift_db = spec_.target.gain_db && free_copies > 0 ? (*spec_.target.gain_db - fixed_db - drawn_db) / free_copies : 0.0;
+  for (size_t v = 0; v < variables_.size(); ++v) {
+    const auto& var = variables_[v];
+    if (var.key != "rd") continue;
+    const double gain = std::exp(log_gain[var.spec]) * from_db(shift_db);
+    const double rd = gain / std::max(value(u, var.spec, "gm", 0.02), 1e-6);
+    u[v] = var.to_unit(std::clamp(rd, var.lo, var.hi));
+  }
+  return with_designs(std::move(u), [&](size_t stage, LoadKind kind) {
+    return std::isfinite(factor[stage]) ? factor[stage] : load_kind_info(kind).design_seed;
+  });
 }
 
 }  // namespace peakplan

@@ -11,6 +11,7 @@
 // space first and then refines every value in the full space.
 #pragma once
 
+#include <functional>
 #include <limits>
 #include <optional>
 #include <string>
@@ -141,6 +142,15 @@ class Problem {
   std::vector<double> design_seed() const;
   std::vector<double> expand(const std::vector<double>& z) const;
 
+  // The global phase's starts, independent of the closed-form seeds: a point of the unit cube
+  // gives, per stage, its own gain (open Rd; the drawn gains scaled together so the chain makes
+  // its gain target, in the drawn proportions), its device size (open gm) and its own normalised
+  // peaking (m or zeta, for a kind with a design and open elements), each anywhere in its range.
+  // Stage gains drawn unequal and peaking drawn per stage reach cross-stage equalisation, which
+  // one shared gain and one factor per kind cannot.
+  size_t start_dimensions() const;
+  std::vector<double> start_point(const std::vector<double>& cube) const;
+
  private:
   // design: the normalised design factor of one kind (design_kind_ says which); tail: one tail
   // current (log) for every stage whose tail current is open.
@@ -149,6 +159,9 @@ class Problem {
   // The chain with element values and node capacitances only (no designs, no Q losses).
   Chain assemble(const std::vector<double>& u) const;
   int variable_index(size_t stage, std::string_view key) const;
+  int start_axes(size_t stage) const;
+  // u with every peaking element of a kind with a design set from factor(spec stage, kind).
+  std::vector<double> with_designs(std::vector<double> u, const std::function<double(size_t, LoadKind)>& factor) const;
   Evaluation measure(const Chain& chain, Fidelity fidelity) const;
   void measure_output_noise(const Chain& chain, const Cascade& cascade, Fidelity fidelity, Evaluation& e) const;
 

@@ -1,22 +1,36 @@
 // Choosing the values a chain file leaves open ("auto", ranges, candidate kinds, counts) so the
 // chain meets its [target] under its [limits], by the [target] objective.
 //
-// Method (deterministic for a given file; NLopt's COBYLA, derivative-free, throughout):
-//  1. global stage: for every combination of the discrete choices (kind, count), a multi-start
-//     in the low-dimensional design space of plan_problem.hpp (stage gain, device size and
-//     taper, m and zeta), from the closed-form seed (equal gain per stage, maximally flat shunt
-//     peaking, the T-coil conditions) and from fixed-seed random points;
-//  2. local stage: the best combinations refined in the full space of every open value, and
-//     polished with small steps;
-//  3. the final plan measured like analyze measures it; should a limit the search only just
-//     met be missed there, a short repair run at full fidelity follows.
-// COBYLA handles the targets and limits as constraints; when they cannot all be met, its merit
-// function still reduces the violation, so an infeasible target yields its best try.
-// Every limit of the returned plan is checked on the full chain response, never on an
-// approximation.
+// Method (deterministic for a given file, whatever the thread count; NLopt's COBYLA,
+// derivative-free, with the targets and limits as its constraints, throughout):
+//  1. combination search: for every combination of the discrete choices (kind, count), a
+//     multi-start in the low-dimensional design space of plan_problem.hpp (stage gain, device
+//     size and taper, m and zeta), from the closed-form seed (equal gain per stage, maximally
+//     flat shunt peaking, the T-coil conditions), then fixed-seed random design-space starts for
+//     the three most promising combinations;
+//  2. global phase: over the full space of every open value of the most promising combination
+//     (up to 12 values; past that the design space carries the search): a Latin hypercube of
+//     12 + n starts (fixed seed), half drawn per stage independently of the closed forms (each
+//     stage's own gain and peaking anywhere in range), half around the design-space optimum; each
+//     a short COBYLA run, then successive halving (the best quarter continue, then the best half
+//     of those); while fewer than three starts agree on the best, a batch twice the size follows
+//     (three at most). It finds optima no closed-form design is near: unequal stage gains with
+//     one stage peaking hard to equalise another's pole, an asymmetric T-coil;
+//  3. refinement: the best combinations' design-space optima in the full space, ranked with the
+//     global phase's best; the first by the tie-break towards fewer stages and less current when
+//     the objectives are equal within a tolerance (plan_search.hpp) is polished with small steps;
+//  4. final check: the plan measured like analyze measures it; should a limit the search only
+//     just met be missed there, a short repair run at full fidelity follows, and failing that
+//     the runner-up that meets every check.
+// The spread of the global phase's starts (PlanSpread) says how sure the plan is.
+// Independent pieces (combinations, starts) run on every thread (PEAKPLAN_THREADS) and merge in
+// index order (plan_phases.hpp). When the constraints cannot all be met, COBYLA's merit function
+// still reduces the violation, so an infeasible target yields its best try. Every limit of the
+// returned plan is checked on the full chain response, never on an approximation.
 #pragma once
 
 #include <functional>
+#include <limits>
 #include <string>
 #include <vector>
 
@@ -32,7 +46,7 @@ namespace peakplan {
 struct PlanProgress {
   int evaluations = 0;
   double seconds = 0.0;
-  std::string stage;          // "design space", "full space", "repair"
+  std::string stage;          // "design space", "global", "full space", "repair"
   bool feasible = false;      // the best so far meets every target and limit (as searched)
   double objective = 0.0;     // of the best so far
 };
@@ -40,6 +54,8 @@ struct PlanProgress {
 struct PlanOptions {
   int starts = 4;             // per combination in the design space: the seed plus random points
   int refined = 2;            // combinations refined in the full space
+  int threads = 0;            // 0: PEAKPLAN_THREADS, else every core; the plan does not depend on it
+  int effort = 1;             // multiplies the global phase's starts (reference runs use 100)
   unsigned seed = 20261202;
   // Called every `progress_every` evaluations and once at the end; may be empty.
   std::function<void(const PlanProgress&)> progress;
@@ -62,6 +78,19 @@ struct PlanCheck {
   bool is_minimum = true;
   double margin = 0.0;  // value - limit for minimums, limit - value for maximums (>= 0 is met)
   bool met = true;
+};
+
+// How sure the plan is: the global phase's starts, each run to its own optimum. `best` and
+// `median` are the objective over the starts that met every target and limit, in the objective's
+// SI terms (widest: bandwidth, Hz; leanest: total gm, S; quietest: input noise, A; flattest: the
+// dimensionless flatness); NaN when none did. Many starts near the best mean a landscape with one
+// clear optimum; few mean the best was hard to find and a longer run might do better.
+struct PlanSpread {
+  int starts = 0;     // 0: no global phase (nothing open, or more than 12 values)
+  int feasible = 0;   // starts that met every target and limit
+  int near_best = 0;  // feasible starts within 1 % of the best (flatness: within 0.05)
+  double best = std::numeric_limits<double>::quiet_NaN();
+  double median = std::numeric_limits<double>::quiet_NaN();
 };
 
 // What the planner chose for one [[stage]] of the file.
@@ -89,6 +118,7 @@ struct Plan {
   double objective = 0.0;
   int evaluations = 0;
   double seconds = 0.0;
+  PlanSpread spread;
   std::string brief() const;
 };
 

@@ -17,6 +17,33 @@ std::string shown(const PlanCheck& c, double x) {
   return format_si(x, c.unit, 4);
 }
 
+nlohmann::json finite_or_null(double x) { return std::isfinite(x) ? nlohmann::json(x) : nlohmann::json(nullptr); }
+
+// The objective's SI unit, as PlanSpread reports it.
+std::string objective_unit(const ChainSpec& spec) {
+  const auto& o = spec.target.objective;
+  return o == "widest" ? "Hz" : o == "leanest" ? "S" : o == "quietest" ? "A" : "";
+}
+
+nlohmann::json spread_json(const ChainSpec& spec, const PlanSpread& s) {
+  if (s.starts == 0) return nullptr;
+  return {{"starts", s.starts},           {"feasible", s.feasible},
+          {"within_1pct", s.near_best},   {"best", finite_or_null(s.best)},
+          {"median", finite_or_null(s.median)}, {"unit", objective_unit(spec)}};
+}
+
+// One line: how sure the plan is.
+std::string spread_text(const ChainSpec& spec, const PlanSpread& s) {
+  if (s.starts == 0) return {};
+  if (s.feasible == 0)
+    return fmt::format("search spread: none of the {} global starts met every target and limit\n", s.starts);
+  const auto unit = objective_unit(spec);
+  auto shown = [&](double x) { return unit.empty() ? fmt::format("{:.3f}", x) : format_si(x, unit, 4); };
+  return fmt::format("search spread: {} of {} global starts met every target and limit; {} objective best {}, median "
+                     "{}; {} within 1 % of their best (flatness: within 0.05)\n",
+                     s.feasible, s.starts, spec.target.objective, shown(s.best), shown(s.median), s.near_best);
+}
+
 }  // namespace
 
 nlohmann::json plan_json(const ChainSpec& spec, const Plan& plan, const ChainAnalysis& analysis) {
@@ -27,6 +54,7 @@ nlohmann::json plan_json(const ChainSpec& spec, const Plan& plan, const ChainAna
   doc["objective"] = spec.target.objective;
   doc["evaluations"] = plan.evaluations;
   doc["plan_time_s"] = plan.seconds;
+  doc["search_spread"] = spread_json(spec, plan.spread);
   doc["checks"] = nlohmann::json::array();
   for (const auto& c : plan.checks)
     doc["checks"].push_back({{"name", c.name}, {"unit", c.unit}, {"value", c.value}, {"limit", c.limit},
@@ -55,7 +83,7 @@ nlohmann::json plan_json(const ChainSpec& spec, const Plan& plan, const ChainAna
 }
 
 std::string plan_text(const ChainSpec& spec, const Plan& plan, const ChainAnalysis& analysis) {
-  std::string out = plan.brief() + "\n\n" + analysis_text(plan.chain, analysis);
+  std::string out = plan.brief() + "\n" + spread_text(spec, plan.spread) + "\n" + analysis_text(plan.chain, analysis);
   if (plan.for_corners) {
     out += fmt::format("\ntargets and limits at nominal and at the worst of {} corners (objective: {}, at the worst "
                        "corner)\n", plan.corner_count, spec.target.objective);

@@ -78,26 +78,40 @@ l = "auto"
 TEST_CASE("planner: n identical first-order stages at a fixed total gain: n near 2 ln A, gain near sqrt(e)") {
   // B. Razavi, Design of Integrated Circuits for Optical Communications, limiting-amplifier
   // chapter (from memory): n_opt -> 2 ln A, stage gain -> sqrt(e). docs/references.md (derived): the
-  // exact optimum for 40 dB is n* = 8.9, best integer 9, and the curve is flat, so 8..10 are accepted.
-  const auto plan = plan_from(R"(
+  // exact optimum for 40 dB is n* = 8.9, best integer 9, and the curve is flat: here 7 copies
+  // give 0.3 % less bandwidth than the best count, within the planner's 0.5 % tie-break towards
+  // fewer stages (planner/plan_search.hpp), so 7..10 are accepted, the plan's bandwidth must be
+  // within that 0.5 % of the best of 8 and 9 copies planned alone, and a smaller count is chosen
+  // only for that reason.
+  const std::string chain = R"(
 [target]
 gain = "40 dB"
 objective = "widest"
 [[stage]]
 id = "g"
 kind = "plain"
-count = { min = 2, max = 12 }
+count = COUNT
 gm = "20 mS"
 rd = "auto"
 c_in = "60 fF"
 c_out = "40 fF"
-)");
+)";
+  auto with = [&](const std::string& count) {
+    std::string text = chain;
+    text.replace(text.find("COUNT"), 5, count);
+    return plan_from(text);
+  };
+  const auto plan = with("{ min = 2, max = 12 }");
   CHECK(plan.termination == Plan::Termination::met);
   const int n = plan.stages[0].count;
-  CHECK(n >= 8);
+  CHECK(n >= 7);
   CHECK(n <= 10);
+  double best = 0.0;
+  for (const char* count : {"8", "9"}) best = std::max(best, main_metrics(with(count).chain).bandwidth_hz);
+  CHECK(main_metrics(plan.chain).bandwidth_hz >= (1.0 - 0.005) * best);
+  // derived: identical stages share the 40 dB equally, A^(1/n) each (1.65 = sqrt(e) at n = 9.2).
   const double stage_gain = plan.chain.stages[0].circuit.gm * plan.chain.stages[0].circuit.rd;
-  CHECK(stage_gain == doctest::Approx(std::sqrt(std::exp(1.0))).epsilon(0.05));
+  CHECK(stage_gain == doctest::Approx(std::pow(100.0, 1.0 / n)).epsilon(1e-3));
   CHECK(to_db(main_metrics(plan.chain).dc_gain) == doctest::Approx(40.0).epsilon(1e-3));
 }
 

@@ -1,0 +1,72 @@
+// The long runs behind the planning reference suite (tests/planning/*.ref), not a test: plans a
+// problem file with the global phase's starts multiplied by --effort, once per seed, and prints
+// each run's objective (bandwidth in Hz for widest, total gm in S for leanest), the best, the
+// spread over the seeds and what it cost. make_references.sh drives it and writes the .ref files.
+//
+//   peakplan_plan_reference PROBLEM.toml [--effort N] [--seeds N]
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+#include <cstdlib>
+#include <cstring>
+#include <string>
+#include <vector>
+
+#include "models/analysis.hpp"
+#include "planner/overrides.hpp"
+#include "planner/planner.hpp"
+
+int main(int argc, char** argv) {
+  if (argc < 2) {
+    std::fprintf(stderr, "usage: %s PROBLEM.toml [--effort N] [--seeds N]\n", argv[0]);
+    return 2;
+  }
+  const std::string path = argv[1];
+  int effort = 100, seeds = 4;
+  for (int i = 2; i + 1 < argc; i += 2) {
+    if (!std::strcmp(argv[i], "--effort")) effort = std::atoi(argv[i + 1]);
+    if (!std::strcmp(argv[i], "--seeds")) seeds = std::atoi(argv[i + 1]);
+  }
+  peakplan::Diagnostics d(path);
+  const auto spec = peakplan::load_chain_spec(path, d);
+  if (!spec) {
+    std::fprintf(stderr, "%s: cannot read\n", path.c_str());
+    return 2;
+  }
+  const bool lean = spec->target.objective == "leanest";
+  std::vector<double> values;
+  std::string best_toml;
+  int evaluations = 0;
+  double seconds = 0.0;
+  for (int s = 0; s < seeds; ++s) {
+    peakplan::PlanOptions options;
+    options.effort = effort;
+    options.seed = 1000u + 7u * static_cast<unsigned>(s);
+    peakplan::Diagnostics pd(path);
+    const auto plan = peakplan::plan_chain(*spec, pd, options);
+    if (!plan || plan->termination != peakplan::Plan::Termination::met) {
+      std::printf("seed %u: not met\n", options.seed);
+      continue;
+    }
+    const auto m = peakplan::frequency_metrics(peakplan::output_cascade(plan->chain, plan->chain.outputs().back()));
+    const double v = lean ? peakplan::total_gm(plan->chain) : m.bandwidth_hz;
+    if (values.empty() || (lean ? v < *std::min_element(values.begin(), values.end())
+                                : v > *std::max_element(values.begin(), values.end())))
+      best_toml = peakplan::planned_chain_toml(*spec, *plan);
+    values.push_back(v);
+    evaluations += plan->evaluations;
+    seconds += plan->seconds;
+    std::printf("seed %u: %.6g (%d evaluations)\n", options.seed, v, plan->evaluations);
+  }
+  if (values.empty()) return 1;
+  double best = values.front(), worst = values.front();
+  for (double v : values) {
+    best = lean ? std::min(best, v) : std::max(best, v);
+    worst = lean ? std::max(worst, v) : std::min(worst, v);
+  }
+  std::printf("reference %.6g\nspread %.4f %%\nevaluations %d\nseconds %.1f\n", best,
+              100.0 * std::fabs(best - worst) / best, evaluations, seconds);
+  // The best plan itself, for whoever wants to see where the optimum lies.
+  std::fputs(best_toml.c_str(), stderr);
+  return 0;
+}
