@@ -9,6 +9,8 @@
 #include "models/step_response.hpp"
 
 namespace peakplan {
+
+std::string_view to_string(Modulation modulation) { return modulation == Modulation::pam4 ? "pam4" : "nrz"; }
 namespace {
 
 constexpr double kTie = 1e-9;  // heights closer than this are treated as equal

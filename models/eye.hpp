@@ -23,6 +23,8 @@
 namespace peakplan {
 
 enum class Modulation { nrz, pam4 };
+// "nrz" or "pam4", as the chain file writes it.
+std::string_view to_string(Modulation modulation);
 
 struct Signal {
   double bit_rate = 0.0;                  // b/s, > 0

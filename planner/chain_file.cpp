@@ -287,13 +287,14 @@ void read_signal(Reader& reader, const toml::table& root, ChainSpec& spec) {
     reader.error(position(t->source()), "[signal]: missing bit_rate, e.g. bit_rate = \"56 Gb/s\"");
   }
   if (const auto* n = t->get("modulation"))
-    if (auto w = reader.word(*n, kModulations, "[signal] modulation")) signal.modulation = *w;
-  if (in_baud && signal.modulation == "pam4") signal.bit_rate *= 2.0;  // two bits per PAM4 symbol
+    if (auto w = reader.word(*n, kModulations, "[signal] modulation"))
+      signal.modulation = *w == "pam4" ? Modulation::pam4 : Modulation::nrz;
+  if (in_baud && signal.modulation == Modulation::pam4) signal.bit_rate *= 2.0;  // two bits per PAM4 symbol
   if (const auto* n = t->get("pattern"))
     if (auto w = reader.word(*n, kPatterns, "[signal] pattern")) {
       // PRBS13Q is PRBS13 taken two bits at a time into Gray-coded PAM4 symbols, which is what
       // pattern = "prbs13" gives under PAM4: the same symbols, and a PAM4 pattern only.
-      if (*w == "prbs13q" && signal.modulation != "pam4")
+      if (*w == "prbs13q" && signal.modulation != Modulation::pam4)
         reader.error(*n, "[signal] pattern \"prbs13q\" is a PAM4 pattern: set modulation = \"pam4\", or use "
                          "\"prbs13\" for NRZ");
       signal.pattern = *w == "prbs13q" ? "prbs13" : *w;
@@ -349,7 +350,7 @@ void read_target(Reader& reader, const toml::table& root, ChainSpec& spec) {
   }
   if (const auto* n = t->get("objective")) {
     spec.target.objective_where = position(n->source());
-    if (auto w = reader.word(*n, kObjectives, "[target] objective")) spec.target.objective = *w;
+    if (auto w = reader.word(*n, kObjectives, "[target] objective")) spec.target.objective = *objective_from_name(*w);
   }
   if (const auto* n = t->get("plan_for")) {  // docs/physics.md (process variation)
     spec.target.plan_for_where = position(n->source());
@@ -886,6 +887,22 @@ std::optional<ChainSpec> read_document(const toml::table& root, Diagnostics& dia
 }
 
 }  // namespace
+
+std::string_view to_string(Objective objective) {
+  switch (objective) {
+    case Objective::flattest: return "flattest";
+    case Objective::widest: return "widest";
+    case Objective::leanest: return "leanest";
+    case Objective::quietest: return "quietest";
+  }
+  return "flattest";
+}
+
+std::optional<Objective> objective_from_name(std::string_view name) {
+  for (auto o : {Objective::flattest, Objective::widest, Objective::leanest, Objective::quietest})
+    if (to_string(o) == name) return o;
+  return std::nullopt;
+}
 
 const Adjustable* StageSpec::find(std::string_view key) const {
   const auto it = values.find(key);

@@ -9,6 +9,7 @@
 #include <string>
 #include <vector>
 
+#include "models/eye.hpp"
 #include "models/load_kinds.hpp"
 #include "planner/diagnostics.hpp"
 #include "planner/variation_spec.hpp"
@@ -62,6 +63,12 @@ struct TechnologySpec {
   double temperature = 300.0;
 };
 
+// What a plan optimises ([target] objective; docs/chain-format.md): the least overshoot and
+// group-delay ripple, the most bandwidth, the least total gm, the least input-referred noise.
+enum class Objective { flattest, widest, leanest, quietest };
+std::string_view to_string(Objective objective);
+std::optional<Objective> objective_from_name(std::string_view name);
+
 struct TargetSpec {
   std::optional<double> gain_db;         // a minimum
   SourcePosition gain_where;
@@ -74,7 +81,7 @@ struct TargetSpec {
   SourcePosition objective_where;
   std::optional<double> bandwidth;       // Hz, a minimum
   std::optional<double> gain_bandwidth;  // Hz
-  std::string objective = "flattest";
+  Objective objective = Objective::flattest;
   std::string plan_for = "nominal";  // or "corners": every check at every [variation] corner
   SourcePosition plan_for_where;     // or "yield": at the corners the yield target implies
   std::optional<double> yield;       // fraction in (0, 1), for plan_for = "yield"
@@ -113,7 +120,7 @@ struct LimitsSpec {
 
 struct SignalSpec {
   double bit_rate = 0.0;
-  std::string modulation = "nrz";
+  Modulation modulation = Modulation::nrz;
   std::string pattern = "prbs7";
   std::optional<double> input_rise;  // s, 20-80 %
   std::optional<double> swing;       // V at the input

@@ -274,7 +274,7 @@ void check_current_input(const ChainSpec& spec, const std::vector<GraphStage>& g
     const std::string needs = " is a receiver's target: the chain must start with a tia stage (and a photodiode)";
     if (target.transimpedance) diagnostics.error(target.transimpedance_where, "[target] transimpedance" + needs);
     if (target.sensitivity_w) diagnostics.error(target.sensitivity_where, "[target] sensitivity" + needs);
-    if (target.objective == "quietest")
+    if (target.objective == Objective::quietest)
       diagnostics.error(target.objective_where, "[target] objective \"quietest\" (the least input-referred noise "
                                                 "current)" + needs);
     return;
@@ -484,7 +484,7 @@ AnalysisOptions analysis_options(const ChainSpec& spec, int points) {
   if (spec.signal) {
     Signal signal;
     signal.bit_rate = spec.signal->bit_rate;
-    signal.modulation = spec.signal->modulation == "pam4" ? Modulation::pam4 : Modulation::nrz;
+    signal.modulation = spec.signal->modulation;
     signal.pattern = prbs_from_name(spec.signal->pattern).value_or(PrbsKind::prbs7);
     signal.input_rise = spec.signal->input_rise.value_or(0.0);
     signal.swing = spec.signal->swing.value_or(1.0);

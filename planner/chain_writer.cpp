@@ -32,7 +32,7 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
   if (spec.signal) {
     const auto& s = *spec.signal;
     out += "\n[signal]\n" + number_line("bit_rate", s.bit_rate, "b/s");
-    out += "modulation = " + toml_basic_string(s.modulation) + "\npattern = " + toml_basic_string(s.pattern) + "\n";
+    out += "modulation = " + toml_basic_string(std::string(to_string(s.modulation))) + "\npattern = " + toml_basic_string(s.pattern) + "\n";
     if (s.input_rise) out += number_line("input_rise", *s.input_rise, "s");
     if (s.swing) out += number_line("swing", *s.swing, "V");
     out += "target_ber = " + toml_number(s.target_ber) + "\n";
@@ -47,7 +47,7 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
     if (t.bandwidth) out += number_line("bandwidth", *t.bandwidth, "Hz");
     if (t.gain_bandwidth) out += number_line("gain_bandwidth", *t.gain_bandwidth, "Hz");
     if (t.output_swing) out += number_line("output_swing", *t.output_swing, "V");
-    out += "objective = " + toml_basic_string(t.objective) + "\n";
+    out += "objective = " + toml_basic_string(std::string(to_string(t.objective))) + "\n";
     if (t.plan_for != "nominal") out += "plan_for = " + toml_basic_string(t.plan_for) + "\n";
     if (t.yield) out += "yield = " + toml_percent(*t.yield) + "\n";
   }

@@ -127,7 +127,7 @@ Measured as_measured(const Evaluation& e) {
 }
 
 bool needs_input_noise(const ChainSpec& spec) {
-  return spec.target.sensitivity_w.has_value() || spec.target.objective == "quietest";
+  return spec.target.sensitivity_w.has_value() || spec.target.objective == Objective::quietest;
 }
 
 bool needs_large_signal(const ChainSpec& spec) {
@@ -145,7 +145,7 @@ LargeSignalEye plan_large_signal_eye(const Chain& chain, const Signal& signal, F
 namespace {
 
 bool needs_step(const ChainSpec& spec) {
-  return spec.limits.overshoot.has_value() || spec.target.objective == "flattest";
+  return spec.limits.overshoot.has_value() || spec.target.objective == Objective::flattest;
 }
 
 }  // namespace

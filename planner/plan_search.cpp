@@ -21,10 +21,12 @@ std::vector<double> plan_violations(const ChainSpec& spec, const Evaluation& e) 
 }
 
 double plan_objective(const ChainSpec& spec, const Evaluation& e) {
-  const auto& name = spec.target.objective;
-  if (name == "widest") return -(std::isfinite(e.f.bandwidth_hz) ? e.f.bandwidth_hz / 1e9 : 0.0);
-  if (name == "leanest") return e.total_gm * 1e3;
-  if (name == "quietest") return std::isfinite(e.input_noise_rms_a) ? e.input_noise_rms_a * 1e6 : 1e6;  // uA
+  switch (spec.target.objective) {
+    case Objective::widest: return -(std::isfinite(e.f.bandwidth_hz) ? e.f.bandwidth_hz / 1e9 : 0.0);
+    case Objective::leanest: return e.total_gm * 1e3;
+    case Objective::quietest: return std::isfinite(e.input_noise_rms_a) ? e.input_noise_rms_a * 1e6 : 1e6;  // uA
+    case Objective::flattest: break;
+  }
   // flattest: overshoot and group-delay ripple, each against its limit (or 1 % and 1 ps).
   const double os_scale = spec.limits.overshoot ? std::max(100.0 * *spec.limits.overshoot, 0.1) : 1.0;
   const double gd_scale = spec.limits.group_delay_ripple ? std::max(*spec.limits.group_delay_ripple, 1e-13) : 1e-12;
@@ -32,10 +34,12 @@ double plan_objective(const ChainSpec& spec, const Evaluation& e) {
 }
 
 double objective_in_si(const ChainSpec& spec, double objective) {
-  const auto& name = spec.target.objective;
-  if (name == "widest") return -objective * 1e9;
-  if (name == "leanest") return objective * 1e-3;
-  if (name == "quietest") return objective * 1e-6;
+  switch (spec.target.objective) {
+    case Objective::widest: return -objective * 1e9;
+    case Objective::leanest: return objective * 1e-3;
+    case Objective::quietest: return objective * 1e-6;
+    case Objective::flattest: break;
+  }
   return objective;
 }
 
@@ -44,7 +48,7 @@ double objective_in_si(const ChainSpec& spec, double objective) {
 // and the one with fewer stages and less current is the one to build (common practice).
 double objective_tolerance(const ChainSpec& spec, double objective) {
   const double relative = 0.005 * std::fabs(objective);
-  return spec.target.objective == "flattest" ? std::max(relative, 0.05) : relative;
+  return spec.target.objective == Objective::flattest ? std::max(relative, 0.05) : relative;
 }
 
 size_t tie_break(const ChainSpec& spec, const std::vector<Candidate>& candidates, const std::vector<int>& copies) {

@@ -39,7 +39,7 @@ double sensitivity_power(const ChainSpec& spec, double input_noise_rms_a) {
   const double er = s.extinction_ratio_db ? std::pow(10.0, *s.extinction_ratio_db / 10.0)
                                           : std::numeric_limits<double>::infinity();
   return optical_sensitivity(input_noise_rms_a, spec.photodiode->responsivity, q_from_ber(s.target_ber), er,
-                             s.modulation == "pam4" ? Modulation::pam4 : Modulation::nrz)
+                             s.modulation)
       .average_w;
 }
 

@@ -21,8 +21,13 @@ nlohmann::json finite_or_null(double x) { return std::isfinite(x) ? nlohmann::js
 
 // The objective's SI unit, as PlanSpread reports it.
 std::string objective_unit(const ChainSpec& spec) {
-  const auto& o = spec.target.objective;
-  return o == "widest" ? "Hz" : o == "leanest" ? "S" : o == "quietest" ? "A" : "";
+  switch (spec.target.objective) {
+    case Objective::widest: return "Hz";
+    case Objective::leanest: return "S";
+    case Objective::quietest: return "A";
+    case Objective::flattest: break;
+  }
+  return "";
 }
 
 nlohmann::json spread_json(const ChainSpec& spec, const PlanSpread& s) {
@@ -40,8 +45,9 @@ std::string spread_text(const ChainSpec& spec, const PlanSpread& s) {
   const auto unit = objective_unit(spec);
   auto shown = [&](double x) { return unit.empty() ? fmt::format("{:.3f}", x) : format_si(x, unit, 4); };
   return fmt::format("search spread: {} of {} global starts met every target and limit; {} objective best {}, median "
-                     "{}; {} within 1 % of their best (flatness: within 0.05)\n",
-                     s.feasible, s.starts, spec.target.objective, shown(s.best), shown(s.median), s.near_best);
+                     "{}; {} within {} of their best\n",
+                     s.feasible, s.starts, to_string(spec.target.objective), shown(s.best), shown(s.median), s.near_best,
+                     spec.target.objective == Objective::flattest ? "0.05 (flatness)" : "1 %");
 }
 
 }  // namespace
@@ -51,7 +57,7 @@ nlohmann::json plan_json(const ChainSpec& spec, const Plan& plan, const ChainAna
   doc["status"] = plan.termination == Plan::Termination::met ? "met" : "not_met";
   doc["message"] = plan.message;
   doc["binding"] = plan.binding.empty() ? nlohmann::json(nullptr) : nlohmann::json(plan.binding);  // null: nothing to choose
-  doc["objective"] = spec.target.objective;
+  doc["objective"] = std::string(to_string(spec.target.objective));
   doc["evaluations"] = plan.evaluations;
   doc["plan_time_s"] = plan.seconds;
   doc["search_spread"] = spread_json(spec, plan.spread);
@@ -86,7 +92,7 @@ std::string plan_text(const ChainSpec& spec, const Plan& plan, const ChainAnalys
   std::string out = plan.brief() + "\n" + spread_text(spec, plan.spread) + "\n" + analysis_text(plan.chain, analysis);
   if (plan.for_corners) {
     out += fmt::format("\ntargets and limits at nominal and at the worst of {} corners (objective: {}, at the worst "
-                       "corner)\n", plan.corner_count, spec.target.objective);
+                       "corner)\n", plan.corner_count, to_string(spec.target.objective));
     out += fmt::format("  {:<20} {:>12} {:>12} {:>12} {:>12}  {:<16}  {}\n", "check", "required", "nominal", "worst",
                        "margin", "worst corner", "");
     for (size_t i = 0; i < plan.checks.size(); ++i) {
@@ -99,7 +105,7 @@ std::string plan_text(const ChainSpec& spec, const Plan& plan, const ChainAnalys
     if (plan.checks.empty()) out += "  (the file sets no [target] or [limits])\n";
     return out;
   }
-  out += fmt::format("\ntargets and limits (objective: {})\n", spec.target.objective);
+  out += fmt::format("\ntargets and limits (objective: {})\n", to_string(spec.target.objective));
   out += fmt::format("  {:<20} {:>12} {:>14} {:>14}  {}\n", "check", "required", "achieved", "margin", "");
   for (const auto& c : plan.checks)
     out += fmt::format("  {:<20} {:>12} {:>14} {:>14}  {}{}\n", c.name, (c.is_minimum ? ">= " : "<= ") + shown(c, c.limit),

@@ -28,7 +28,7 @@ c_load = "40 fF"
 
 TEST_CASE("chain values: enumerations are case-insensitive and read as their lower-case names") {
   const auto spec = spec_of("[signal]\nbit_rate = \"56 Gb/s\"\nmodulation = \"PAM4\"\npattern = \"PRBS15\"\n");
-  CHECK(spec.signal->modulation == "pam4");
+  CHECK(spec.signal->modulation == peakplan::Modulation::pam4);
   CHECK(spec.signal->pattern == "prbs15");
   CHECK(spec.stages.front().kinds.front() == peakplan::load_kind_from_name("plain"));
 }
@@ -48,7 +48,7 @@ TEST_CASE("chain values: PRBS13, and PRBS13Q for PAM4, the usual PAM4 test patte
   // PAM4 is here: the two names read the same.
   const auto q = spec_of("[signal]\nbit_rate = \"53.125 GBd\"\nmodulation = \"pam4\"\npattern = \"PRBS13Q\"\n");
   CHECK(q.signal->pattern == "prbs13");
-  CHECK(q.signal->modulation == "pam4");
+  CHECK(q.signal->modulation == peakplan::Modulation::pam4);
 }
 
 TEST_CASE("chain values: a swing may be written in mVpp or mVppd; it is the differential peak-to-peak either way") {

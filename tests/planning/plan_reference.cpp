@@ -33,7 +33,7 @@ int main(int argc, char** argv) {
     std::fprintf(stderr, "%s: cannot read\n", path.c_str());
     return 2;
   }
-  const bool lean = spec->target.objective == "leanest";
+  const bool lean = spec->target.objective == peakplan::Objective::leanest;
   std::vector<double> values;
   std::string best_toml;
   int evaluations = 0;
