@@ -4,8 +4,8 @@
 
 #include "models/units.hpp"
 #include "planner/planner.hpp"
-#include "planner/toml_text.hpp"
-#include "planner/variation_file.hpp"
+#include "planner/input/toml_text.hpp"
+#include "planner/input/variation_file.hpp"
 
 namespace peakplan {
 namespace {
@@ -85,9 +85,9 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan) {
   if (spec.variation) out += variation_toml(*spec.variation);
 
   for (const auto& planned : plan.stages) {
-    const auto& s = spec.stages[planned.spec];
+    const auto& s = spec.stages[planned.table];
     size_t first = 0;
-    while (plan.graph[first].spec != planned.spec) ++first;
+    while (plan.graph[first].table != planned.table) ++first;
     const auto& stage = plan.chain.stages[first];
     const auto& c = stage.circuit;
     out += "\n[[stage]]\nid = " + toml_basic_string(s.id) + "\nkind = " + toml_basic_string(to_string(planned.kind)) + "\n";

@@ -241,7 +241,7 @@ Problem::Problem(const ChainSpec& spec, Combination combo, std::vector<GraphStag
   for (const auto& info : all_load_kinds()) {
     if (info.design == DesignFactor::none) continue;
     const bool open = any([&](const Variable& v) {
-      return combo_.kinds[v.spec] == info.kind && v.key != "gm" && v.key != "rd";
+      return combo_.kinds[v.table] == info.kind && v.key != "gm" && v.key != "rd";
     });
     if (!open) continue;
     add(Axis::design, info.design_lo, info.design_hi);
@@ -272,14 +272,14 @@ Problem::Problem(const ChainSpec& spec, Combination combo, std::vector<GraphStag
 
 int Problem::variable_index(size_t stage, std::string_view key) const {
   for (size_t v = 0; v < variables_.size(); ++v)
-    if (variables_[v].spec == stage && variables_[v].key == key) return static_cast<int>(v);
+    if (variables_[v].table == stage && variables_[v].key == key) return static_cast<int>(v);
   return -1;
 }
 
 double Problem::value(const std::vector<double>& u, size_t stage, std::string_view key, double fallback) const {
   if (const int v = variable_index(stage, key); v >= 0) return variables_[static_cast<size_t>(v)].to_value(u[static_cast<size_t>(v)]);
   for (const auto& p : pinned_)
-    if (p.spec == stage && p.key == key) return p.lo;
+    if (p.table == stage && p.key == key) return p.lo;
   const auto* a = spec_.stages[stage].find(key);
   return a && a->is_fixed() ? a->value : fallback;
 }
@@ -309,9 +309,9 @@ Chain Problem::assemble(const std::vector<double>& u) const {
   // An open tail current, raised where needed to the least that gives the stage's gm.
   for (size_t k = 0; k < graph_.size(); ++k) {
     auto& stage = chain.stages[k];
-    if (!stage.limit || variable_index(graph_[k].spec, "tail_current") < 0) continue;
+    if (!stage.limit || variable_index(graph_[k].table, "tail_current") < 0) continue;
     const double least = stage.circuit.gm / max_pair_gm(1.0, spec_.technology.temperature);
-    stage.limit->tail_current = std::max(value(u, graph_[k].spec, "tail_current", 0.0), least * (1.0 + 1e-9));
+    stage.limit->tail_current = std::max(value(u, graph_[k].table, "tail_current", 0.0), least * (1.0 + 1e-9));
   }
   return chain;
 }
@@ -473,7 +473,7 @@ std::vector<double> Problem::expand(const std::vector<double>& z) const {
     set(sized[n], std::exp(log_size + taper * x));
   }
   for (size_t v = 0; v < variables_.size(); ++v) {
-    if (variables_[v].key == "rd") set(v, stage_gain / std::max(value(u, variables_[v].spec, "gm", 0.02), 1e-6));
+    if (variables_[v].key == "rd") set(v, stage_gain / std::max(value(u, variables_[v].table, "gm", 0.02), 1e-6));
     if (variables_[v].key == "tail_current") set(v, std::exp(log_tail));
   }
   return with_designs(std::move(u), [&](size_t, LoadKind kind) { return factor(kind); });
@@ -490,14 +490,14 @@ std::vector<double> Problem::with_designs(std::vector<double> u,
   const Chain chain = assemble(u);
   for (size_t v = 0; v < variables_.size(); ++v) {
     const auto& var = variables_[v];
-    const auto stage = std::find_if(graph_.begin(), graph_.end(), [&](const GraphStage& g) { return g.spec == var.spec; });
+    const auto stage = std::find_if(graph_.begin(), graph_.end(), [&](const GraphStage& g) { return g.table == var.table; });
     const auto& c = chain.stages[static_cast<size_t>(stage - graph_.begin())].circuit;
     const auto& info = load_kind_info(c.kind);
     const auto* p = find_parameter(info, var.key);
     if (!p || p->role != ParameterRole::element || info.design == DesignFactor::none) continue;
     if (!(info.design_capacitance(c) > 0.0)) continue;
     StageCircuit designed = c;
-    info.apply_design(designed, factor(var.spec, c.kind));
+    info.apply_design(designed, factor(var.table, c.kind));
     set(v, designed.*(p->field));
   }
   return u;
@@ -513,7 +513,7 @@ int Problem::start_axes(size_t stage) const {
   const auto& info = load_kind_info(combo_.kinds[stage]);
   bool open_element = false;
   for (const auto& v : variables_)
-    open_element = open_element || (v.spec == stage && v.key != "gm" && v.key != "rd");
+    open_element = open_element || (v.table == stage && v.key != "gm" && v.key != "rd");
   return (variable_index(stage, "rd") >= 0) + (variable_index(stage, "gm") >= 0) +
          (open_element && info.design != DesignFactor::none);
 }
@@ -554,8 +554,8 @@ std::vector<double> Problem::start_point(const std::vector<double>& cube) const 
   for (size_t v = 0; v < variables_.size(); ++v) {
     const auto& var = variables_[v];
     if (var.key != "rd") continue;
-    const double gain = std::exp(log_gain[var.spec]) * from_db(shift_db);
-    const double rd = gain / std::max(value(u, var.spec, "gm", 0.02), 1e-6);
+    const double gain = std::exp(log_gain[var.table]) * from_db(shift_db);
+    const double rd = gain / std::max(value(u, var.table, "gm", 0.02), 1e-6);
     u[v] = var.to_unit(std::clamp(rd, var.lo, var.hi));
   }
   return with_designs(std::move(u), [&](size_t stage, LoadKind kind) {

@@ -23,15 +23,15 @@
 #include "models/large_signal.hpp"
 #include "models/step_response.hpp"
 #include "models/variation.hpp"
-#include "planner/chain_file.hpp"
-#include "planner/chain_graph.hpp"
+#include "planner/input/chain_file.hpp"
+#include "planner/input/chain_graph.hpp"
 #include "planner/requirements.hpp"
 
 namespace peakplan {
 
 // One open element value, searched in log space when it is a magnitude.
 struct Variable {
-  size_t spec = 0;
+  size_t table = 0;  // the [[stage]] table: an index into ChainSpec::stages
   std::string key;
   double lo = 0.0, hi = 0.0;
   bool log_scale = false;

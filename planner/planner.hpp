@@ -37,8 +37,8 @@
 #include "models/analysis.hpp"
 #include "models/chain.hpp"
 #include "models/large_signal.hpp"
-#include "planner/chain_file.hpp"
-#include "planner/chain_graph.hpp"
+#include "planner/input/chain_file.hpp"
+#include "planner/input/chain_graph.hpp"
 
 namespace peakplan {
 
@@ -46,7 +46,7 @@ namespace peakplan {
 struct PlanProgress {
   int evaluations = 0;
   double seconds = 0.0;
-  std::string stage;          // "design space", "global", "full space", "repair"
+  std::string phase;          // of the search: "design space", "global", "full space", "repair"
   bool feasible = false;      // the best so far meets every target and limit (as searched)
   double objective = 0.0;     // of the best so far
 };
@@ -95,7 +95,7 @@ struct PlanSpread {
 
 // What the planner chose for one [[stage]] of the file.
 struct PlannedStage {
-  size_t spec = 0;
+  size_t table = 0;  // the [[stage]] table: an index into ChainSpec::stages
   LoadKind kind{};  // set by whoever fills it
   int count = 1;
 };

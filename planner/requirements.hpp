@@ -9,7 +9,7 @@
 
 #include "models/frequency_response.hpp"
 #include "models/step_response.hpp"
-#include "planner/chain_file.hpp"
+#include "planner/input/chain_file.hpp"
 #include "planner/planner.hpp"
 
 namespace peakplan {

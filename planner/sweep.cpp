@@ -9,12 +9,13 @@
 #include <limits>
 #include <numbers>
 
-#include "planner/chain_graph.hpp"
-#include "planner/overrides.hpp"
+#include "planner/input/chain_graph.hpp"
+#include "planner/input/overrides.hpp"
 #include "planner/stage_value.hpp"
-#include "planner/toml_text.hpp"
+#include "planner/input/toml_text.hpp"
 #include "planner/variation_analysis.hpp"
 #include "planner/what_if.hpp"
+#include "planner/input/chain_input.hpp"
 
 namespace peakplan {
 namespace {
@@ -214,11 +215,11 @@ ChosenValue chosen_value(const ChainSpec& spec, const Plan& plan, const OpenValu
   size_t index = 0;
   while (index < spec.stages.size() && spec.stages[index].id != open.stage) ++index;
   for (const auto& planned : plan.stages) {
-    if (planned.spec != index) continue;
+    if (planned.table != index) continue;
     if (open.key == "kind") return {kNaN, std::string(to_string(planned.kind))};
     if (open.key == "count") return {static_cast<double>(planned.count), {}};
     for (size_t g = 0; g < plan.graph.size(); ++g)
-      if (plan.graph[g].spec == index) return {stage_value(plan.chain.stages[g], open.key), {}};
+      if (plan.graph[g].table == index) return {stage_value(plan.chain.stages[g], open.key), {}};
   }
   return {kNaN, {}};
 }

@@ -8,7 +8,7 @@
 //                                would write it: values, or words for a word key (a T-coil's
 //                                response: --vary a1.response=butterworth,bessel,critical).
 //
-// Each point is applied as an override of ID.KEY (planner/overrides.hpp), so every check of
+// Each point is applied as an override of ID.KEY (planner/input/overrides.hpp), so every check of
 // the chain-file reader applies to it, and the chain is analysed exactly as `peakplan analyze
 // --set ID.KEY=<point>` would. A gm the file leaves open sizes its device: each point of it
 // also sets that stage's c_in = gm/(2 pi ft) and c_out = c_out_ratio c_in ([technology]), as the
@@ -22,7 +22,7 @@
 #include <string>
 #include <vector>
 
-#include "planner/chain_file.hpp"
+#include "planner/input/chain_file.hpp"
 #include "planner/planner.hpp"
 
 namespace peakplan {

@@ -1,6 +1,6 @@
 #include "planner/variation_analysis.hpp"
 
-#include "planner/chain_graph.hpp"
+#include "planner/input/chain_graph.hpp"
 
 #include <algorithm>
 #include <cmath>

@@ -11,7 +11,7 @@
 
 #include "models/monte_carlo.hpp"
 #include "models/variation.hpp"
-#include "planner/chain_file.hpp"
+#include "planner/input/chain_file.hpp"
 #include "planner/planner.hpp"
 
 namespace peakplan {

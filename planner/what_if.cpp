@@ -2,7 +2,8 @@
 
 #include <algorithm>
 
-#include "planner/overrides.hpp"
+#include "planner/input/overrides.hpp"
+#include "planner/input/chain_input.hpp"
 
 namespace peakplan {
 

@@ -13,7 +13,7 @@
 #include <string>
 #include <vector>
 
-#include "planner/chain_file.hpp"
+#include "planner/input/chain_file.hpp"
 #include "planner/planner.hpp"
 
 namespace peakplan {

@@ -403,9 +403,9 @@ TableView plan_values_view(const ChainSpec& spec, const Plan& plan) {
     v.row_state.push_back(changed ? "planned" : "");
   };
   for (const auto& p : plan.stages) {
-    const auto& s = spec.stages[p.spec];
+    const auto& s = spec.stages[p.table];
     size_t first = 0;
-    while (first < plan.graph.size() && plan.graph[first].spec != p.spec) ++first;
+    while (first < plan.graph.size() && plan.graph[first].table != p.table) ++first;
     if (first == plan.graph.size()) continue;  // a stage with no copy cannot be planned; nothing to show
     const auto& planned = plan.chain.stages[first];
     add(s.id, "kind", kinds_written(s.kinds), std::string(to_string(p.kind)));

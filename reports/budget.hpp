@@ -17,7 +17,7 @@
 #include <vector>
 
 #include "models/chain.hpp"
-#include "planner/chain_file.hpp"
+#include "planner/input/chain_file.hpp"
 #include "planner/planner.hpp"
 
 namespace peakplan {

@@ -10,7 +10,7 @@
 
 #include "models/analysis.hpp"
 #include "models/chain.hpp"
-#include "planner/chain_settings.hpp"
+#include "planner/input/chain_settings.hpp"
 #include "planner/planner.hpp"
 #include "planner/variation_analysis.hpp"
 

@@ -79,8 +79,8 @@ nlohmann::json plan_json(const ChainSpec& spec, const Plan& plan, const ChainAna
   doc["chosen"] = nlohmann::json::array();
   for (const auto& p : plan.stages) {
     size_t first = 0;
-    while (plan.graph[first].spec != p.spec) ++first;
-    doc["chosen"].push_back({{"id", spec.stages[p.spec].id},
+    while (plan.graph[first].table != p.table) ++first;
+    doc["chosen"].push_back({{"id", spec.stages[p.table].id},
                              {"kind", std::string(to_string(p.kind))},
                              {"count", p.count},
                              {"values", stage_values_json(plan.chain.stages[first])}});

@@ -2,7 +2,7 @@
 
 #include <stdexcept>
 
-#include "planner/chain_graph.hpp"
+#include "planner/input/chain_graph.hpp"
 #include "reports/budget.hpp"
 #include "reports/dynamic_range_plot.hpp"
 #include "reports/html_report.hpp"

@@ -17,7 +17,7 @@
 
 #include "models/analysis.hpp"
 #include "models/chain.hpp"
-#include "planner/chain_file.hpp"
+#include "planner/input/chain_file.hpp"
 #include "planner/planner.hpp"
 #include "planner/corner_envelope.hpp"
 #include "planner/sweep.hpp"

@@ -11,9 +11,9 @@
 #include <string>
 #include <vector>
 
-#include "planner/chain_file.hpp"
-#include "planner/chain_graph.hpp"
-#include "planner/diagnostics.hpp"
+#include "planner/input/chain_file.hpp"
+#include "planner/input/chain_graph.hpp"
+#include "planner/input/diagnostics.hpp"
 #include "cli_support.hpp"
 
 namespace fs = std::filesystem;
@@ -294,7 +294,7 @@ TEST_CASE("chain-file errors: each bad fixture fails at its fault's line and col
       const std::string before = read_file(path);
 
       peakplan::Diagnostics diagnostics(path.string());
-      CHECK_FALSE(peakplan::load_chain_file(path.string(), diagnostics));
+      CHECK_FALSE(peakplan::read_chain(path.string(), diagnostics));
       REQUIRE_FALSE(diagnostics.list().empty());
       const auto& first = diagnostics.list().front();
       INFO("first diagnostic: " << first.format());
@@ -341,7 +341,7 @@ TEST_CASE("chain-file errors: every fixture in tests/bad_chains is in the table 
 TEST_CASE("chain-file errors: three independent faults are all reported with their positions") {
   const fs::path path = kFixtures / "three_independent_errors.toml";
   peakplan::Diagnostics diagnostics(path.string());
-  CHECK_FALSE(peakplan::load_chain_file(path.string(), diagnostics));
+  CHECK_FALSE(peakplan::read_chain(path.string(), diagnostics));
   const auto& list = diagnostics.list();
   REQUIRE(list.size() == 3);
   CHECK(diagnostics.dropped() == 0);
@@ -371,7 +371,7 @@ TEST_CASE("chain-file errors: past Diagnostics::limit the rest are counted on a 
   // key order, which here is also line order.
   const fs::path path = kFixtures / "too_many_errors.toml";
   peakplan::Diagnostics diagnostics(path.string());
-  CHECK_FALSE(peakplan::load_chain_file(path.string(), diagnostics));
+  CHECK_FALSE(peakplan::read_chain(path.string(), diagnostics));
   REQUIRE(diagnostics.list().size() == peakplan::Diagnostics::limit);
   CHECK(peakplan::Diagnostics::limit == 20);
   CHECK(diagnostics.dropped() == 3);

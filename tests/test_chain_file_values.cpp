@@ -4,8 +4,8 @@
 
 #include <string>
 
-#include "planner/chain_file.hpp"
-#include "planner/diagnostics.hpp"
+#include "planner/input/chain_file.hpp"
+#include "planner/input/diagnostics.hpp"
 
 namespace {
 

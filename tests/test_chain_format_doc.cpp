@@ -11,7 +11,7 @@
 #include <string>
 
 #include "cli_support.hpp"
-#include "planner/chain_file.hpp"
+#include "planner/input/chain_file.hpp"
 
 namespace {
 

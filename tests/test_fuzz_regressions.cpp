@@ -14,7 +14,7 @@
 #include <vector>
 
 #include "cli_support.hpp"
-#include "tests/fuzz/chain_path.hpp"
+#include "fuzz/chain_path.hpp"
 
 namespace fs = std::filesystem;
 using namespace peakplan::test;

@@ -36,7 +36,7 @@
 #include "models/frequency_response.hpp"
 #include "models/large_signal.hpp"
 #include "models/nodal_system.hpp"
-#include "planner/chain_graph.hpp"
+#include "planner/input/chain_graph.hpp"
 #include "planner/planner.hpp"
 #include "reports/netlist.hpp"
 #include "cli_support.hpp"
@@ -545,7 +545,7 @@ TEST_CASE("ngspice: every shipped chain (planned first where it leaves values op
     const std::string path = entry.path().string();
     CAPTURE(path);
     peakplan::Diagnostics d(path);
-    const auto spec = peakplan::load_chain_spec(path, d);
+    const auto spec = peakplan::read_chain_spec(path, d);
     REQUIRE(spec);
     auto chain = peakplan::resolve_chain(*spec, d);
     if (!chain) {
@@ -717,7 +717,7 @@ void check_input_noise(Chain chain) {
 TEST_CASE("ngspice .noise: the shipped receiver's input-referred noise current is peakplan's within 1 %") {
   const std::string path = std::string(PEAKPLAN_SOURCE_DIR) + "/chains/receiver_front_end.toml";
   peakplan::Diagnostics d(path);
-  const auto chain = peakplan::load_chain_file(path, d);
+  const auto chain = peakplan::read_chain(path, d);
   REQUIRE_MESSAGE(chain, d.format());
   peakplan::check_input_noise(*chain);
 }

@@ -12,7 +12,7 @@
 #include <vector>
 
 #include "cli_json.hpp"
-#include "planner/chain_graph.hpp"
+#include "planner/input/chain_graph.hpp"
 #include "planner/plan_problem.hpp"
 
 using nlohmann::json;

@@ -5,7 +5,7 @@
 #include <cmath>
 #include <string>
 
-#include "planner/chain_file.hpp"
+#include "planner/input/chain_file.hpp"
 #include "planner/plan_problem.hpp"
 #include "planner/planner.hpp"
 #include "cli_support.hpp"

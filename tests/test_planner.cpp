@@ -9,7 +9,7 @@
 #include <nlohmann/json.hpp>
 #include <sstream>
 
-#include "planner/chain_graph.hpp"
+#include "planner/input/chain_graph.hpp"
 #include "planner/planner.hpp"
 #include "planner/stage_value.hpp"
 #include "cli_support.hpp"
@@ -383,8 +383,8 @@ TEST_CASE("planner: progress is reported as the search runs, in order, up to the
     CHECK(seen[i].evaluations >= seen[i - 1].evaluations);
     CHECK(seen[i].seconds >= seen[i - 1].seconds);
   }
-  CHECK(seen.front().stage == "design space");
-  CHECK(seen.back().stage != "design space");
+  CHECK(seen.front().phase == "design space");
+  CHECK(seen.back().phase != "design space");
   CHECK(seen.back().evaluations + 1 == plan->evaluations);
 }
 
@@ -454,7 +454,7 @@ TEST_CASE("planner: open tail currents meet output_swing and ddj, and the writte
   CHECK(ls["ddj_pp_s"].get<double>() <= 0.1e-12);
   // The planned tail currents are written as fixed values within their bounds (out: 2 .. 12 mA).
   Diagnostics d(written);
-  const auto spec = load_chain_spec(written, d);
+  const auto spec = read_chain_spec(written, d);
   REQUIRE(spec);
   for (const auto& s : spec->stages) {
     const auto* tail = s.find("tail_current");

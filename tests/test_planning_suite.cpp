@@ -35,7 +35,7 @@ double ref_value(const std::filesystem::path& ref, const std::string& key) {
 
 Plan plan_file(const std::filesystem::path& path, int threads = 0) {
   Diagnostics d(path.string());
-  const auto spec = load_chain_spec(path.string(), d);
+  const auto spec = read_chain_spec(path.string(), d);
   INFO(d.format());
   REQUIRE(spec);
   PlanOptions options;

@@ -15,7 +15,7 @@
 #include "cli_support.hpp"
 #include "models/noise.hpp"
 #include "models/receiver.hpp"
-#include "planner/chain_graph.hpp"
+#include "planner/input/chain_graph.hpp"
 #include "planner/planner.hpp"
 #include "reports/plots.hpp"
 #include "reports/svg_chart.hpp"
@@ -189,7 +189,7 @@ TEST_CASE("receiver plan: Rf, the core and two post-amplifier stages open; the w
           "transimpedance, sensitivity and every limit") {
   const std::string path = std::string(PEAKPLAN_SOURCE_DIR) + "/chains/plan_optical_receiver.toml";
   Diagnostics d(path);
-  const auto spec = load_chain_spec(path, d);
+  const auto spec = read_chain_spec(path, d);
   REQUIRE_MESSAGE(spec, d.format());
   const auto plan = plan_chain(*spec, d);
   REQUIRE_MESSAGE(plan, d.format());
@@ -222,7 +222,7 @@ TEST_CASE("receiver plan: Rf, the core and two post-amplifier stages open; the w
 TEST_CASE("report: a receiver chain's plots add the input noise density with its average; others do not") {
   const std::string path = std::string(PEAKPLAN_SOURCE_DIR) + "/chains/receiver_front_end.toml";
   Diagnostics d(path);
-  const auto spec = load_chain_spec(path, d);
+  const auto spec = read_chain_spec(path, d);
   REQUIRE(spec);
   const auto chain = resolve_chain(*spec, d);
   REQUIRE(chain);
@@ -237,7 +237,7 @@ TEST_CASE("report: a receiver chain's plots add the input noise density with its
   CHECK(r.spectrum.size() == static_cast<size_t>(analysis_options(*spec).points));
   // A voltage-driven chain has no receiver section and no such plot.
   Diagnostics dd("demo");
-  const auto demo = load_chain_file(std::string(PEAKPLAN_SOURCE_DIR) + "/chains/demo_postamp.toml", dd);
+  const auto demo = read_chain(std::string(PEAKPLAN_SOURCE_DIR) + "/chains/demo_postamp.toml", dd);
   REQUIRE(demo);
   const auto demo_analysis = analyze_chain(*demo);
   CHECK_FALSE(demo_analysis.outputs.back().receiver);

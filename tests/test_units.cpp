@@ -4,7 +4,7 @@
 #include <limits>
 
 #include "models/units.hpp"
-#include "planner/toml_text.hpp"
+#include "planner/input/toml_text.hpp"
 
 using peakplan::Dimension;
 using peakplan::parse_quantity;

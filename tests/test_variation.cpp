@@ -12,7 +12,7 @@
 #include "cli_support.hpp"
 #include "models/monte_carlo.hpp"
 #include "models/variation.hpp"
-#include "planner/chain_graph.hpp"
+#include "planner/input/chain_graph.hpp"
 #include "planner/planner.hpp"
 #include "planner/corner_envelope.hpp"
 #include "planner/variation_analysis.hpp"

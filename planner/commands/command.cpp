@@ -82,7 +82,7 @@ PlanOptions PlanProgressLine::options() const {
   options.stop = [] { return g_stop_signal != 0; };
   options.progress = [line = line_](const PlanProgress& p) {
     line->show(fmt::format("planning: {} evaluations, {:.1f} s, {} search, best so far {}", p.evaluations, p.seconds,
-                           p.stage, p.feasible ? "meets every limit" : "misses a limit"));
+                           p.phase, p.feasible ? "meets every limit" : "misses a limit"));
   };
   return options;
 }

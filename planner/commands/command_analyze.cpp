@@ -6,7 +6,7 @@
 
 #include "planner/commands/command.hpp"
 #include "planner/commands/progress_line.hpp"
-#include "planner/chain_graph.hpp"
+#include "planner/input/chain_graph.hpp"
 #include "planner/variation_analysis.hpp"
 #include "planner/what_if.hpp"
 #include "reports/json_report.hpp"

@@ -4,9 +4,9 @@
 #include <memory>
 
 #include "planner/commands/command.hpp"
-#include "planner/chain_graph.hpp"
-#include "planner/chain_input.hpp"
-#include "planner/chain_settings.hpp"
+#include "planner/input/chain_graph.hpp"
+#include "planner/input/chain_input.hpp"
+#include "planner/input/chain_settings.hpp"
 #include "planner/planner.hpp"
 #include "planner/variation_analysis.hpp"
 #include "planner/what_if.hpp"

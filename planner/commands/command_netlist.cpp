@@ -3,8 +3,8 @@
 #include <memory>
 
 #include "planner/commands/command.hpp"
-#include "planner/chain_graph.hpp"
-#include "planner/overrides.hpp"
+#include "planner/input/chain_graph.hpp"
+#include "planner/input/overrides.hpp"
 #include "reports/netlist.hpp"
 
 namespace peakplan::cli {
@@ -17,7 +17,7 @@ struct NetlistArgs {
 
 int run_netlist(const NetlistArgs& args) {
   Diagnostics diagnostics(args.chain);
-  const auto spec = load_chain_spec(args.chain, diagnostics);
+  const auto spec = read_chain_spec(args.chain, diagnostics);
   const auto chain = spec ? resolve_chain(*spec, diagnostics) : std::nullopt;
   if (!chain) {
     std::cerr << diagnostics.format();

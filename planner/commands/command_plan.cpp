@@ -5,7 +5,7 @@
 
 #include "planner/commands/command.hpp"
 #include "planner/commands/output_files.hpp"
-#include "planner/chain_graph.hpp"
+#include "planner/input/chain_graph.hpp"
 #include "planner/planner.hpp"
 #include "planner/what_if.hpp"
 #include "planner/variation_analysis.hpp"

@@ -11,17 +11,18 @@
 
 #include "planner/commands/command.hpp"
 #include "planner/commands/output_files.hpp"
-#include "planner/chain_graph.hpp"
-#include "planner/overrides.hpp"
+#include "planner/input/chain_graph.hpp"
+#include "planner/input/overrides.hpp"
 #include "planner/planner.hpp"
 #include "planner/corner_envelope.hpp"
 #include "planner/sweep.hpp"
-#include "planner/toml_text.hpp"
+#include "planner/input/toml_text.hpp"
 #include "planner/variation_analysis.hpp"
 #include "reports/dynamic_range_plot.hpp"
 #include "planner/commands/progress_line.hpp"
 #include <fmt/format.h>
 #include "reports/report_bundle.hpp"
+#include "planner/input/chain_input.hpp"
 
 namespace peakplan::cli {
 namespace {
@@ -38,7 +39,7 @@ struct ReportArgs {
 
 int run_report(const ReportArgs& args) {
   Diagnostics diagnostics(args.chain);
-  const auto spec = load_chain_spec(args.chain, diagnostics);
+  const auto spec = read_chain_spec(args.chain, diagnostics);
   if (!spec) {
     std::cerr << diagnostics.format();
     return bad_input;

@@ -4,7 +4,7 @@
 #include <numbers>
 
 #include "models/analysis.hpp"
-#include "planner/chain_graph.hpp"
+#include "planner/input/chain_graph.hpp"
 
 namespace {
 

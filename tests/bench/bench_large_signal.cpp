@@ -9,9 +9,10 @@
 #include <string>
 
 #include "models/large_signal.hpp"
-#include "planner/chain_graph.hpp"
-#include "planner/overrides.hpp"
+#include "planner/input/chain_graph.hpp"
+#include "planner/input/overrides.hpp"
 #include "planner/sweep.hpp"
+#include "planner/input/chain_input.hpp"
 
 namespace {
 

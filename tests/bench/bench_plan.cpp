@@ -45,7 +45,7 @@ BENCHMARK(evaluate_candidate)->Arg(0)->Arg(1)->Unit(benchmark::kMicrosecond);
 void plan_shipped(benchmark::State& state, const std::string& file) {
   const std::string path = std::string(PEAKPLAN_SOURCE_DIR) + "/chains/" + file;
   peakplan::Diagnostics d(path);
-  const auto spec = peakplan::load_chain_spec(path, d);
+  const auto spec = peakplan::read_chain_spec(path, d);
   int evaluations = 0;
   for (auto _ : state) {
     peakplan::Diagnostics pd(path);
@@ -72,7 +72,7 @@ BENCHMARK(plan_tail_currents)->Unit(benchmark::kMillisecond)->Iterations(3);
 void limiting_candidate(benchmark::State& state) {
   const std::string path = std::string(PEAKPLAN_SOURCE_DIR) + "/chains/plan_tail_currents.toml";
   peakplan::Diagnostics d(path);
-  auto spec = peakplan::load_chain_spec(path, d);
+  auto spec = peakplan::read_chain_spec(path, d);
   spec->signal->pattern = "prbs" + std::to_string(state.range(1));
   const auto combo = peakplan::combinations(*spec).front();
   const auto graph = peakplan::build_stage_graph(*spec, d, &combo.counts);

@@ -8,7 +8,7 @@
 #include <string>
 
 #include "models/monte_carlo.hpp"
-#include "planner/chain_graph.hpp"
+#include "planner/input/chain_graph.hpp"
 #include "planner/planner.hpp"
 #include "../six_open_stages.hpp"
 

@@ -1,11 +1,11 @@
-#include "tests/fuzz/chain_path.hpp"
+#include "chain_path.hpp"
 
 #include <algorithm>
 
-#include "planner/chain_file.hpp"
-#include "planner/chain_graph.hpp"
-#include "planner/chain_input.hpp"
-#include "planner/overrides.hpp"
+#include "planner/input/chain_file.hpp"
+#include "planner/input/chain_graph.hpp"
+#include "planner/input/chain_input.hpp"
+#include "planner/input/overrides.hpp"
 #include "planner/variation_analysis.hpp"
 #include "reports/json_report.hpp"
 #include "reports/variation_report.hpp"

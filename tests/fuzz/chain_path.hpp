@@ -12,7 +12,7 @@
 #include <string_view>
 #include <vector>
 
-#include "planner/diagnostics.hpp"
+#include "planner/input/diagnostics.hpp"
 
 namespace peakplan::fuzz {
 

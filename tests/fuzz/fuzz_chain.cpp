@@ -4,7 +4,7 @@
 #include <cstdint>
 #include <string_view>
 
-#include "tests/fuzz/fuzz_report.hpp"
+#include "fuzz_report.hpp"
 
 extern "C" int LLVMFuzzerTestOneInput(const uint8_t* data, size_t size) {
   const std::string_view text(reinterpret_cast<const char*>(data), size);

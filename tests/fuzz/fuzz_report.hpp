@@ -9,7 +9,7 @@
 #include <string>
 #include <vector>
 
-#include "tests/fuzz/chain_path.hpp"
+#include "chain_path.hpp"
 
 namespace peakplan::fuzz {
 

@@ -5,7 +5,7 @@
 #include <cstdint>
 #include <string_view>
 
-#include "tests/fuzz/fuzz_report.hpp"
+#include "fuzz_report.hpp"
 
 extern "C" int LLVMFuzzerTestOneInput(const uint8_t* data, size_t size) {
   const auto sets = peakplan::fuzz::sets_from_input(std::string_view(reinterpret_cast<const char*>(data), size));

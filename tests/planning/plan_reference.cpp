@@ -13,7 +13,7 @@
 #include <vector>
 
 #include "models/analysis.hpp"
-#include "planner/overrides.hpp"
+#include "planner/input/overrides.hpp"
 #include "planner/planner.hpp"
 
 int main(int argc, char** argv) {
@@ -28,7 +28,7 @@ int main(int argc, char** argv) {
     if (!std::strcmp(argv[i], "--seeds")) seeds = std::atoi(argv[i + 1]);
   }
   peakplan::Diagnostics d(path);
-  const auto spec = peakplan::load_chain_spec(path, d);
+  const auto spec = peakplan::read_chain_spec(path, d);
   if (!spec) {
     std::fprintf(stderr, "%s: cannot read\n", path.c_str());
     return 2;

@@ -1,4 +1,4 @@
-#include "planner/toml_reading.hpp"
+#include "planner/input/toml_reading.hpp"
 
 #include <algorithm>
 #include <sstream>

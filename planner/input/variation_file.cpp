@@ -1,4 +1,4 @@
-#include "planner/variation_file.hpp"
+#include "planner/input/variation_file.hpp"
 
 #include <algorithm>
 #include <cmath>
@@ -7,8 +7,8 @@
 #include <sstream>
 
 #include "models/units.hpp"
-#include "planner/toml_text.hpp"
-#include "planner/toml_reading.hpp"
+#include "planner/input/toml_text.hpp"
+#include "planner/input/toml_reading.hpp"
 
 namespace peakplan {
 namespace {

@@ -8,7 +8,7 @@
 #include <toml++/toml.h>
 #include <vector>
 
-#include "planner/diagnostics.hpp"
+#include "planner/input/diagnostics.hpp"
 
 namespace peakplan {
 

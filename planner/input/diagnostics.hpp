@@ -33,7 +33,7 @@ class Diagnostics {
  public:
   static constexpr size_t limit = 20;  // more than this and the rest are counted, not kept
 
-  // A file of "-" is standard input (planner/chain_input.hpp) and is named "<stdin>".
+  // A file of "-" is standard input (planner/input/chain_input.hpp) and is named "<stdin>".
   explicit Diagnostics(std::string file) : file_(file == "-" ? std::string("<stdin>") : std::move(file)) {}
   void error(SourcePosition where, std::string message);
   bool empty() const { return list_.empty() && dropped_ == 0; }

@@ -1,4 +1,4 @@
-#include "planner/toml_text.hpp"
+#include "planner/input/toml_text.hpp"
 
 #include <fmt/format.h>
 

@@ -7,8 +7,8 @@
 #include <toml++/toml.h>
 
 #include "models/chain.hpp"
-#include "planner/diagnostics.hpp"
-#include "planner/variation_spec.hpp"
+#include "planner/input/diagnostics.hpp"
+#include "planner/input/variation_spec.hpp"
 
 namespace peakplan {
 

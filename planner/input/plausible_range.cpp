@@ -1,4 +1,4 @@
-#include "planner/plausible_range.hpp"
+#include "planner/input/plausible_range.hpp"
 
 #include <cmath>
 #include <cstdio>

@@ -10,13 +10,13 @@
 
 #include "models/analysis.hpp"
 #include "models/chain.hpp"
-#include "planner/chain_file.hpp"
+#include "planner/input/chain_file.hpp"
 
 namespace peakplan {
 
 struct GraphStage {
   std::string id;       // "a1", or "g.2" for the second copy of a counted stage "g"
-  size_t spec = 0;      // index into ChainSpec::stages
+  size_t table = 0;     // the [[stage]] table it copies: an index into ChainSpec::stages
   int copy = 0;         // 1-based copy number; 0 when the stage is not counted
   int driver = -1;      // index of the driving GraphStage; -1 = the chain input
 };
@@ -39,8 +39,11 @@ inline constexpr double kMinStageGain = 1e-4, kMaxStageGain = 1e4;
 // inductor losses derived from [technology] inductor_q where not given.
 std::optional<Chain> resolve_chain(const ChainSpec& spec, Diagnostics& diagnostics);
 
-// Loads, validates and resolves a chain file; nullopt with diagnostics on any input error.
-std::optional<Chain> load_chain_file(const std::string& path, Diagnostics& diagnostics);
+// The one way from a chain file to a models Chain: read_chain_spec (the text, the overrides,
+// every key checked at its position), then resolve_chain. nullopt with diagnostics on any error.
+std::optional<Chain> read_chain(const std::string& path, const std::vector<Override>& overrides,
+                                Diagnostics& diagnostics);
+std::optional<Chain> read_chain(const std::string& path, Diagnostics& diagnostics);
 
 // The models chain for a graph, from per-[[stage]] circuits and capacitances (indexed like
 // ChainSpec::stages), with node capacitances filled.

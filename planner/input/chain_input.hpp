@@ -6,7 +6,7 @@
 //   - nesting deeper than kMaxNesting (open [ and {, plus the dotted parts of a key) is an
 //     error found by a scan of the text before TOML++ parses it: its parser recurses per level,
 //     and a 200 kB dotted key `a.a.a...` overflows the stack.
-// The limits on stages and counts are the chain-file reader's (planner/chain_file.hpp).
+// The limits on stages and counts are the chain-file reader's (planner/input/chain_file.hpp).
 #pragma once
 
 #include <cstddef>
@@ -14,7 +14,7 @@
 #include <string>
 #include <string_view>
 
-#include "planner/diagnostics.hpp"
+#include "planner/input/diagnostics.hpp"
 
 namespace peakplan {
 

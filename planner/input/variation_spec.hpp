@@ -8,7 +8,7 @@
 #include <vector>
 
 #include "models/variation.hpp"
-#include "planner/diagnostics.hpp"
+#include "planner/input/diagnostics.hpp"
 
 namespace peakplan {
 

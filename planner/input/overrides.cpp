@@ -1,10 +1,12 @@
-#include "planner/overrides.hpp"
+#include "planner/input/overrides.hpp"
 
 #include <algorithm>
 #include <fmt/format.h>
 #include <memory>
 
-#include "planner/toml_text.hpp"
+#include "planner/input/toml_text.hpp"
+#include "planner/input/chain_input.hpp"
+#include "models/load_kinds.hpp"
 
 namespace peakplan {
 namespace {
@@ -187,19 +189,6 @@ void apply_overrides(toml::table& root, const std::vector<Override>& overrides, 
     // Not a table in the file: the reader reports that, at the file's line.
     if (auto* table = root.get_as<toml::table>(o.target)) set_value(*table, o);
   }
-}
-
-std::optional<ChainSpec> load_chain_spec(const std::string& path, const std::vector<Override>& overrides,
-                                         Diagnostics& diagnostics) {
-  const auto text = read_chain_text(path, diagnostics);
-  if (!text) return std::nullopt;
-  return parse_chain_spec(*text, overrides, diagnostics);
-}
-
-std::vector<std::string> stage_ids(const ChainSpec& spec) {
-  std::vector<std::string> ids;
-  for (const auto& s : spec.stages) ids.push_back(s.id);
-  return ids;
 }
 
 }  // namespace peakplan

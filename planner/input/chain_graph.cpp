@@ -1,4 +1,4 @@
-#include "planner/chain_graph.hpp"
+#include "planner/input/chain_graph.hpp"
 
 #include <boost/graph/adjacency_list.hpp>
 #include <boost/graph/depth_first_search.hpp>
@@ -9,8 +9,8 @@
 
 #include "models/frequency_response.hpp"
 #include "models/peaking_design.hpp"
-#include "planner/plausible_range.hpp"
-#include "planner/variation_file.hpp"
+#include "planner/input/plausible_range.hpp"
+#include "planner/input/variation_file.hpp"
 
 namespace peakplan {
 namespace {
@@ -114,7 +114,7 @@ void check_one_driver(const ChainSpec& spec, const std::vector<GraphStage>& stag
     if (drivers[v].size() <= 1) continue;
     std::vector<std::string> who;
     for (auto d : drivers[v]) who.push_back(stages[d].id);
-    diagnostics.error(spec.stages[stages[v].spec].where,
+    diagnostics.error(spec.stages[stages[v].table].where,
                       fmt::format("stage '{}' is fed by {}; a stage input can have only one driver",
                                   stages[v].id, join_ids(who, " and ")));
   }
@@ -134,7 +134,7 @@ void check_no_cycles(const ChainSpec& spec, const std::vector<GraphStage>& stage
     for (auto it = walk.rbegin(); it != walk.rend(); ++it) cycle.push_back(stages[*it].id);
     cycle.push_back(stages[to].id);
     // The back edge leaves `from`: point at its feeds when that is what closes the cycle.
-    const auto& table = spec.stages[stages[from].spec];
+    const auto& table = spec.stages[stages[from].table];
     diagnostics.error(table.feeds_where.line ? table.feeds_where : table.where,
                       fmt::format("the stages form a cycle: {}; a chain must run from its input to its outputs",
                                   join_ids(cycle)));
@@ -150,7 +150,7 @@ void set_drivers(const ChainSpec& spec, std::vector<GraphStage>& stages,
     stages[v].driver = drivers[v].empty() ? -1 : static_cast<int>(drivers[v].front());
   }
   if (roots.size() > 1)
-    diagnostics.error(spec.stages[stages[0].spec].where,
+    diagnostics.error(spec.stages[stages[0].table].where,
                       fmt::format("stages {} have no driver; exactly one stage may be driven by the chain "
                                   "input (list the others in some stage's feeds)", join_ids(roots, ", ")));
 }
@@ -180,8 +180,8 @@ void apply_designs(Chain& chain, const ChainSpec& spec, const std::vector<GraphS
   for (size_t i = 0; i < chain.stages.size(); ++i) {
     auto& stage = chain.stages[i];
     auto& c = stage.circuit;
-    const auto& s = spec.stages[graph[i].spec];
-    if (int& first = first_copy[graph[i].spec]; first >= 0) {
+    const auto& s = spec.stages[graph[i].table];
+    if (int& first = first_copy[graph[i].table]; first >= 0) {
       const auto& model = chain.stages[static_cast<size_t>(first)];
       const double c_node = c.c_node;
       c = model.circuit;
@@ -247,7 +247,7 @@ void read_kind_values(StageCircuit& c, const std::function<double(std::string_vi
 void check_current_input(const ChainSpec& spec, const std::vector<GraphStage>& graph, Diagnostics& diagnostics) {
   bool current_input = false;
   for (const auto& g : graph) {
-    const auto& s = spec.stages[g.spec];
+    const auto& s = spec.stages[g.table];
     const bool has_tia = std::any_of(s.kinds.begin(), s.kinds.end(),
                                      [](LoadKind k) { return load_kind_info(k).current_input; });
     if (!has_tia || g.copy > 1) continue;
@@ -382,7 +382,7 @@ void read_stage_circuit(const ChainSpec& spec, const StageSpec& s, StageCircuit&
 void check_design_loads(const ChainSpec& spec, const std::vector<GraphStage>& graph, const Chain& chain,
                         Diagnostics& diagnostics) {
   for (size_t i = 0; i < chain.stages.size(); ++i) {
-    const auto& s = spec.stages[graph[i].spec];
+    const auto& s = spec.stages[graph[i].table];
     const auto& c = chain.stages[i].circuit;
     const auto& info = load_kind_info(c.kind);
     if (design_factor(s, info) && !(info.design_capacitance(c) > 0.0))
@@ -396,7 +396,7 @@ void check_design_loads(const ChainSpec& spec, const std::vector<GraphStage>& gr
 void check_designed_inductances(const ChainSpec& spec, const std::vector<GraphStage>& graph, const Chain& chain,
                                 Diagnostics& diagnostics) {
   for (size_t i = 0; i < chain.stages.size(); ++i) {
-    const auto& s = spec.stages[graph[i].spec];
+    const auto& s = spec.stages[graph[i].table];
     const auto& c = chain.stages[i].circuit;
     const auto& info = load_kind_info(c.kind);
     if (!gives_design(s) || info.design == DesignFactor::none || graph[i].copy > 1) continue;
@@ -450,22 +450,29 @@ Chain assemble_chain(const ChainSpec& spec, const std::vector<GraphStage>& graph
   for (const auto& g : graph) {
     ChainStage stage;
     stage.id = g.id;
-    stage.circuit = circuits[g.spec];
+    stage.circuit = circuits[g.table];
     stage.circuit.coil_c_per_l = spec.technology.coil_c_per_l();
-    stage.c_in = c_in[g.spec];
-    stage.c_load = c_load[g.spec];
+    stage.c_in = c_in[g.table];
+    stage.c_load = c_load[g.table];
     stage.driver = g.driver;
-    stage.tap = spec.stages[g.spec].tap;
-    if (const auto* tail = spec.stages[g.spec].find("tail_current"))
-      stage.limit = PairLimit{tail->value, pair_kind_from_name(spec.stages[g.spec].pair).value_or(PairKind::bipolar)};
+    stage.tap = spec.stages[g.table].tap;
+    if (const auto* tail = spec.stages[g.table].find("tail_current"))
+      stage.limit = PairLimit{tail->value, pair_kind_from_name(spec.stages[g.table].pair).value_or(PairKind::bipolar)};
     chain.stages.push_back(std::move(stage));
   }
   fill_node_capacitances(chain);
   return chain;
 }
 
-std::optional<Chain> load_chain_file(const std::string& path, Diagnostics& diagnostics) {
-  const auto spec = load_chain_spec(path, diagnostics);
+std::optional<Chain> read_chain(const std::string& path, const std::vector<Override>& overrides,
+                                Diagnostics& diagnostics) {
+  const auto spec = read_chain_spec(path, overrides, diagnostics);
+  if (!spec) return std::nullopt;
+  return resolve_chain(*spec, diagnostics);
+}
+
+std::optional<Chain> read_chain(const std::string& path, Diagnostics& diagnostics) {
+  const auto spec = read_chain_spec(path, diagnostics);
   if (!spec) return std::nullopt;
   return resolve_chain(*spec, diagnostics);
 }

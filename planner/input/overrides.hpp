@@ -20,9 +20,7 @@
 #include <toml++/toml.h>
 #include <vector>
 
-#include "planner/chain_file.hpp"
-#include "planner/chain_input.hpp"  // read_chain_text
-#include "planner/diagnostics.hpp"
+#include "planner/input/diagnostics.hpp"
 
 namespace peakplan {
 
@@ -46,12 +44,5 @@ std::optional<std::vector<Override>> parse_overrides(const std::vector<std::stri
 // Applies the overrides in order (a later one wins over an earlier one for the same key). An
 // unknown ID is reported with the closest stage id or table name; the rest are still applied.
 void apply_overrides(toml::table& root, const std::vector<Override>& overrides, Diagnostics& diagnostics);
-
-// load_chain_spec with overrides applied.
-std::optional<ChainSpec> load_chain_spec(const std::string& path, const std::vector<Override>& overrides,
-                                         Diagnostics& diagnostics);
-
-// The stage ids of a chain file's [[stage]] tables, in file order (for suggestions).
-std::vector<std::string> stage_ids(const ChainSpec& spec);
 
 }  // namespace peakplan

@@ -1,4 +1,4 @@
-#include "planner/chain_settings.hpp"
+#include "planner/input/chain_settings.hpp"
 
 #include <sstream>
 #include <toml++/toml.h>

@@ -1,4 +1,4 @@
-#include "planner/diagnostics.hpp"
+#include "planner/input/diagnostics.hpp"
 
 #include <algorithm>
 #include <numeric>

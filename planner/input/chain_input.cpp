@@ -1,4 +1,4 @@
-#include "planner/chain_input.hpp"
+#include "planner/input/chain_input.hpp"
 
 #include <fcntl.h>
 #include <fmt/format.h>

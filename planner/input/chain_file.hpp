@@ -11,8 +11,8 @@
 
 #include "models/eye.hpp"
 #include "models/load_kinds.hpp"
-#include "planner/diagnostics.hpp"
-#include "planner/variation_spec.hpp"
+#include "planner/input/diagnostics.hpp"
+#include "planner/input/variation_spec.hpp"
 
 namespace peakplan {
 
@@ -152,7 +152,7 @@ struct ChainSpec {
   LimitsSpec limits;
   TechnologySpec technology;
   std::vector<StageSpec> stages;
-  std::optional<VariationSpec> variation;  // [variation], planner/variation_file.hpp
+  std::optional<VariationSpec> variation;  // [variation], planner/input/variation_file.hpp
 };
 
 // Bounds on the work a chain file may ask for (each an error at the place it is passed): the
@@ -177,15 +177,21 @@ inline constexpr double kDefaultMaxGm = 0.2, kDefaultMinGm = 1e-3;
 // Plausible inductor quality factors ([technology] inductor_q): on-chip coils reach 5 .. 30.
 inline constexpr double kMinInductorQ = 0.1, kMaxInductorQ = 1000.0;
 
-// Parses and validates one chain file. `display_name` is the name errors carry (the path as
-// the user gave it). Returns nullopt when there were errors; they are in `diagnostics`.
-std::optional<ChainSpec> load_chain_spec(const std::string& path, Diagnostics& diagnostics);
-std::optional<ChainSpec> parse_chain_spec(std::string_view text, Diagnostics& diagnostics);
-// The same with command-line overrides (planner/overrides.hpp) applied to the parsed TOML
-// before it is read, so every check applies to the overridden values.
+// Reads, parses and validates one chain file: its text within bounds (chain_input.hpp), the
+// command-line overrides (overrides.hpp) applied to the parsed TOML before it is read, so every
+// check applies to an overridden value as if it were written in the file. Errors carry the path
+// as the user gave it ("-" is standard input). nullopt when there were errors (in `diagnostics`).
 struct Override;
+std::optional<ChainSpec> read_chain_spec(const std::string& path, const std::vector<Override>& overrides,
+                                         Diagnostics& diagnostics);
+std::optional<ChainSpec> read_chain_spec(const std::string& path, Diagnostics& diagnostics);
+// The same from text already read (the fuzz targets, --lock's replanning, tests).
 std::optional<ChainSpec> parse_chain_spec(std::string_view text, const std::vector<Override>& overrides,
                                           Diagnostics& diagnostics);
+std::optional<ChainSpec> parse_chain_spec(std::string_view text, Diagnostics& diagnostics);
+
+// The stage ids of a chain file's [[stage]] tables, in file order (for suggestions).
+std::vector<std::string> stage_ids(const ChainSpec& spec);
 
 // The keys every [[stage]] accepts, whatever its kind.
 const std::vector<std::string_view>& common_stage_keys();

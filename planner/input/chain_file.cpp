@@ -1,4 +1,4 @@
-#include "planner/chain_file.hpp"
+#include "planner/input/chain_file.hpp"
 
 #include <algorithm>
 #include <cctype>
@@ -10,10 +10,11 @@
 #include <toml++/toml.h>
 
 #include "models/pair_curve.hpp"
-#include "planner/overrides.hpp"
-#include "planner/plausible_range.hpp"
-#include "planner/toml_reading.hpp"
-#include "planner/variation_file.hpp"
+#include "planner/input/chain_input.hpp"
+#include "planner/input/overrides.hpp"
+#include "planner/input/plausible_range.hpp"
+#include "planner/input/toml_reading.hpp"
+#include "planner/input/variation_file.hpp"
 
 namespace peakplan {
 namespace {
@@ -935,8 +936,21 @@ std::optional<ChainSpec> parse_chain_spec(std::string_view text, const std::vect
   }
 }
 
-std::optional<ChainSpec> load_chain_spec(const std::string& path, Diagnostics& diagnostics) {
-  return load_chain_spec(path, {}, diagnostics);  // planner/overrides.cpp, with no overrides
+std::optional<ChainSpec> read_chain_spec(const std::string& path, const std::vector<Override>& overrides,
+                                         Diagnostics& diagnostics) {
+  const auto text = read_chain_text(path, diagnostics);
+  if (!text) return std::nullopt;
+  return parse_chain_spec(*text, overrides, diagnostics);
+}
+
+std::optional<ChainSpec> read_chain_spec(const std::string& path, Diagnostics& diagnostics) {
+  return read_chain_spec(path, {}, diagnostics);
+}
+
+std::vector<std::string> stage_ids(const ChainSpec& spec) {
+  std::vector<std::string> ids;
+  for (const auto& s : spec.stages) ids.push_back(s.id);
+  return ids;
 }
 
 }  // namespace peakplan

@@ -1,5 +1,5 @@
 // Writing text into TOML, shared by the chain writer (planner/chain_writer.cpp) and the
-// command-line overrides (planner/overrides.cpp), so a written name and a --set value are
+// command-line overrides (planner/input/overrides.cpp), so a written name and a --set value are
 // quoted alike.
 #pragma once
 
