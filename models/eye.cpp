@@ -274,32 +274,31 @@ int grid_half(double range, double sigma, double reach, double delta) {
   return bins + noise_bins + 2;
 }
 
-double height_on_grid(std::span<const double> cursors, int main_index, Modulation modulation, double sigma,
-                      double ber, double reach, const BerGrid& grid) {
-  const int eyes = modulation == Modulation::pam4 ? 3 : 1;
-  const int levels = eyes + 1;
-  const double spacing = cursors[static_cast<size_t>(main_index)] / eyes;
-  // Not a structured binding: a lambda below captures it (clang 14 cannot capture a binding).
-  const auto isi = isi_bounds(cursors, main_index);
-  const double isi_min = isi.first, isi_max = isi.second;
-  const double isi_range = isi_max - isi_min;
-  const double delta = grid.delta;
-  if (delta == 0.0) return spacing * eyes;
-
-  // ISI distribution on x = isi_min + i*delta. Each cursor's share a*c - min(0, c) in [0, |c|]
-  // is split between its two neighbouring bins so the mean stays exact. Cursors below delta/16
-  // are left out and their sum added to the spread instead, which only makes the result
-  // conservative.
-  const int bins = static_cast<int>(std::ceil(isi_range / delta)) + 2;
-  std::vector<double> pmf(static_cast<size_t>(bins), 0.0), next(pmf.size());
-  pmf[0] = 1.0;
+// The ISI a phase's cursors add, as a distribution on x = isi_min + i*delta, the shared grid's
+// bins; `occupied` bins from the first can be non-zero. Each cursor's share a*c - min(0, c) in
+// [0, |c|] is split between its two neighbouring bins so the mean stays exact. Cursors below
+// delta/16 are left out and their sum kept in `dropped`, which the caller adds to the spread:
+// that only makes the result conservative.
+struct IsiPmf {
+  std::vector<double> pmf;
   int occupied = 1;
   double dropped = 0.0;
+};
+
+IsiPmf isi_pmf(std::span<const double> cursors, int main_index, int eyes, double isi_range, double delta) {
+  const int levels = eyes + 1;
+  const int bins = static_cast<int>(std::ceil(isi_range / delta)) + 2;
+  IsiPmf d;
+  d.pmf.assign(static_cast<size_t>(bins), 0.0);
+  std::vector<double> next(d.pmf.size());
+  auto& pmf = d.pmf;
+  int& occupied = d.occupied;
+  pmf[0] = 1.0;
   for (size_t j = 0; j < cursors.size(); ++j) {
     if (static_cast<int>(j) == main_index) continue;
     const double c = cursors[j];
     if (std::fabs(c) < delta / 16.0) {
-      dropped += std::fabs(c);
+      d.dropped += std::fabs(c);
       continue;
     }
     std::fill(next.begin(), next.begin() + std::min(bins, occupied + static_cast<int>(std::fabs(c) / delta) + 2), 0.0);
@@ -322,65 +321,93 @@ double height_on_grid(std::span<const double> cursors, int main_index, Modulatio
     occupied = reach_bins;
     std::swap(pmf, next);
   }
+  return d;
+}
 
-  // P(X + noise > x_i) and P(X + noise < x_i) at grid points i (which may lie outside the ISI
-  // bins, out to the noise reach), with the Gaussian tail of the shared grid.
-  const int noise_bins = sigma > 0.0 ? static_cast<int>(std::ceil(reach * sigma / delta)) + 1 : 1;
-  const int table_half = grid.half;
-  const double* tail = grid.tail.data();
+// P(X + noise > x_i) and P(X + noise < x_i) at grid points i (which may lie outside the ISI
+// bins, out to the noise reach), with the Gaussian tail of the shared grid:
+// P(X + N > x_i) = sum D_k P(N > x_i - x_k); P(X + N < x_i) = sum D_k P(N > x_k - x_i).
+struct NoisyIsiTails {
+  const double* pmf;
+  int occupied;
+  const double* tail;
+  int table_half;
+
   // Each sum runs over the bins in order; terms[k] = pmf[k] * tail[first + step * k].
-  auto in_order = [&](int first, int step) {
+  double in_order(int first, int step) const {
     double sum = 0.0;
-    for (int k = 0; k < occupied; ++k) sum += pmf[static_cast<size_t>(k)] * tail[first + step * k];
+    for (int k = 0; k < occupied; ++k) sum += pmf[k] * tail[first + step * k];
     return sum;
-  };
+  }
   // The same sum in four interleaved parts: several times faster (the parts do not wait on one
-  // another), equal to it within rounding. It only steers the search below.
-  auto in_parts = [&](int first, int step) {
+  // another), equal to it within rounding. It only steers the search in ber_quantile.
+  double in_parts(int first, int step) const {
     double part[4] = {0.0, 0.0, 0.0, 0.0};
     int k = 0;
     for (; k + 4 <= occupied; k += 4)
-      for (int q = 0; q < 4; ++q) part[q] += pmf[static_cast<size_t>(k + q)] * tail[first + step * (k + q)];
-    for (; k < occupied; ++k) part[0] += pmf[static_cast<size_t>(k)] * tail[first + step * k];
+      for (int q = 0; q < 4; ++q) part[q] += pmf[k + q] * tail[first + step * (k + q)];
+    for (; k < occupied; ++k) part[0] += pmf[k] * tail[first + step * k];
     return (part[0] + part[1]) + (part[2] + part[3]);
-  };
-  // P(X + N > x_i) = sum D_k P(N > x_i - x_k); P(X + N < x_i) = sum D_k P(N > x_k - x_i).
-  auto above = [&](int i, auto&& sum) { return sum(i + table_half, -1); };
-  auto below = [&](int i, auto&& sum) { return sum(table_half - i, 1); };
-  const int i_lo = -noise_bins - 1, i_hi = occupied + noise_bins;
-  // Upper quantile: the smallest grid point with P(> x) <= ber, refined in log between points.
-  // Both tails are monotonic in i term by term, and so in floating point too (every term keeps
-  // its place in the sum; rounding is monotonic), so the bracket is unique: the fast sums find
-  // it, and the in-order sums, which the interpolation uses, confirm it, or move it by a point
-  // where the two kinds of sum fall on either side of the ber within rounding.
-  auto quantile = [&](auto&& tail_at, bool upper) {
-    auto reached = [&](double t) { return upper ? t <= ber : t > ber; };  // false below b, true from b
-    int a = i_lo, b = i_hi;
-    while (b - a > 1) {
-      const int mid = (a + b) / 2;
-      (reached(tail_at(mid, in_parts)) ? b : a) = mid;
-    }
-    double t_a = tail_at(a, in_order), t_b = tail_at(b, in_order);
-    while (a > i_lo && reached(t_a)) {
-      b = a--;
-      t_b = t_a;
-      t_a = tail_at(a, in_order);
-    }
-    while (b < i_hi && !reached(t_b)) {
-      a = b++;
-      t_a = t_b;
-      t_b = tail_at(b, in_order);
-    }
-    const int inside = upper ? a : b, outside = upper ? b : a;
-    const double t_in = upper ? t_a : t_b, t_out = upper ? t_b : t_a;
-    double x = outside;
-    if (t_out > 0.0 && t_in > t_out && sigma > 0.0)
-      x = inside + (outside - inside) * (std::log(t_in) - std::log(ber)) / (std::log(t_in) - std::log(t_out));
-    return isi_min + x * delta;
-  };
-  const double upper = quantile(above, true);
-  const double lower = quantile(below, false);
-  return eyes * (spacing - (upper - lower) - dropped);
+  }
+  // P(X + N > x_i) when Upper, else P(X + N < x_i); the fast sum when `fast`.
+  template <bool Upper>
+  double at(int i, bool fast) const {
+    const int first = Upper ? i + table_half : table_half - i;
+    const int step = Upper ? -1 : 1;
+    return fast ? in_parts(first, step) : in_order(first, step);
+  }
+};
+
+// The upper (lower) quantile, in bins of the grid from isi_min: the smallest (largest) grid point
+// in [i_lo, i_hi] with P(> x) <= ber (P(< x) <= ber), refined in log between points.
+// Both tails are monotonic in i term by term, and so in floating point too (every term keeps
+// its place in the sum; rounding is monotonic), so the bracket is unique: the fast sums find
+// it, and the in-order sums, which the interpolation uses, confirm it, or move it by a point
+// where the two kinds of sum fall on either side of the ber within rounding.
+template <bool Upper>
+double ber_quantile(const NoisyIsiTails& tails, double ber, double sigma, int i_lo, int i_hi) {
+  auto reached = [&](double t) { return Upper ? t <= ber : t > ber; };  // false below b, true from b
+  int a = i_lo, b = i_hi;
+  while (b - a > 1) {
+    const int mid = (a + b) / 2;
+    (reached(tails.at<Upper>(mid, true)) ? b : a) = mid;
+  }
+  double t_a = tails.at<Upper>(a, false), t_b = tails.at<Upper>(b, false);
+  while (a > i_lo && reached(t_a)) {
+    b = a--;
+    t_b = t_a;
+    t_a = tails.at<Upper>(a, false);
+  }
+  while (b < i_hi && !reached(t_b)) {
+    a = b++;
+    t_a = t_b;
+    t_b = tails.at<Upper>(b, false);
+  }
+  const int inside = Upper ? a : b, outside = Upper ? b : a;
+  const double t_in = Upper ? t_a : t_b, t_out = Upper ? t_b : t_a;
+  double x = outside;
+  if (t_out > 0.0 && t_in > t_out && sigma > 0.0)
+    x = inside + (outside - inside) * (std::log(t_in) - std::log(ber)) / (std::log(t_in) - std::log(t_out));
+  return x;
+}
+
+// The inner eye height at the ber for one phase's cursors: the level spacing less the spread
+// between the upper and lower ber quantiles of ISI plus noise, for each of the eyes.
+double height_on_grid(std::span<const double> cursors, int main_index, Modulation modulation, double sigma,
+                      double ber, double reach, const BerGrid& grid) {
+  const int eyes = modulation == Modulation::pam4 ? 3 : 1;
+  const double spacing = cursors[static_cast<size_t>(main_index)] / eyes;
+  const auto [isi_min, isi_max] = isi_bounds(cursors, main_index);
+  const double delta = grid.delta;
+  if (delta == 0.0) return spacing * eyes;
+
+  const IsiPmf isi = isi_pmf(cursors, main_index, eyes, isi_max - isi_min, delta);
+  const int noise_bins = sigma > 0.0 ? static_cast<int>(std::ceil(reach * sigma / delta)) + 1 : 1;
+  const NoisyIsiTails tails{isi.pmf.data(), isi.occupied, grid.tail.data(), grid.half};
+  const int i_lo = -noise_bins - 1, i_hi = isi.occupied + noise_bins;
+  const double upper = isi_min + ber_quantile<true>(tails, ber, sigma, i_lo, i_hi) * delta;
+  const double lower = isi_min + ber_quantile<false>(tails, ber, sigma, i_lo, i_hi) * delta;
+  return eyes * (spacing - (upper - lower) - isi.dropped);
 }
 
 }  // namespace
