@@ -252,32 +252,28 @@ std::string stage_output_node(const Chain& chain, int stage) {
   return "n" + std::to_string(stage) + "_" + spice_safe_name(s.id);
 }
 
-std::string write_spice_netlist(const Chain& chain, const NetlistOptions& options) {
-  if (chain.stages.empty()) throw std::invalid_argument("write_spice_netlist: the chain has no stages");
-  if (options.batch_control && !safe_prefix(options.data_prefix))
-    throw std::invalid_argument("write_spice_netlist: data_prefix '" +
-                                comment_safe(options.data_prefix) +
-                                "' must be letters, digits and _ . / + - only");
-  check_node_capacitances(chain);
-  const Analyses a = choose_analyses(chain, options);
-  const std::vector<int> outputs = chain.outputs();
+namespace {
 
-  std::ostringstream out;
-  // SPICE always takes the first line as the title, but an unescaped newline would end it.
+// SPICE always takes the first line as the title, but an unescaped newline would end it.
+void write_header(std::ostringstream& out, const Chain& chain) {
   out << "peakplan: " << (chain.name.empty() ? std::string("chain") : comment_safe(chain.name))
       << '\n';
   out << "* " << kPlanningCaution << '\n';
   out << "* Small-signal half circuit of each stage; AC ground = supply = node 0.\n"
          "* Each stage inverts. Node capacitance = c_load + c_in of every stage fed.\n\n";
+}
 
-  auto subckt_name = [&](size_t i) {
-    return "stage" + std::to_string(i) + "_" + spice_safe_name(chain.stages[i].id);
-  };
+std::string subckt_name(const Chain& chain, size_t i) {
+  return "stage" + std::to_string(i) + "_" + spice_safe_name(chain.stages[i].id);
+}
+
+// One .subckt per stage, so that each stage's elements read apart from the wiring between them.
+void write_stage_subckts(std::ostringstream& out, const Chain& chain) {
   for (size_t i = 0; i < chain.stages.size(); ++i) {
     const auto& s = chain.stages[i];
     out << "* stage " << i << ": id \"" << comment_safe(s.id) << "\"\n";
     out << "* " << load_kind_info(s.circuit.kind).netlist_comment << '\n';
-    out << ".subckt " << subckt_name(i) << " in out\n";
+    out << ".subckt " << subckt_name(chain, i) << " in out\n";
     SubcktWriter w(out);
     w.capacitor("Cin", "in", "0", s.c_in);
     if (s.limit)
@@ -289,8 +285,11 @@ std::string write_spice_netlist(const Chain& chain, const NetlistOptions& option
     w.resistor("Rload", "out", "0", s.circuit.r_load);
     out << ".ends\n\n";
   }
+}
 
-  const bool through_resistor = resistor_present(chain.r_source);
+// The input's .tran waveform: held PRBS symbols, a step through the first-order input edge, or
+// a plain step; writes the comment that says which and returns the PULSE/PWL text.
+std::string input_waveform(std::ostringstream& out, const NetlistOptions& options, const Analyses& a) {
   std::string pulse = "PULSE(0 1 0 " + card(a.rise) + " " + card(a.rise) + " " +
                       card(4.0 * a.tran_stop) + " " + card(8.0 * a.tran_stop) + ")";
   const bool edged = options.edge_tau_s > 0.0;
@@ -310,21 +309,30 @@ std::string write_spice_netlist(const Chain& chain, const NetlistOptions& option
   } else {
     out << "* source: 1 V AC, and a 0 -> 1 V step for .tran\n";
   }
+  return pulse;
+}
+
+// The input source carrying `waveform`: a current into a tia, else a voltage behind r_source.
+void write_input_source(std::ostringstream& out, const Chain& chain, const std::string& waveform) {
   if (chain.current_input()) {
     // A photocurrent of 1 A (AC and the step) into the tia's input node: the outputs read in ohms.
     out << "* the input is a current: 1 A into node in, so every output reads as a transimpedance\n";
-    out << "Iin 0 in DC 0 AC 1 " << pulse << '\n';
+    out << "Iin 0 in DC 0 AC 1 " << waveform << '\n';
     if (chain.photodiode) {
       out << "* photodiode: responsivity " << card(chain.photodiode->responsivity) << " A/W, dark current "
           << card(chain.photodiode->dark_current) << " A (its shot noise is not in a SPICE .noise)\n";
       SubcktWriter(out).capacitor("Cpd", "in", "0", chain.photodiode->capacitance);
     }
   } else {
-    out << "Vin " << (through_resistor ? "src" : "in") << " 0 DC 0 AC 1 " << pulse << '\n';
+    const bool through_resistor = resistor_present(chain.r_source);
+    out << "Vin " << (through_resistor ? "src" : "in") << " 0 DC 0 AC 1 " << waveform << '\n';
     if (through_resistor) out << "Rsource src in " << spice_number(chain.r_source) << '\n';
   }
   out << '\n';
+}
 
+// One instance per stage, wired to its driver's output node, then the output nodes listed.
+void write_stage_instances(std::ostringstream& out, const Chain& chain, const std::vector<int>& outputs) {
   for (size_t i = 0; i < chain.stages.size(); ++i) {
     const auto& s = chain.stages[i];
     const std::string in =
@@ -335,51 +343,90 @@ std::string write_spice_netlist(const Chain& chain, const NetlistOptions& option
           << comment_safe(chain.stages[static_cast<size_t>(s.driver)].id) << "\"";
     out << '\n';
     out << "X" << i << " " << in << " " << stage_output_node(chain, static_cast<int>(i)) << " "
-        << subckt_name(i) << '\n';
+        << subckt_name(chain, i) << '\n';
   }
   out << "* outputs:";
   for (int o : outputs)
     out << " " << stage_output_node(chain, o) << " (\"" << comment_safe(chain.stages[static_cast<size_t>(o)].id)
         << "\")";
   out << "\n\n";
+}
 
+// The arguments of the .ac and .tran cards; the .control block repeats them as commands.
+struct AnalysisCards {
+  std::string ac, tran;
+};
+
+AnalysisCards analysis_cards(const Analyses& a) {
+  AnalysisCards cards;
+  cards.ac = "dec " + std::to_string(a.per_decade) + " " + card(a.ac_start) + " " + card(a.ac_stop);
+  // tmax = tstep: the simulator's own step control would otherwise stride across the rise.
+  cards.tran = card(a.tran_step) + " " + card(a.tran_stop) + " 0 " + card(a.tran_step);
+  return cards;
+}
+
+void write_analyses(std::ostringstream& out, const NetlistOptions& options, const AnalysisCards& cards) {
   if (options.precise)
     out << ".options method=trap reltol=1e-7 vntol=1e-12 abstol=1e-15 chgtol=1e-20\n";
-  const std::string ac =
-      "dec " + std::to_string(a.per_decade) + " " + card(a.ac_start) + " " + card(a.ac_stop);
-  // tmax = tstep: the simulator's own step control would otherwise stride across the rise.
-  const std::string tran =
-      card(a.tran_step) + " " + card(a.tran_stop) + " 0 " + card(a.tran_step);
-  out << ".ac " << ac << '\n';
-  out << ".tran " << tran << '\n';
-  if (!options.batch_control) {
-    // So that `ngspice -b chain.cir` simulates and prints the main output without editing.
-    const std::string main_node = stage_output_node(chain, outputs.back());
-    out << ".print ac vdb(" << main_node << ") vp(" << main_node << ")\n";
-    out << ".print tran v(" << main_node << ")\n";
-    // Without an explicit .save, ngspice's batch mode keeps only what each .print names for
-    // its own analysis and refuses the other ("no data saved").
-    out << ".save v(" << main_node << ")\n";
-  }
+  out << ".ac " << cards.ac << '\n';
+  out << ".tran " << cards.tran << '\n';
+}
 
-  if (options.batch_control) {
-    std::string vectors;
-    for (int o : outputs) vectors += " v(" + stage_output_node(chain, o) + ")";
-    const std::string& p = options.data_prefix;
-    out << "\n.control\n"
-           "set wr_singlescale\n"
-           "set wr_vecnames\n"
-           "set numdgt=15\n"
-        // dc first: ngspice-39 gives a stale DC sweep with coupled inductors after a tran.
-        << (chain.current_input() ? "dc Iin 1 1 1\n" : "dc Vin 1 1 1\n")
-        << "wrdata " << p << ".dc.txt" << vectors << '\n'
-        << "ac " << ac << '\n'
-        << "wrdata " << p << ".ac.txt" << vectors << '\n'
-        << "tran " << tran << '\n'
-        << "wrdata " << p << ".tran.txt" << vectors << '\n'
-        << "quit\n"
-           ".endc\n";
-  }
+// So that `ngspice -b chain.cir` simulates and prints the main output without editing.
+void write_print_lines(std::ostringstream& out, const Chain& chain, const std::vector<int>& outputs) {
+  const std::string main_node = stage_output_node(chain, outputs.back());
+  out << ".print ac vdb(" << main_node << ") vp(" << main_node << ")\n";
+  out << ".print tran v(" << main_node << ")\n";
+  // Without an explicit .save, ngspice's batch mode keeps only what each .print names for
+  // its own analysis and refuses the other ("no data saved").
+  out << ".save v(" << main_node << ")\n";
+}
+
+// A .control block that runs dc, ac and tran and writes every output to <prefix>.<analysis>.txt.
+void write_batch_control(std::ostringstream& out, const Chain& chain, const std::vector<int>& outputs,
+                         const std::string& prefix, const AnalysisCards& cards) {
+  std::string vectors;
+  for (int o : outputs) vectors += " v(" + stage_output_node(chain, o) + ")";
+  out << "\n.control\n"
+         "set wr_singlescale\n"
+         "set wr_vecnames\n"
+         "set numdgt=15\n"
+      // dc first: ngspice-39 gives a stale DC sweep with coupled inductors after a tran.
+      << (chain.current_input() ? "dc Iin 1 1 1\n" : "dc Vin 1 1 1\n")
+      << "wrdata " << prefix << ".dc.txt" << vectors << '\n'
+      << "ac " << cards.ac << '\n'
+      << "wrdata " << prefix << ".ac.txt" << vectors << '\n'
+      << "tran " << cards.tran << '\n'
+      << "wrdata " << prefix << ".tran.txt" << vectors << '\n'
+      << "quit\n"
+         ".endc\n";
+}
+
+}  // namespace
+
+std::string write_spice_netlist(const Chain& chain, const NetlistOptions& options) {
+  if (chain.stages.empty()) throw std::invalid_argument("write_spice_netlist: the chain has no stages");
+  if (options.batch_control && !safe_prefix(options.data_prefix))
+    throw std::invalid_argument("write_spice_netlist: data_prefix '" +
+                                comment_safe(options.data_prefix) +
+                                "' must be letters, digits and _ . / + - only");
+  check_node_capacitances(chain);
+  const Analyses a = choose_analyses(chain, options);
+  const std::vector<int> outputs = chain.outputs();
+
+  std::ostringstream out;
+  write_header(out, chain);
+  write_stage_subckts(out, chain);
+  const std::string waveform = input_waveform(out, options, a);  // its comment precedes the source
+  write_input_source(out, chain, waveform);
+  write_stage_instances(out, chain, outputs);
+  const AnalysisCards cards = analysis_cards(a);
+  write_analyses(out, options, cards);
+  // The batch block writes data files instead of printing: the two are alternatives.
+  if (options.batch_control)
+    write_batch_control(out, chain, outputs, options.data_prefix, cards);
+  else
+    write_print_lines(out, chain, outputs);
   out << ".end\n";
   return out.str();
 }
