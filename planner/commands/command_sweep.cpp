@@ -34,7 +34,7 @@ int run_sweep_command(const SweepArgs& args) {
 
 Command add_sweep_command(CLI::App& app) {
   auto args = std::make_shared<SweepArgs>();
-  auto* cmd = app.add_subcommand("sweep", "the main output's metrics against one value stepped linearly");
+  auto* cmd = app.add_subcommand("sweep", "the main output's metrics against one value, stepped (linearly or with --log) or listed");
   cmd->add_option("chain", args->request.chain, "chain file (TOML), or - for standard input")->required();
   cmd->add_option("--vary", args->request.vary, "ID.KEY=START:STOP:N or ID.KEY=A,B,... (a list, words too), e.g. a1.rd=80ohm:160ohm:5 or a1.response=butterworth,bessel")->required();
   cmd->add_flag("--replan", args->request.replan, "re-plan the open values at every point");
