@@ -50,11 +50,8 @@ double total_gm(const Chain& chain) {
 }
 
 std::vector<PlanCheck> check_targets(const ChainSpec& spec, const FrequencyMetrics& f, const StepMetrics& t,
-                                     std::optional<double> total_gm, std::optional<double> input_noise_rms_a,
-                                     const LargeSignalEye* large_signal) {
-  return requirement_checks(spec, {f, t, total_gm, input_noise_rms_a, std::nullopt,
-                                   large_signal ? std::optional(large_signal->height_v) : std::nullopt,
-                                   large_signal ? std::optional(large_signal->ddj_pp_s) : std::nullopt});
+                                     std::optional<double> total_gm, std::optional<double> input_noise_rms_a) {
+  return requirement_checks(spec, {f, t, total_gm, input_noise_rms_a, std::nullopt});
 }
 
 namespace {

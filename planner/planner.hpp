@@ -36,7 +36,6 @@
 
 #include "models/analysis.hpp"
 #include "models/chain.hpp"
-#include "models/large_signal.hpp"
 #include "planner/input/chain_file.hpp"
 #include "planner/input/chain_graph.hpp"
 
@@ -132,12 +131,12 @@ std::string planned_chain_toml(const ChainSpec& spec, const Plan& plan);
 // The checks of `spec`'s targets and limits against an analysed output. `total_gm` (every stage
 // copy of the chain) adds the supply-current check when [technology] gives gm_over_id and a
 // current_budget.
-// `input_noise_rms_a` (a chain driven by a photocurrent) adds the sensitivity check.
-// `large_signal` (the main output's large-signal eye) adds the output_swing and ddj checks.
+// `input_noise_rms_a` (a chain driven by a photocurrent) adds the sensitivity check. A whole
+// analysed output (its eye, noise and large-signal eye too) is checked by analysis_checks
+// (planner/requirements.hpp).
 std::vector<PlanCheck> check_targets(const ChainSpec& spec, const FrequencyMetrics& f, const StepMetrics& t,
                                      std::optional<double> total_gm = std::nullopt,
-                                     std::optional<double> input_noise_rms_a = std::nullopt,
-                                     const LargeSignalEye* large_signal = nullptr);
+                                     std::optional<double> input_noise_rms_a = std::nullopt);
 // The average optical power the receiver needs at the target BER for that input noise
 // (models/receiver.hpp), W; NaN without a photodiode, a signal or a finite noise.
 double sensitivity_power(const ChainSpec& spec, double input_noise_rms_a);

@@ -57,7 +57,7 @@ struct Budget {
   std::string chain;
   std::vector<BudgetRow> rows;
   BudgetTotals totals;
-  std::vector<PlanCheck> checks;  // check_targets of the file; empty when it sets none
+  std::vector<PlanCheck> checks;  // analysis_checks of the file; empty when it sets none
   bool has_current = false;
   bool has_off_path = false;
 };

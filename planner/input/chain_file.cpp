@@ -371,30 +371,30 @@ void read_target(Reader& reader, const toml::table& root, ChainSpec& spec) {
   }
 }
 
+// A limit in dB that is a height or a depth (peaking, sag): a negative value is an error at it.
+std::optional<double> nonnegative_db(Reader& reader, const toml::node& n, const std::string& key, const char* rule) {
+  const auto v = reader.quantity(n, Dimension::decibels, key);
+  if (v && *v < 0.0) {
+    reader.error(n, key + " " + rule + ", saw " + shown(n));
+    return std::nullopt;
+  }
+  return v;
+}
+
 void read_limits(Reader& reader, const toml::table& root, ChainSpec& spec) {
   const auto* t = sub_table(reader, root, "limits");
   if (!t) return;
   reader.check_keys(*t, kLimitsKeys, "[limits]: ");
   if (const auto* n = t->get("overshoot"))
     spec.limits.overshoot = reader.bounded(*n, Dimension::fraction, "[limits] overshoot", false);
-  if (const auto* n = t->get("peaking")) {
-    spec.limits.peaking_db = reader.quantity(*n, Dimension::decibels, "[limits] peaking");
-    if (spec.limits.peaking_db && *spec.limits.peaking_db < 0.0) {
-      reader.error(*n, "[limits] peaking must be zero or positive, saw " + shown(*n));
-      spec.limits.peaking_db.reset();
-    }
-  }
+  if (const auto* n = t->get("peaking"))
+    spec.limits.peaking_db = nonnegative_db(reader, *n, "[limits] peaking", "must be zero or positive");
   if (const auto* n = t->get("group_delay_ripple"))
     spec.limits.group_delay_ripple = reader.bounded(*n, Dimension::time, "[limits] group_delay_ripple", false);
   if (const auto* n = t->get("ripple_band"))
     spec.limits.ripple_band = reader.bounded(*n, Dimension::frequency, "[limits] ripple_band", true);
-  if (const auto* n = t->get("sag")) {
-    spec.limits.sag_db = reader.quantity(*n, Dimension::decibels, "[limits] sag");
-    if (spec.limits.sag_db && *spec.limits.sag_db < 0.0) {
-      reader.error(*n, "[limits] sag is a depth: zero or positive, saw " + shown(*n));
-      spec.limits.sag_db.reset();
-    }
-  }
+  if (const auto* n = t->get("sag"))
+    spec.limits.sag_db = nonnegative_db(reader, *n, "[limits] sag", "is a depth: zero or positive");
   if (const auto* n = t->get("min_stage_gain"))
     spec.limits.min_stage_gain_db = reader.quantity(*n, Dimension::decibels, "[limits] min_stage_gain");
   if (const auto* n = t->get("ddj")) {
