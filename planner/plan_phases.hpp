@@ -46,9 +46,11 @@ FinalChecks final_checks(const ChainSpec& spec, const Problem& p, const std::vec
 // plan, kept only when it then meets every check. Updates `best` and `checks` in place.
 void repair(SearchContext& context, const Problem& p, Candidate& best, FinalChecks& checks, int& evaluations);
 
-// The final phase: the first ranked candidate checked and, if needed, repaired; should it still
-// miss a check, the next feasible ones (up to the third) in turn, the first that meets every
-// check taken. Returns the plan's candidate with its checks in `checks`.
+// The final phase: the first ranked candidate checked and, if needed, repaired, and the same
+// start polished at full fidelity; should the first still miss a check, the first of the next
+// feasible ones (up to the third) that meets every check. Of those that meet every check, the
+// best objective at full fidelity; when none does, the first as checked. Returns the plan's
+// candidate with its checks in `checks`.
 Candidate final_phase(SearchContext& context, const std::vector<Problem>& problems,
                       const std::vector<Candidate>& ranked, FinalChecks& checks, int& evaluations);
 

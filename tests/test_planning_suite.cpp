@@ -53,13 +53,10 @@ double bandwidth(const Plan& plan) {
 
 TEST_CASE("planning suite: every problem reaches 99 % of its reference bandwidth (101 % of its reference gm)") {
   // The bar is the (common practice for a planner: within 1 % of the best known), for
-  // every problem but two, which are held to what they measurably reach, not hidden:
-  // - p07: the optimum sits on the default 1 dB in-band sag edge, which the search measures on a
-  //   coarser scan than the final check; the planner stops 1.1 % short (98.9 %, measured);
+  // every problem but one, which is held to what it measurably reaches, not hidden:
   // - p10 (twelve values): the long runs themselves spread 2.4 % (three of the four 25x runs stop
-  //   within 0.6 % of 125.8 GHz, one finds 128.4); the planner reaches 97.4 % of that best.
-  const std::map<std::string, double> short_of_bar = {{"p07_kind_choice.toml", 0.985},
-                                                      {"p10_twelve_values.toml", 0.97}};
+  //   within 0.6 % of 125.8 GHz, one finds 128.4); the planner reaches 97.8 % of that best.
+  const std::map<std::string, double> short_of_bar = {{"p10_twelve_values.toml", 0.975}};
   int problems = 0;
   for (const auto& entry : std::filesystem::directory_iterator(kSuite)) {
     if (entry.path().extension() != ".toml") continue;
