@@ -5,6 +5,8 @@
 #include <nlopt.hpp>
 #include <stdexcept>
 
+#include "planner/plan_phases.hpp"
+
 namespace peakplan {
 namespace {
 
@@ -36,7 +38,9 @@ double penalised(unsigned n, const double* x, double*, void* data) {
   return s.objective + static_cast<Run*>(data)->penalty * s.violation;
 }
 
-double plain(unsigned n, const double* x, double*, void* data) { return static_cast<Run*>(data)->evaluate(x, n).objective; }
+double plain(unsigned n, const double* x, double*, void* data) {
+  return static_cast<Run*>(data)->evaluate(x, n).objective;
+}
 
 void constraints(unsigned m, double* result, unsigned n, const double* x, double*, void* data) {
   auto* run = static_cast<Run*>(data);
@@ -73,12 +77,14 @@ nlopt::opt global_optimiser(GlobalMethod method, unsigned n, Run& run) {
 
 int nlopt_global_budget(int n, int effort) { return std::max(1, effort) * kNloptPerStart * (12 + n) * (n + 2); }
 
-Candidate global_phase_nlopt(SearchContext& context, const Problem& p, size_t index, const std::vector<double>* around,
-                             int& evaluations, std::vector<Score>& finals) {
+namespace {
+
+// One NLopt global run of `method` with `budget` evaluations, then the constrained finish.
+Candidate nlopt_run(SearchContext& context, const Problem& p, size_t index, const std::vector<double>* around,
+                    GlobalMethod method, int budget, int& evaluations) {
   const auto lo = lower_units(p);
   const auto hi = upper_units(p);
   const int n = static_cast<int>(lo.size());
-  const int budget = nlopt_global_budget(n, context.options().effort);
   // One Search on this thread: NLopt calls its objective one point at a time, and its random
   // numbers (population draws, MLSL's sample) come from one generator seeded by nlopt::srand, so
   // the run must not be shared between threads for the plan to be the same every time.
@@ -91,7 +97,6 @@ Candidate global_phase_nlopt(SearchContext& context, const Problem& p, size_t in
   const Score at_start = run.evaluate(x.data(), x.size());
   run.penalty = 100.0 * std::max(1.0, std::fabs(at_start.objective));
 
-  const auto method = context.options().global_method;
   nlopt::srand(context.options().seed + 7919u * static_cast<unsigned>(index));
   // One run for the whole budget. Restarting a population that had not improved its penalised
   // best by 1e-5 within 30, 100 or 300 (n + 1) evaluations was tried and did worse at effort 4 on
@@ -117,8 +122,28 @@ Candidate global_phase_nlopt(SearchContext& context, const Problem& p, size_t in
   Candidate best{index, run.best_u, run.best};
   if (finished.better_than(best.score)) best = {index, u, finished};
   evaluations += search.evaluations();
-  finals.push_back(best.score);
   return best;
+}
+
+}  // namespace
+
+Candidate global_phase_nlopt(SearchContext& context, const Problem& p, size_t index, const std::vector<double>* around,
+                             int& evaluations, std::vector<Score>& finals) {
+  const auto method = context.options().global_method;
+  const int n = static_cast<int>(p.variables().size());
+  if (method != GlobalMethod::halving_crs2) {
+    auto best = nlopt_run(context, p, index, around, method, nlopt_global_budget(n, context.options().effort),
+                          evaluations);
+    finals.push_back(best.score);
+    return best;
+  }
+  // The multi-start first (its starts give the spread), then CRS2 from its best point with as
+  // many evaluations as the multi-start spent; the better of the two.
+  int spent = 0;
+  auto first = global_phase(context, p, index, around, spent, finals);
+  evaluations += spent;
+  auto second = nlopt_run(context, p, index, &first.u, GlobalMethod::crs2, spent, evaluations);
+  return second.score.better_than(first.score) ? second : first;
 }
 
 }  // namespace peakplan

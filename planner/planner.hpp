@@ -52,8 +52,9 @@ struct PlanProgress {
 
 // The global phase's method (step 2 above). halving: the multi-start with successive halving, the
 // planner's own; isres, mlsl, crs2: NLopt's global algorithms (planner/plan_global_nlopt.hpp), kept
-// for measuring against it and for independent reference runs (tests/planning); set in code only.
-enum class GlobalMethod { halving, isres, mlsl, crs2 };
+// for measuring against it and for independent reference runs (tests/planning); halving_crs2: the
+// multi-start, then CRS2 from its best. Set in code only.
+enum class GlobalMethod { halving, isres, mlsl, crs2, halving_crs2 };
 
 struct PlanOptions {
   int starts = 4;             // per combination in the design space: the seed plus random points

@@ -5,7 +5,7 @@
 # to PROBLEM.ref beside the problem with the method, the spread over the seeds and the cost.
 # METHOD (default halving, the planner's own global phase) picks the global phase: isres, mlsl or
 # crs2 run NLopt's global algorithm of that name instead (planner/plan_global_nlopt.hpp), with
-# EFFORT x 25 (12 + n)(n + 2) evaluations per seed.
+# EFFORT x 25 (12 + n)(n + 2) evaluations per seed; halving_crs2 runs the multi-start, then CRS2.
 #   cmake --build build --target peakplan_plan_reference && tests/planning/make_references.sh [build]
 set -eu
 here=$(cd "$(dirname "$0")" && pwd)
@@ -18,8 +18,8 @@ if [ "$method" = halving ]; then
   described="planner global phase x$effort"
   how="with its global phase's starts multiplied by $effort"
 else
-  described="NLopt $method global phase, effort $effort"
-  how="with NLopt's $method as its global phase at effort $effort"
+  described="global phase $method, effort $effort"
+  how="with $method as its global phase at effort $effort"
 fi
 for problem in "$here"/*.toml; do
   out=$("$runner" "$problem" --effort "$effort" --seeds "$seeds" --method "$method" 2>/dev/null)

@@ -3,9 +3,10 @@
 // each run's objective (bandwidth in Hz for widest, total gm in S for leanest), the best, the
 // spread over the seeds and what it cost. make_references.sh drives it and writes the .ref files.
 // --method picks the global phase (PlanOptions::global_method): halving, the planner's own (the
-// default), or one of NLopt's global algorithms, isres, mlsl or crs2, for an independent reference.
+// default), one of NLopt's global algorithms, isres, mlsl or crs2, for an independent reference, or
+// halving_crs2 (the multi-start, then CRS2 from its best).
 //
-//   peakplan_plan_reference PROBLEM.toml [--effort N] [--seeds N] [--method halving|isres|mlsl|crs2]
+//   peakplan_plan_reference PROBLEM.toml [--effort N] [--seeds N] [--method halving|isres|mlsl|crs2|halving_crs2]
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
@@ -21,24 +22,26 @@
 
 int main(int argc, char** argv) {
   if (argc < 2) {
-    std::fprintf(stderr, "usage: %s PROBLEM.toml [--effort N] [--seeds N] [--method halving|isres|mlsl|crs2]\n",
-                 argv[0]);
+    std::fprintf(stderr, "usage: %s PROBLEM.toml [--effort N] [--seeds N] [--method NAME]\n"
+                         "  NAME: halving, isres, mlsl, crs2 or halving_crs2\n", argv[0]);
     return 2;
   }
   const std::string path = argv[1];
   int effort = 100, seeds = 4;
-  auto method = peakplan::GlobalMethod::halving;
-  const std::map<std::string, peakplan::GlobalMethod> methods = {{"halving", peakplan::GlobalMethod::halving},
-                                                                 {"isres", peakplan::GlobalMethod::isres},
-                                                                 {"mlsl", peakplan::GlobalMethod::mlsl},
-                                                                 {"crs2", peakplan::GlobalMethod::crs2}};
+  using peakplan::GlobalMethod;
+  auto method = GlobalMethod::halving;
+  const std::map<std::string, GlobalMethod> methods = {{"halving", GlobalMethod::halving},
+                                                       {"isres", GlobalMethod::isres},
+                                                       {"mlsl", GlobalMethod::mlsl},
+                                                       {"crs2", GlobalMethod::crs2},
+                                                       {"halving_crs2", GlobalMethod::halving_crs2}};
   for (int i = 2; i + 1 < argc; i += 2) {
     if (!std::strcmp(argv[i], "--effort")) effort = std::atoi(argv[i + 1]);
     if (!std::strcmp(argv[i], "--seeds")) seeds = std::atoi(argv[i + 1]);
     if (!std::strcmp(argv[i], "--method")) {
       const auto m = methods.find(argv[i + 1]);
       if (m == methods.end()) {
-        std::fprintf(stderr, "--method: expected halving, isres, mlsl or crs2, got '%s'\n", argv[i + 1]);
+        std::fprintf(stderr, "--method: expected halving, isres, mlsl, crs2 or halving_crs2, got '%s'\n", argv[i + 1]);
         return 2;
       }
       method = m->second;
