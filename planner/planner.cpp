@@ -7,6 +7,7 @@
 
 #include "models/receiver.hpp"
 #include "models/units.hpp"
+#include "planner/plan_global_nlopt.hpp"
 #include "planner/plan_phases.hpp"
 #include "planner/plan_problem.hpp"
 #include "planner/plan_search.hpp"
@@ -197,7 +198,8 @@ std::optional<Plan> plan_chain(const ChainSpec& input, Diagnostics& diagnostics,
   if (const size_t top = explored.front().problem;
       !(*problems)[top].variables().empty() && (*problems)[top].variables().size() <= kGlobalValues) {
     context.set_phase("global");
-    global = global_phase(context, (*problems)[top], top, &explored.front().u, evaluations, finals);
+    global = (options.global_method == GlobalMethod::halving ? global_phase : global_phase_nlopt)(
+        context, (*problems)[top], top, &explored.front().u, evaluations, finals);
   }
   context.set_phase("full space");
   const auto ranked = refine(context, *problems, explored, global, evaluations);

@@ -3,6 +3,9 @@
 # with its global phase's starts multiplied by EFFORT (default 25) once for each of SEEDS seeds
 # (default 4; 25 x 4 = 100 times the planner's global budget in all), the best objective written
 # to PROBLEM.ref beside the problem with the method, the spread over the seeds and the cost.
+# METHOD (default halving, the planner's own global phase) picks the global phase: isres, mlsl or
+# crs2 run NLopt's global algorithm of that name instead (planner/plan_global_nlopt.hpp), with
+# EFFORT x 25 (12 + n)(n + 2) evaluations per seed; halving_crs2 runs the multi-start, then CRS2.
 #   cmake --build build --target peakplan_plan_reference && tests/planning/make_references.sh [build]
 set -eu
 here=$(cd "$(dirname "$0")" && pwd)
@@ -10,13 +13,21 @@ build=${1:-$here/../../build}
 runner=${RUNNER:-$build/tests/peakplan_plan_reference}
 effort=${EFFORT:-25}
 seeds=${SEEDS:-4}
+method=${METHOD:-halving}
+if [ "$method" = halving ]; then
+  described="planner global phase x$effort"
+  how="with its global phase's starts multiplied by $effort"
+else
+  described="global phase $method, effort $effort"
+  how="with $method as its global phase at effort $effort"
+fi
 for problem in "$here"/*.toml; do
-  out=$("$runner" "$problem" --effort "$effort" --seeds "$seeds" 2>/dev/null)
+  out=$("$runner" "$problem" --effort "$effort" --seeds "$seeds" --method "$method" 2>/dev/null)
   {
     echo "# Reference optimum of $(basename "$problem"), found by tests/planning/make_references.sh:"
-    echo "# the planner with its global phase's starts multiplied by $effort, once per seed ($seeds seeds),"
+    echo "# the planner $how, once per seed ($seeds seeds),"
     echo "# the best of the runs kept. spread: best against worst run, %. Regenerate, never edit."
-    echo "method = \"planner global phase x$effort, $seeds seeds (1000, 1007, 1014, ...)\""
+    echo "method = \"$described, $seeds seeds (1000, 1007, 1014, ...)\""
     echo "$out" | awk '/^reference/ {print "reference = " $2} /^spread/ {print "spread_pct = " $2}
                       /^evaluations/ {print "evaluations = " $2} /^seconds/ {print "seconds = " $2}'
     echo "$out" | awk '/^seed/ {sub(":", "", $2); print "# seed " $2 ": " $3}'
