@@ -319,7 +319,7 @@ Candidate final_phase(SearchContext& context, const std::vector<Problem>& proble
   repair(context, p, first, checks, evaluations);
   const bool first_met = checks.all_met();
   consider(first, checks);
-  if (!p.variables().empty()) {
+  if (!p.variables().empty() && p.variables().size() <= kGlobalValues) {
     const Candidate polished = full_fidelity_polish(context, p, ranked.front(), evaluations);
     if (polished.score.feasible()) consider(polished, final_checks(context.spec(), p, polished.u));
   }

@@ -192,9 +192,6 @@ std::optional<Plan> plan_chain(const ChainSpec& input, Diagnostics& diagnostics,
   const auto explored = search_combinations(context, *problems, evaluations);
   std::optional<Candidate> global;
   std::vector<Score> finals;
-  // Past kGlobalValues open values the design space carries the search (the global phase's
-  // starts would cost more than the whole plan; measured on tests/bench/bench_plan.cpp).
-  constexpr size_t kGlobalValues = 12;
   if (const size_t top = explored.front().problem;
       !(*problems)[top].variables().empty() && (*problems)[top].variables().size() <= kGlobalValues) {
     context.set_phase("global");
