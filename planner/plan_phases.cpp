@@ -304,12 +304,18 @@ struct Checked {
 Candidate final_phase(SearchContext& context, const std::vector<Problem>& problems,
                       const std::vector<Candidate>& ranked, FinalChecks& checks, int& evaluations) {
   std::optional<Checked> chosen;
-  // Keeps c when it meets every check and measures better than the one kept so far.
-  auto consider = [&](const Candidate& c, FinalChecks c_checks) {
+  // Keeps c when it meets every check and measures better than the one kept so far; its
+  // full-fidelity objective is measured unless `known` (the polish scored it at full fidelity).
+  auto consider = [&](const Candidate& c, FinalChecks c_checks, std::optional<double> known = std::nullopt) {
     if (!c_checks.all_met()) return;
-    Search search(context);
-    const double objective = search.score(problems[c.problem], c.u, Fidelity::final).objective;
-    evaluations += search.evaluations();
+    double objective = 0.0;
+    if (known) {
+      objective = *known;
+    } else {
+      Search search(context);
+      objective = search.score(problems[c.problem], c.u, Fidelity::final).objective;
+      evaluations += search.evaluations();
+    }
     if (!chosen || objective < chosen->objective) chosen = Checked{c, std::move(c_checks), objective};
   };
 
@@ -319,9 +325,10 @@ Candidate final_phase(SearchContext& context, const std::vector<Problem>& proble
   repair(context, p, first, checks, evaluations);
   const bool first_met = checks.all_met();
   consider(first, checks);
-  if (!p.variables().empty() && p.variables().size() <= kGlobalValues) {
+  if (global_sized(p)) {
     const Candidate polished = full_fidelity_polish(context, p, ranked.front(), evaluations);
-    if (polished.score.feasible()) consider(polished, final_checks(context.spec(), p, polished.u));
+    if (polished.score.feasible())
+      consider(polished, final_checks(context.spec(), p, polished.u), polished.score.objective);
   }
   // A shape the search's coarser measurement passed and the final one does not, and no repair:
   // the first runner-up that meets every check, checked the same way, is a contender too.

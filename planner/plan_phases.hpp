@@ -38,6 +38,11 @@ std::vector<Candidate> refine(SearchContext& context, const std::vector<Problem>
 // the final phase's full-fidelity polish would cost more than the whole plan (measured on
 // tests/bench/bench_plan.cpp: 20 values, 164 ms without the polish, 326 ms with it).
 inline constexpr size_t kGlobalValues = 12;
+// Whether a combination gets the global phase and the full-fidelity polish: 1 to kGlobalValues
+// open values.
+inline bool global_sized(const Problem& p) {
+  return !p.variables().empty() && p.variables().size() <= kGlobalValues;
+}
 
 // 4. Final check: the plan measured like analyze measures it, at every corner it is planned for.
 struct FinalChecks {

@@ -192,8 +192,7 @@ std::optional<Plan> plan_chain(const ChainSpec& input, Diagnostics& diagnostics,
   const auto explored = search_combinations(context, *problems, evaluations);
   std::optional<Candidate> global;
   std::vector<Score> finals;
-  if (const size_t top = explored.front().problem;
-      !(*problems)[top].variables().empty() && (*problems)[top].variables().size() <= kGlobalValues) {
+  if (const size_t top = explored.front().problem; global_sized((*problems)[top])) {
     context.set_phase("global");
     global = (options.global_method == GlobalMethod::halving ? global_phase : global_phase_nlopt)(
         context, (*problems)[top], top, &explored.front().u, evaluations, finals);
