@@ -506,6 +506,7 @@ std::vector<double> Problem::with_designs(std::vector<double> u,
 size_t Problem::start_dimensions() const {
   size_t n = 0;
   for (size_t i = 0; i < spec_.stages.size(); ++i) n += start_axes(i);
+  for (const auto& v : variables_) n += loose(v);
   return n;
 }
 
@@ -516,6 +517,13 @@ int Problem::start_axes(size_t stage) const {
     open_element = open_element || (v.table == stage && v.key != "gm" && v.key != "rd");
   return (variable_index(stage, "rd") >= 0) + (variable_index(stage, "gm") >= 0) +
          (open_element && info.design != DesignFactor::none);
+}
+
+bool Problem::loose(const Variable& v) const {
+  if (v.key == "gm" || v.key == "rd") return false;
+  const auto& info = load_kind_info(combo_.kinds[v.table]);
+  const auto* p = find_parameter(info, v.key);
+  return !(p && p->role == ParameterRole::element && info.design != DesignFactor::none);
 }
 
 std::vector<double> Problem::start_point(const std::vector<double>& cube) const {
@@ -549,18 +557,58 @@ std::vector<double> Problem::start_point(const std::vector<double>& cube) const 
     if (start_axes(i) > (variable_index(i, "rd") >= 0) + (variable_index(i, "gm") >= 0))
       factor[i] = std::exp(std::log(kWider * info.design_hi) - cube[k++] * std::log(kWider * kWider * info.design_hi / info.design_lo));
   }
-  // Unequal gains in the drawn proportions, together making the target gain (or as drawn).
-  const double shift_db = spec_.target.gain_db && free_copies > 0 ? (*spec_.target.gain_db - fixed_db - drawn_db) / free_copies : 0.0;
+  // A value no stage axis sets (a tia's Rf, a tail current) anywhere in its range: the starts
+  // differ in it too, rather than all beginning at its middle.
   for (size_t v = 0; v < variables_.size(); ++v) {
     const auto& var = variables_[v];
-    if (var.key != "rd") continue;
-    const double gain = std::exp(log_gain[var.table]) * from_db(shift_db);
-    const double rd = gain / std::max(value(u, var.table, "gm", 0.02), 1e-6);
-    u[v] = var.to_unit(std::clamp(rd, var.lo, var.hi));
+    if (loose(var)) u[v] = var.to_unit(var.lo) + cube[k++] * (var.to_unit(var.hi) - var.to_unit(var.lo));
   }
-  return with_designs(std::move(u), [&](size_t stage, LoadKind kind) {
-    return std::isfinite(factor[stage]) ? factor[stage] : load_kind_info(kind).design_seed;
-  });
+  // Unequal gains in the drawn proportions, together making the target gain (or as drawn).
+  const double shift_db = spec_.target.gain_db && free_copies > 0 ? (*spec_.target.gain_db - fixed_db - drawn_db) / free_copies : 0.0;
+  auto set_rd = [&](double extra_db) {
+    for (size_t v = 0; v < variables_.size(); ++v) {
+      const auto& var = variables_[v];
+      if (var.key != "rd") continue;
+      const double gain = std::exp(log_gain[var.table]) * from_db(shift_db + extra_db);
+      const double rd = gain / std::max(value(u, var.table, "gm", 0.02), 1e-6);
+      u[v] = var.to_unit(std::clamp(rd, var.lo, var.hi));
+    }
+  };
+  const auto designed = [&](std::vector<double> x) {
+    return with_designs(std::move(x), [&](size_t stage, LoadKind kind) {
+      return std::isfinite(factor[stage]) ? factor[stage] : load_kind_info(kind).design_seed;
+    });
+  };
+  set_rd(0.0);
+  // A transimpedance target instead of a gain: the same common shift, found on the chain itself.
+  if (spec_.target.transimpedance && !spec_.target.gain_db && free_copies > 0)
+    meet_transimpedance(u, set_rd, designed, free_copies);
+  return designed(std::move(u));
+}
+
+void Problem::meet_transimpedance(std::vector<double>& u, const std::function<void(double)>& set_rd,
+                                  const std::function<std::vector<double>(std::vector<double>)>& designed,
+                                  int free_copies) const {
+  // The common shift (dB) that makes the built chain's DC transimpedance the target, as the
+  // target is checked (the tia's loop, the peaking elements the designs give the shifted Rd and
+  // their coils' series loss included): a few secant steps, from one dB per dB per free stage
+  // copy (the transimpedance is close to a power of the shift; Rd meeting its bound bends it).
+  // Within 0.05 dB is plenty for a start.
+  const double target_db = to_db(*spec_.target.transimpedance);
+  auto miss_db = [&] {
+    const Chain chain = build(designed(u), Fidelity::search);
+    return to_db(std::fabs(output_cascade(chain, chain.outputs().back()).dc_value())) - target_db;
+  };
+  double shift = 0.0, slope = free_copies;
+  double miss = miss_db();
+  for (int it = 0; it < 6 && std::isfinite(miss) && std::fabs(miss) > 0.05; ++it) {
+    const double step = -miss / slope;
+    shift += step;
+    set_rd(shift);
+    const double next = miss_db();
+    if (std::fabs(step) > 1e-3 && std::isfinite(next)) slope = std::clamp((next - miss) / step, 0.1, 4.0 * free_copies);
+    miss = next;
+  }
 }
 
 }  // namespace peakplan

@@ -145,7 +145,10 @@ class Problem {
   // The global phase's starts, independent of the closed-form seeds: a point of the unit cube
   // gives, per stage, its own gain (open Rd; the drawn gains scaled together so the chain makes
   // its gain target, in the drawn proportions), its device size (open gm) and its own normalised
-  // peaking (m or zeta, for a kind with a design and open elements), each anywhere in its range.
+  // peaking (m or zeta, for a kind with a design and open elements), each anywhere in its range,
+  // and every open value none of those sets (a tia's Rf and Cf, a tail current) anywhere in its
+  // range. With a transimpedance target instead of a gain, the drawn gains are shifted together
+  // until the chain's DC transimpedance is the target.
   // Stage gains drawn unequal and peaking drawn per stage reach cross-stage equalisation, which
   // one shared gain and one factor per kind cannot.
   size_t start_dimensions() const;
@@ -160,6 +163,13 @@ class Problem {
   Chain assemble(const std::vector<double>& u) const;
   int variable_index(size_t stage, std::string_view key) const;
   int start_axes(size_t stage) const;
+  // An open value the starts' stage axes do not set (not gm, Rd or an element a design sets).
+  bool loose(const Variable& v) const;
+  // Shifts the starts' drawn gains together (set_rd, in dB) until the DC transimpedance of the
+  // chain with its designed elements (`designed`) meets the target.
+  void meet_transimpedance(std::vector<double>& u, const std::function<void(double)>& set_rd,
+                           const std::function<std::vector<double>(std::vector<double>)>& designed,
+                           int free_copies) const;
   // u with every peaking element of a kind with a design set from factor(spec stage, kind).
   std::vector<double> with_designs(std::vector<double> u, const std::function<double(size_t, LoadKind)>& factor) const;
   Evaluation measure(const Chain& chain, Fidelity fidelity) const;
