@@ -94,7 +94,9 @@ SteppedSimulator::SteppedSimulator(StateSpace model, double dt) : model_(std::mo
 namespace {
 
 // x[k+1] = phi x[k] + gamma u[k], y[k] = c x[k] + d u[k], for a fixed order N (0: the general
-// order n), so the compiler unrolls the small ones. The product is written out column by column:
+// order n), so the compiler unrolls and vectorises the orders chains have (up to 12: a T-coil,
+// a series and a shunt stage and a plain one are 10; measured, the planner's search on such a
+// chain spends 20 % less time than with the general loop from order 7 on). The product is written out column by column:
 // for the few states of a cascade a general matrix-vector product costs more in its set-up than
 // in its arithmetic. Column j of phi is used over rows rows[j].first .. rows[j].second - 1 only:
 // a cascade's phi is block lower triangular, with exact zeros above the blocks, and leaving out
@@ -140,6 +142,12 @@ std::vector<double> SteppedSimulator::run(const std::vector<double>& u) const {
     case 4: stepped_loop<4>(4, phi, rows_, gamma, c, d, u, y); break;
     case 5: stepped_loop<5>(5, phi, rows_, gamma, c, d, u, y); break;
     case 6: stepped_loop<6>(6, phi, rows_, gamma, c, d, u, y); break;
+    case 7: stepped_loop<7>(7, phi, rows_, gamma, c, d, u, y); break;
+    case 8: stepped_loop<8>(8, phi, rows_, gamma, c, d, u, y); break;
+    case 9: stepped_loop<9>(9, phi, rows_, gamma, c, d, u, y); break;
+    case 10: stepped_loop<10>(10, phi, rows_, gamma, c, d, u, y); break;
+    case 11: stepped_loop<11>(11, phi, rows_, gamma, c, d, u, y); break;
+    case 12: stepped_loop<12>(12, phi, rows_, gamma, c, d, u, y); break;
     default: stepped_loop<0>(model_.order(), phi, rows_, gamma, c, d, u, y); break;
   }
   return y;
