@@ -303,7 +303,9 @@ void normalise_and_unscale(std::vector<double>& num, std::vector<double>& den, d
 // critical damping det Y has a fourfold root, which no root finder resolves better than about
 // 1e-4). Candidates are matched loosely, divided out of both polynomials, and kept only if the
 // reduced function reproduces the original at test points about the radius rho (scaled s).
-void cancel_common_roots(std::vector<double>& num, std::vector<double>& den, double rho, double time_scale) {
+// Returns the roots of num and den as they are afterwards.
+std::pair<std::vector<std::complex<double>>, std::vector<std::complex<double>>> cancel_common_roots(
+    std::vector<double>& num, std::vector<double>& den, double rho, double time_scale) {
   const Rational original(num, den, time_scale);
   auto reproduces = [&](const std::vector<double>& n2, const std::vector<double>& d2) {
     const Rational reduced(n2, d2, time_scale);
@@ -316,7 +318,8 @@ void cancel_common_roots(std::vector<double>& num, std::vector<double>& den, dou
     return true;
   };
   auto zeros = polynomial_roots(num);
-  const auto poles = polynomial_roots(den);
+  auto poles = polynomial_roots(den);
+  bool cancelled = false;
   for (const auto& z : zeros) {
     if (z.imag() < 0.0) continue;  // handled with its conjugate
     double nearest = std::numeric_limits<double>::infinity();
@@ -330,8 +333,11 @@ void cancel_common_roots(std::vector<double>& num, std::vector<double>& den, dou
     if (reproduces(n2, d2)) {
       num = std::move(n2);
       den = std::move(d2);
+      cancelled = true;
     }
   }
+  if (cancelled) return {polynomial_roots(num), polynomial_roots(den)};
+  return {std::move(zeros), std::move(poles)};
 }
 
 }  // namespace
@@ -344,8 +350,9 @@ Rational NodalSystem::rational() const {
   std::vector<double> num, den;
   const double rho = interpolate_at_root_radius(a.g, a.c, a.b, output_, unit_roots(samples), characteristic_rate(), num, den);
   normalise_and_unscale(num, den, rho);
-  if (num.size() > 1 && den.size() > 1) cancel_common_roots(num, den, rho, time_scale);  // no roots to cancel otherwise
-  return Rational(num, den, time_scale);
+  if (num.size() < 2 || den.size() < 2) return Rational(num, den, time_scale);  // no roots to cancel
+  auto [zeros, poles] = cancel_common_roots(num, den, rho, time_scale);
+  return Rational(std::move(num), std::move(den), time_scale, std::move(zeros), std::move(poles));
 }
 
 }  // namespace peakplan

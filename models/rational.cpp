@@ -71,6 +71,14 @@ Rational::Rational(std::vector<double> num, std::vector<double> den, double time
   den_derivative_ = derivative(den_);
 }
 
+Rational::Rational(std::vector<double> num, std::vector<double> den, double time_scale,
+                   std::vector<std::complex<double>> num_roots, std::vector<std::complex<double>> den_roots)
+    : Rational(std::move(num), std::move(den), time_scale) {
+  has_roots_ = true;
+  num_roots_ = std::move(num_roots);
+  den_roots_ = std::move(den_roots);
+}
+
 std::complex<double> Rational::evaluate(std::complex<double> s) const {
   const auto x = s * time_scale_;
   return horner(num_, x) / horner(den_, x);
@@ -89,13 +97,13 @@ double Rational::dc_value() const {
 }
 
 std::vector<std::complex<double>> Rational::poles() const {
-  auto r = polynomial_roots(den_);
+  auto r = has_roots_ ? den_roots_ : polynomial_roots(den_);
   for (auto& p : r) p /= time_scale_;
   return r;
 }
 
 std::vector<std::complex<double>> Rational::zeros() const {
-  auto r = polynomial_roots(num_);
+  auto r = has_roots_ ? num_roots_ : polynomial_roots(num_);
   for (auto& z : r) z /= time_scale_;
   return r;
 }

@@ -14,6 +14,11 @@ class Rational {
  public:
   Rational() = default;  // H = 1
   Rational(std::vector<double> num, std::vector<double> den, double time_scale);
+  // The same with the roots of num and den (of the scaled s, as polynomial_roots gives them)
+  // already known to the caller: poles() and zeros() return them instead of solving again (a
+  // planner asks a stage's roots several times per candidate).
+  Rational(std::vector<double> num, std::vector<double> den, double time_scale,
+           std::vector<std::complex<double>> num_roots, std::vector<std::complex<double>> den_roots);
 
   std::complex<double> evaluate(std::complex<double> s) const;
   // d ln H / ds = N'/N - D'/D, per rad/s. Group delay is -Re of this at s = j*omega.
@@ -44,6 +49,8 @@ class Rational {
   std::vector<double> num_derivative_{0.0};
   std::vector<double> den_derivative_{0.0};
   double time_scale_ = 1e-12;
+  bool has_roots_ = false;
+  std::vector<std::complex<double>> num_roots_, den_roots_;  // scaled s, when has_roots_
 };
 
 // Roots of a real polynomial in ascending coefficients (companion-matrix eigenvalues).
