@@ -227,7 +227,7 @@ using Psd = std::function<double(double)>;
 // the total on the shipped chains (a one-decade margin left 2e-6).
 constexpr double kPanelMargin = 1.5;                  // decades
 constexpr double kPanelWidth = 0.5 * std::numbers::ln10;  // in ln f: half a decade at most
-constexpr double kGradedDamping = 0.35;               // graded below it (measured: 0.39 needs none)
+constexpr double kGradedDamping = 0.5;                // graded below it
 constexpr int kExtraDecades = 6;                      // as integrated_output_psd lets its span grow
 
 // Panel edges over [u_a, u_b] in u = ln f. A pole pair of damping zeta puts a peak in S(f) f

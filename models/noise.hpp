@@ -126,8 +126,8 @@ double integrate_psd_panels(const std::function<double(double)>& psd, double f_f
 // output_rms_noise by integrate_psd_panels: what a planner's search needs, many times over.
 // Measured on the shipped chains and the planned chains of chains/plan_*.toml and
 // tests/planning (48 cases, with and without a receiver limit): 74 to 244 PSD evaluations where
-// output_rms_noise at 40 a decade takes 246 to 370 (84 against 274 on the receiver), and within
-// 1.3e-7 of the rms at 160 a decade (40 a decade strays to 1e-4 on the most peaked of them).
+// output_rms_noise at 40 a decade takes 246 to 370 (104 against 274 on the planned receiver),
+// and within 2.2e-8 of the rms at 160 a decade (40 a decade strays to 1e-4 on the most peaked).
 double output_rms_noise_panels(const ChainNoise& noise);
 
 // Integral of |H(j 2 pi f)/H(0)|^2 over f in (0, inf), Hz, over the cascade's natural span
