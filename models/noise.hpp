@@ -110,8 +110,25 @@ NoiseSummary summarise_noise(const ChainNoise& noise);
 double integrate_psd(const std::function<double(double)>& psd, double f_lo, double f_hi, int per_decade = 160);
 
 // The output rms noise alone, V (summarise_noise's output_rms_v without the noise bandwidth), at
-// `per_decade` integration points: what a planner's search needs, many times over.
+// `per_decade` integration points.
 double output_rms_noise(const ChainNoise& noise, int per_decade = 160);
+
+// The same integral as integrate_psd at a fraction of its PSD evaluations, for a PSD that is a
+// rational function of f^2 (|transfer|^2 times white generators is) whose roots all lie within
+// [f_first, f_last]: 10-point Gauss-Legendre panels of at most half a decade in ln f, from 1.5
+// decades below f_first to 1.5 decades above f_last (further while the PSD has not settled to
+// its asymptote), narrowed about each lightly damped pair of `poles` (rad/s) in proportion to
+// its damping; below, a + b f^2 and above, c f^-2m (1 + d f^-2), each fitted at two points and
+// integrated in closed form. +inf when the PSD does not fall at least as 1/f^2.
+double integrate_psd_panels(const std::function<double(double)>& psd, double f_first, double f_last,
+                            const std::vector<std::complex<double>>& poles = {});
+
+// output_rms_noise by integrate_psd_panels: what a planner's search needs, many times over.
+// Measured on the shipped chains and the planned chains of chains/plan_*.toml and
+// tests/planning (48 cases, with and without a receiver limit): 74 to 244 PSD evaluations where
+// output_rms_noise at 40 a decade takes 246 to 370 (104 against 274 on the planned receiver),
+// and within 2.2e-8 of the rms at 160 a decade (40 a decade strays to 1e-4 on the most peaked).
+double output_rms_noise_panels(const ChainNoise& noise);
 
 // Integral of |H(j 2 pi f)/H(0)|^2 over f in (0, inf), Hz, over the cascade's natural span
 // (3 decades beyond every pole and zero); +inf for a biproper cascade (a direct path).
