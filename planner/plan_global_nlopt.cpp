@@ -127,23 +127,25 @@ Candidate nlopt_run(SearchContext& context, const Problem& p, size_t index, cons
 
 }  // namespace
 
-Candidate global_phase_nlopt(SearchContext& context, const Problem& p, size_t index, const std::vector<double>* around,
-                             int& evaluations, std::vector<Score>& finals) {
+std::vector<Candidate> global_phase_nlopt(SearchContext& context, const Problem& p, size_t index,
+                                          const std::vector<double>* around, int& evaluations,
+                                          std::vector<Score>& finals) {
   const auto method = context.options().global_method;
   const int n = static_cast<int>(p.variables().size());
   if (method != GlobalMethod::halving_crs2) {
     auto best = nlopt_run(context, p, index, around, method, nlopt_global_budget(n, context.options().effort),
                           evaluations);
     finals.push_back(best.score);
-    return best;
+    return {best};
   }
   // The multi-start first (its starts give the spread), then CRS2 from its best point with as
   // many evaluations as the multi-start spent; the better of the two.
   int spent = 0;
   auto first = global_phase(context, p, index, around, spent, finals);
   evaluations += spent;
-  auto second = nlopt_run(context, p, index, &first.u, GlobalMethod::crs2, spent, evaluations);
-  return second.score.better_than(first.score) ? second : first;
+  auto second = nlopt_run(context, p, index, &first.front().u, GlobalMethod::crs2, spent, evaluations);
+  if (second.score.better_than(first.front().score)) first.insert(first.begin(), second);
+  return first;
 }
 
 }  // namespace peakplan

@@ -31,7 +31,8 @@ int nlopt_global_budget(int n, int effort);
 // halving_crs2: the multi-start (global_phase, its starts in `finals`), then CRS2 from its best
 // point with as many evaluations as the multi-start spent; the better of the two.
 // Deterministic: nlopt::srand(seed) before the run, single-threaded.
-Candidate global_phase_nlopt(SearchContext& context, const Problem& p, size_t index, const std::vector<double>* around,
-                             int& evaluations, std::vector<Score>& finals);
+std::vector<Candidate> global_phase_nlopt(SearchContext& context, const Problem& p, size_t index,
+                                          const std::vector<double>* around, int& evaluations,
+                                          std::vector<Score>& finals);
 
 }  // namespace peakplan

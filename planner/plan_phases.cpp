@@ -114,8 +114,9 @@ int near_best(const ChainSpec& spec, const std::vector<Score>& finals) {
 namespace {
 
 // One batch of the global phase: `count` starts from `seed`, run by successive halving.
-Candidate global_batch(SearchContext& context, const Problem& p, size_t index, const std::vector<double>* around,
-                       int count, unsigned seed, int& evaluations, std::vector<Score>& finals) {
+std::vector<Candidate> global_batch(SearchContext& context, const Problem& p, size_t index,
+                                    const std::vector<double>* around, int count, unsigned seed, int& evaluations,
+                                    std::vector<Score>& finals) {
   const int n = static_cast<int>(p.variables().size());
   const auto lo = lower_units(p);
   const auto hi = upper_units(p);
@@ -165,14 +166,16 @@ Candidate global_batch(SearchContext& context, const Problem& p, size_t index, c
   alive = round(alive, 0.01, 6 * round_budget);
 
   for (const auto& t : tracks) finals.push_back(t.score);
-  const auto& best = tracks[alive.front()];
-  return {index, best.u, best.score};
+  // The starts that ran all three rounds, best first.
+  std::vector<Candidate> out;
+  for (size_t i : alive) out.push_back({index, tracks[i].u, tracks[i].score});
+  return out;
 }
 
 }  // namespace
 
-Candidate global_phase(SearchContext& context, const Problem& p, size_t index, const std::vector<double>* around,
-                       int& evaluations, std::vector<Score>& finals) {
+std::vector<Candidate> global_phase(SearchContext& context, const Problem& p, size_t index,
+                                    const std::vector<double>* around, int& evaluations, std::vector<Score>& finals) {
   // Budgets from the problem size and from the landscape (measured on the planning suite,
   // tests/planning): a batch is 12 + n starts, each first run for 6 (n + 2) evaluations; the best quarter
   // continue for 24 (n + 2), then the best half of those for 36 (n + 2). When fewer than three
@@ -186,18 +189,21 @@ Candidate global_phase(SearchContext& context, const Problem& p, size_t index, c
   const int count = std::max(1, context.options().effort) * (corners ? (12 + n) / 2 : 12 + n);
   const int batches = corners ? 1 : 3;
   constexpr int kAgreeing = 3;
-  Candidate best;
+  std::vector<Candidate> kept;
   for (int b = 0; b < batches; ++b) {
     const unsigned seed = context.options().seed + 7919u * static_cast<unsigned>(index) + 104729u * static_cast<unsigned>(b);
-    const auto c = global_batch(context, p, index, around, count << b, seed, evaluations, finals);
-    if (b == 0 || c.score.better_than(best.score)) best = c;
+    const auto batch = global_batch(context, p, index, around, count << b, seed, evaluations, finals);
+    kept.insert(kept.end(), batch.begin(), batch.end());
     if (near_best(context.spec(), finals) >= kAgreeing) break;
   }
-  return best;
+  // Every batch's long-run starts, best first (ties to the earlier batch and start), the best few.
+  std::stable_sort(kept.begin(), kept.end(), by_score);
+  if (kept.size() > kGlobalKept) kept.resize(kGlobalKept);
+  return kept;
 }
 
 std::vector<Candidate> refine(SearchContext& context, const std::vector<Problem>& problems,
-                              const std::vector<Candidate>& explored, const std::optional<Candidate>& global,
+                              const std::vector<Candidate>& explored, const std::vector<Candidate>& global,
                               int& evaluations) {
   const size_t refined = std::min(explored.size(), static_cast<size_t>(std::max(1, context.options().refined)));
   const auto pieces = run_pieces(context, refined, evaluations, [&](size_t r, Search& search) {
@@ -213,7 +219,7 @@ std::vector<Candidate> refine(SearchContext& context, const std::vector<Problem>
   // Every combination's best so far (the refined ones improved), and the global phase's.
   std::vector<Candidate> ranked = explored;
   for (size_t r = 0; r < pieces.size(); ++r) ranked[r] = pieces[r].best;
-  if (global) ranked.push_back(*global);
+  ranked.insert(ranked.end(), global.begin(), global.end());
   std::stable_sort(ranked.begin(), ranked.end(), by_score);
   std::vector<int> counts;
   for (const auto& c : ranked) counts.push_back(copies(problems[c.problem]));
@@ -332,7 +338,7 @@ Candidate final_phase(SearchContext& context, const std::vector<Problem>& proble
   }
   // A shape the search's coarser measurement passed and the final one does not, and no repair:
   // the first runner-up that meets every check, checked the same way, is a contender too.
-  for (size_t r = 1; !first_met && r < std::min(ranked.size(), size_t{3}); ++r) {
+  for (size_t r = 1; !first_met && r < std::min(ranked.size(), 1 + kGlobalKept); ++r) {
     Candidate next = ranked[r];
     if (!next.score.feasible()) break;
     auto next_checks = final_checks(context.spec(), problems[next.problem], next.u);

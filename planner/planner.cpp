@@ -190,7 +190,7 @@ std::optional<Plan> plan_chain(const ChainSpec& input, Diagnostics& diagnostics,
   SearchContext context(spec, options);
   int evaluations = 0;
   const auto explored = search_combinations(context, *problems, evaluations);
-  std::optional<Candidate> global;
+  std::vector<Candidate> global;
   std::vector<Score> finals;
   if (const size_t top = explored.front().problem; global_sized((*problems)[top])) {
     context.set_phase("global");

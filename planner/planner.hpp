@@ -17,11 +17,11 @@
 //     (three at most). It finds optima no closed-form design is near: unequal stage gains with
 //     one stage peaking hard to equalise another's pole, an asymmetric T-coil;
 //  3. refinement: the best combinations' design-space optima in the full space, ranked with the
-//     global phase's best; the first by the tie-break towards fewer stages and less current when
+//     global phase's best few starts; the first by the tie-break towards fewer stages and less current when
 //     the objectives are equal within a tolerance (plan_search.hpp) is polished with small steps;
 //  4. final check: the plan measured like analyze measures it; should a limit the search only
 //     just met be missed there, a short repair run at full fidelity follows, and failing that
-//     the runner-up that meets every check.
+//     the next that meets every check (the global phase's other best starts among them).
 // The spread of the global phase's starts (PlanSpread) says how sure the plan is.
 // Independent pieces (combinations, starts) run on every thread (PEAKPLAN_THREADS) and merge in
 // index order (plan_phases.hpp). When the constraints cannot all be met, COBYLA's merit function
