@@ -34,6 +34,13 @@ class SmallLU {
     factorise();
   }
 
+  // det A: the product of the pivots, negated once per row exchange.
+  Complex determinant() const {
+    Complex det = 1.0;
+    for (int k = 0; k < N; ++k) det *= swap_[k] != k ? -pivot_[k] : pivot_[k];
+    return det;
+  }
+
   // x with A x = b (b is overwritten).
   void solve(Vector& b) const {
     for (int k = 0; k < N; ++k) std::swap(b[k], b[swap_[k]]);
@@ -63,6 +70,7 @@ class SmallLU {
       if (pivot != k) std::swap(lu_[k], lu_[pivot]);
       // One division per pivot; the multipliers and the back substitution multiply by it.
       const Complex& p = lu_[k][k];
+      pivot_[k] = p;
       const double to_norm = 1.0 / std::norm(p);
       inverse_[k] = Complex(p.real() * to_norm, -p.imag() * to_norm);
       if (biggest == 0.0) continue;  // singular: nothing to eliminate with
@@ -74,6 +82,7 @@ class SmallLU {
 
   std::array<std::array<Complex, N>, N> lu_{};
   std::array<Complex, N> inverse_{};  // 1 / the pivot of each column
+  std::array<Complex, N> pivot_{};    // the pivot of each column, for the determinant
   std::array<int, N> swap_{};  // row k was exchanged with row swap_[k] at step k
 };
 
