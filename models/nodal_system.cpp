@@ -6,6 +6,7 @@
 #include <numbers>
 #include <stdexcept>
 
+#include "models/fixed_size.hpp"
 #include "models/small_lu.hpp"
 
 namespace peakplan {
@@ -190,21 +191,15 @@ std::pair<std::complex<double>, std::complex<double>> NodalSystem::transfer_and_
     std::complex<double> s) const {
   if (output_ == ground) throw std::logic_error("NodalSystem: no output node set");
   const auto& a = assembled();
-  switch (size()) {  // the sizes stages have: fixed-size matrices, unrolled by Eigen
-    case 1: return solve_fixed<1>(a, s * time_scale, output_, time_scale);
-    case 2: return solve_fixed<2>(a, s * time_scale, output_, time_scale);
-    case 3: return solve_fixed<3>(a, s * time_scale, output_, time_scale);
-    case 4: return solve_fixed<4>(a, s * time_scale, output_, time_scale);
-    case 5: return solve_fixed<5>(a, s * time_scale, output_, time_scale);
-    case 6: return solve_fixed<6>(a, s * time_scale, output_, time_scale);
-    case 7: return solve_fixed<7>(a, s * time_scale, output_, time_scale);
-    case 8: return solve_fixed<8>(a, s * time_scale, output_, time_scale);
-    default: break;
-  }
-  const Eigen::PartialPivLU<Eigen::MatrixXcd> lu(a.g + (s * time_scale) * a.c);
-  const Eigen::VectorXcd x = lu.solve(a.b);
-  const Eigen::VectorXcd dx = -lu.solve(a.c * x);  // per scaled s
-  return {x(output_), dx(output_) * time_scale};
+  // The sizes stages have: fixed-size matrices, unrolled.
+  return with_fixed_size<8>(
+      size(), [&](auto n) { return solve_fixed<n.value>(a, s * time_scale, output_, time_scale); },
+      [&]() -> std::pair<std::complex<double>, std::complex<double>> {
+        const Eigen::PartialPivLU<Eigen::MatrixXcd> lu(a.g + (s * time_scale) * a.c);
+        const Eigen::VectorXcd x = lu.solve(a.b);
+        const Eigen::VectorXcd dx = -lu.solve(a.c * x);  // per scaled s
+        return {x(output_), dx(output_) * time_scale};
+      });
 }
 
 std::complex<double> NodalSystem::impedance(int node, std::complex<double> s) const {
@@ -243,19 +238,13 @@ std::pair<std::complex<double>, std::complex<double>> determinant_and_output_fix
 std::pair<std::complex<double>, std::complex<double>> determinant_and_output(
     const Eigen::MatrixXcd& g, const Eigen::MatrixXcd& c, const Eigen::VectorXcd& rhs, int output,
     std::complex<double> s) {
-  switch (g.rows()) {
-    case 1: return determinant_and_output_fixed<1>(g, c, rhs, output, s);
-    case 2: return determinant_and_output_fixed<2>(g, c, rhs, output, s);
-    case 3: return determinant_and_output_fixed<3>(g, c, rhs, output, s);
-    case 4: return determinant_and_output_fixed<4>(g, c, rhs, output, s);
-    case 5: return determinant_and_output_fixed<5>(g, c, rhs, output, s);
-    case 6: return determinant_and_output_fixed<6>(g, c, rhs, output, s);
-    case 7: return determinant_and_output_fixed<7>(g, c, rhs, output, s);
-    case 8: return determinant_and_output_fixed<8>(g, c, rhs, output, s);
-    default: break;
-  }
-  const Eigen::PartialPivLU<Eigen::MatrixXcd> lu(g + s * c);
-  return {lu.determinant(), lu.solve(rhs)(output)};
+  return with_fixed_size<8>(
+      static_cast<int>(g.rows()),
+      [&](auto n) { return determinant_and_output_fixed<n.value>(g, c, rhs, output, s); },
+      [&]() -> std::pair<std::complex<double>, std::complex<double>> {
+        const Eigen::PartialPivLU<Eigen::MatrixXcd> lu(g + s * c);
+        return {lu.determinant(), lu.solve(rhs)(output)};
+      });
 }
 
 // The polynomials det(G + sC) (den) and det(G + sC) * v_out(s) (num) of the scaled s, as

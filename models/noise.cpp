@@ -8,6 +8,7 @@
 
 #include <boost/math/quadrature/gauss.hpp>
 
+#include "models/fixed_size.hpp"
 #include "models/small_lu.hpp"
 
 namespace peakplan {
@@ -75,22 +76,16 @@ CircuitNoise::CircuitNoise(const NodalSystem& system, const NoiseOptions& option
 std::pair<std::complex<double>, double> CircuitNoise::evaluate(double f_hz) const {
   const std::complex<double> s_scaled(0.0, kTwoPi * f_hz * NodalSystem::time_scale);
   // v_out = e_out^T (G + sC)^-1 e = w^T e for every right-hand side e: one transposed solve.
-  switch (g_.rows()) {
-    case 1: return evaluate_fixed<1>(g_real_, c_real_, b_real_, output_, generators_, s_scaled);
-    case 2: return evaluate_fixed<2>(g_real_, c_real_, b_real_, output_, generators_, s_scaled);
-    case 3: return evaluate_fixed<3>(g_real_, c_real_, b_real_, output_, generators_, s_scaled);
-    case 4: return evaluate_fixed<4>(g_real_, c_real_, b_real_, output_, generators_, s_scaled);
-    case 5: return evaluate_fixed<5>(g_real_, c_real_, b_real_, output_, generators_, s_scaled);
-    case 6: return evaluate_fixed<6>(g_real_, c_real_, b_real_, output_, generators_, s_scaled);
-    case 7: return evaluate_fixed<7>(g_real_, c_real_, b_real_, output_, generators_, s_scaled);
-    case 8: return evaluate_fixed<8>(g_real_, c_real_, b_real_, output_, generators_, s_scaled);
-    default: break;
-  }
-  const Eigen::MatrixXcd y = (g_ + s_scaled * c_).transpose();
-  const Eigen::VectorXcd w = Eigen::PartialPivLU<Eigen::MatrixXcd>(y).solve(e_out_);
-  double psd = 0.0;
-  for (const auto& [gen, density] : generators_) psd += std::norm(excitation(w, gen)) * density;
-  return {w.cwiseProduct(b_).sum(), psd};
+  return with_fixed_size<8>(
+      static_cast<int>(g_.rows()),
+      [&](auto n) { return evaluate_fixed<n.value>(g_real_, c_real_, b_real_, output_, generators_, s_scaled); },
+      [&]() -> std::pair<std::complex<double>, double> {
+        const Eigen::MatrixXcd y = (g_ + s_scaled * c_).transpose();
+        const Eigen::VectorXcd w = Eigen::PartialPivLU<Eigen::MatrixXcd>(y).solve(e_out_);
+        double psd = 0.0;
+        for (const auto& [gen, density] : generators_) psd += std::norm(excitation(w, gen)) * density;
+        return {w.cwiseProduct(b_).sum(), psd};
+      });
 }
 
 ChainNoise::ChainNoise(const Chain& chain, int output, NoiseOptions options) : options_(options) {
@@ -195,15 +190,21 @@ double noise_bandwidth(const Cascade& cascade) {
 
 namespace {
 
+// The output PSD behind the receiver's first-order limit (none when its bandwidth is 0), as the
+// rms, Q and BER take it.
+std::function<double(double)> receiver_limited_psd(const ChainNoise& noise) {
+  const double fr = noise.options().receiver_bandwidth_hz;
+  return [&noise, fr](double f) {
+    const double psd_out = noise.output_psd(f);
+    return fr > 0.0 ? psd_out / (1.0 + (f / fr) * (f / fr)) : psd_out;
+  };
+}
+
 // The integrated output PSD with the receiver's first-order limit, over a span that grows (up to
 // six decades) while the PSD still falls too slowly at its end; returns it and the span's end.
 std::pair<double, double> integrated_output_psd(const ChainNoise& noise, int per_decade) {
   auto [f_lo, f_hi] = natural_span(noise.cascade(), 3.0);
-  const double fr = noise.options().receiver_bandwidth_hz;
-  const auto psd = [&](double f) {
-    const double psd_out = noise.output_psd(f);
-    return fr > 0.0 ? psd_out / (1.0 + (f / fr) * (f / fr)) : psd_out;
-  };
+  const auto psd = receiver_limited_psd(noise);
   double total = integrate_psd(psd, f_lo, f_hi, per_decade);
   for (int extra = 0; extra < 6 && !std::isfinite(total); ++extra) {
     f_hi *= 10.0;
@@ -339,11 +340,7 @@ double output_rms_noise_panels(const ChainNoise& noise) {
     f_first = std::min(f_first, fr);
     f_last = std::max(f_last, fr);
   }
-  const auto psd = [&](double f) {
-    const double psd_out = noise.output_psd(f);
-    return fr > 0.0 ? psd_out / (1.0 + (f / fr) * (f / fr)) : psd_out;
-  };
-  return std::sqrt(integrate_psd_panels(psd, f_first, f_last, noise.cascade().poles()));
+  return std::sqrt(integrate_psd_panels(receiver_limited_psd(noise), f_first, f_last, noise.cascade().poles()));
 }
 
 NoiseSummary summarise_noise(const ChainNoise& noise) {

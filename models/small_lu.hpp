@@ -34,10 +34,10 @@ class SmallLU {
     factorise();
   }
 
-  // det A: the product of the pivots, negated once per row exchange.
+  // det A: the product of the pivots (U's diagonal), negated once per row exchange.
   Complex determinant() const {
     Complex det = 1.0;
-    for (int k = 0; k < N; ++k) det *= swap_[k] != k ? -pivot_[k] : pivot_[k];
+    for (int k = 0; k < N; ++k) det *= swap_[k] != k ? -lu_[k][k] : lu_[k][k];
     return det;
   }
 
@@ -70,7 +70,6 @@ class SmallLU {
       if (pivot != k) std::swap(lu_[k], lu_[pivot]);
       // One division per pivot; the multipliers and the back substitution multiply by it.
       const Complex& p = lu_[k][k];
-      pivot_[k] = p;
       const double to_norm = 1.0 / std::norm(p);
       inverse_[k] = Complex(p.real() * to_norm, -p.imag() * to_norm);
       if (biggest == 0.0) continue;  // singular: nothing to eliminate with
@@ -82,7 +81,6 @@ class SmallLU {
 
   std::array<std::array<Complex, N>, N> lu_{};
   std::array<Complex, N> inverse_{};  // 1 / the pivot of each column
-  std::array<Complex, N> pivot_{};    // the pivot of each column, for the determinant
   std::array<int, N> swap_{};  // row k was exchanged with row swap_[k] at step k
 };
 

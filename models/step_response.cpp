@@ -6,6 +6,7 @@
 #include <stdexcept>
 #include <unsupported/Eigen/MatrixFunctions>
 
+#include "models/fixed_size.hpp"
 #include "models/frequency_response.hpp"
 
 namespace peakplan {
@@ -97,8 +98,8 @@ namespace {
 // order n), so the compiler unrolls and vectorises the orders chains have (up to 16: a T-coil,
 // a series and a shunt stage and a plain one are 10; measured, the planner's search on such a
 // chain spends 20 % less time than with the general loop from order 7 on, and a six-stage one
-// 10 % less from order 13 on, although the fixed loop multiplies the exact zeros too). The product is written out column by column:
-// for the few states of a cascade a general matrix-vector product costs more in its set-up than
+// 10 % less from order 13 on, although the fixed loop multiplies the exact zeros too). The
+// product is written out column by column: for the few states of a cascade a general matrix-vector product costs more in its set-up than
 // in its arithmetic. Column j of phi is used over rows rows[j].first .. rows[j].second - 1 only:
 // a cascade's phi is block lower triangular, with exact zeros above the blocks, and leaving out
 // a product with an exact zero changes no sum. Each row sums its terms in column order, as the
@@ -136,25 +137,9 @@ std::vector<double> SteppedSimulator::run(const std::vector<double>& u) const {
   const double* gamma = gamma_.data();
   const auto& c = model_.c;
   const double d = model_.d;
-  switch (model_.order()) {
-    case 1: stepped_loop<1>(1, phi, rows_, gamma, c, d, u, y); break;
-    case 2: stepped_loop<2>(2, phi, rows_, gamma, c, d, u, y); break;
-    case 3: stepped_loop<3>(3, phi, rows_, gamma, c, d, u, y); break;
-    case 4: stepped_loop<4>(4, phi, rows_, gamma, c, d, u, y); break;
-    case 5: stepped_loop<5>(5, phi, rows_, gamma, c, d, u, y); break;
-    case 6: stepped_loop<6>(6, phi, rows_, gamma, c, d, u, y); break;
-    case 7: stepped_loop<7>(7, phi, rows_, gamma, c, d, u, y); break;
-    case 8: stepped_loop<8>(8, phi, rows_, gamma, c, d, u, y); break;
-    case 9: stepped_loop<9>(9, phi, rows_, gamma, c, d, u, y); break;
-    case 10: stepped_loop<10>(10, phi, rows_, gamma, c, d, u, y); break;
-    case 11: stepped_loop<11>(11, phi, rows_, gamma, c, d, u, y); break;
-    case 12: stepped_loop<12>(12, phi, rows_, gamma, c, d, u, y); break;
-    case 13: stepped_loop<13>(13, phi, rows_, gamma, c, d, u, y); break;
-    case 14: stepped_loop<14>(14, phi, rows_, gamma, c, d, u, y); break;
-    case 15: stepped_loop<15>(15, phi, rows_, gamma, c, d, u, y); break;
-    case 16: stepped_loop<16>(16, phi, rows_, gamma, c, d, u, y); break;
-    default: stepped_loop<0>(model_.order(), phi, rows_, gamma, c, d, u, y); break;
-  }
+  with_fixed_size<16>(
+      model_.order(), [&](auto n) { stepped_loop<n.value>(n.value, phi, rows_, gamma, c, d, u, y); },
+      [&] { stepped_loop<0>(model_.order(), phi, rows_, gamma, c, d, u, y); });
   return y;
 }
 
@@ -282,16 +267,9 @@ std::vector<double> HoldSimulator::run(const std::vector<double>& u) const {
   if (u.empty()) return y;
   const bool cubic = hold_ == Hold::cubic;
   const double *phi = phi_.data(), *w = w_.data(), *c = c_.data();
-  switch (n_) {
-    case 0: hold_loop<0>(0, cubic, period_, d_, phi, w, c, u, y); break;
-    case 1: hold_loop<1>(1, cubic, period_, d_, phi, w, c, u, y); break;
-    case 2: hold_loop<2>(2, cubic, period_, d_, phi, w, c, u, y); break;
-    case 3: hold_loop<3>(3, cubic, period_, d_, phi, w, c, u, y); break;
-    case 4: hold_loop<4>(4, cubic, period_, d_, phi, w, c, u, y); break;
-    case 5: hold_loop<5>(5, cubic, period_, d_, phi, w, c, u, y); break;
-    case 6: hold_loop<6>(6, cubic, period_, d_, phi, w, c, u, y); break;
-    default: hold_loop<0>(n_, cubic, period_, d_, phi, w, c, u, y); break;
-  }
+  with_fixed_size<6>(
+      n_, [&](auto n) { hold_loop<n.value>(n.value, cubic, period_, d_, phi, w, c, u, y); },
+      [&] { hold_loop<0>(n_, cubic, period_, d_, phi, w, c, u, y); });
   return y;
 }
 

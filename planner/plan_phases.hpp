@@ -29,8 +29,8 @@ std::vector<Candidate> global_phase(SearchContext& context, const Problem& p, si
                                     const std::vector<double>* around, int& evaluations, std::vector<Score>& finals);
 
 // 3. Refinement: the most promising combinations' design-space optima in the full space, one per
-//    thread. Returns them and the global phase's starts ranked: first the best by the stage-count tie-break,
-//    polished, then the rest by score.
+//    thread. Returns them and the global phase's starts ranked: first the best by the
+//    stage-count tie-break, polished, then the rest by score.
 std::vector<Candidate> refine(SearchContext& context, const std::vector<Problem>& problems,
                               const std::vector<Candidate>& explored, const std::vector<Candidate>& global,
                               int& evaluations);
@@ -65,9 +65,8 @@ void repair(SearchContext& context, const Problem& p, Candidate& best, FinalChec
 // The final phase: the first ranked candidate checked and, if needed, repaired, and the same
 // start polished at full fidelity (up to kGlobalValues open values); should the first still miss
 // a check, the first of the next feasible ones (up to 1 + kGlobalKept: the global phase's other
-// long-run starts are among them) that meets every check. Of those
-// that meet every check, the best objective at full fidelity; when none does, the first as
-// checked. Returns the plan's candidate with its checks in `checks`.
+// long-run starts are among them) that meets every check. Of those that meet every check, the
+// best objective at full fidelity; when none does, the first as checked. Returns the plan's candidate with its checks in `checks`.
 Candidate final_phase(SearchContext& context, const std::vector<Problem>& problems,
                       const std::vector<Candidate>& ranked, FinalChecks& checks, int& evaluations);
 
