@@ -50,10 +50,10 @@ class CircuitNoise {
   std::pair<std::complex<double>, double> evaluate(double f_hz) const;
 
  private:
-  Eigen::MatrixXcd g_, c_;
-  Eigen::VectorXcd b_, e_out_;
-  Eigen::MatrixXd g_real_, c_real_;  // the same, for the fixed-size solves
+  Eigen::MatrixXd g_real_, c_real_;
   Eigen::VectorXd b_real_;
+  Eigen::MatrixXcd g_, c_;  // complex copies, for the systems too large for the fixed-size solves
+  Eigen::VectorXcd b_, e_out_;
   int output_ = 0;
   std::vector<std::pair<NodalSystem::NoiseGenerator, double>> generators_;  // with their PSD
 };
@@ -64,6 +64,8 @@ class ChainNoise {
   // Throws std::logic_error for an output that is not a stage of the chain.
   // The chain's c_node values must be filled (fill_node_capacitances), as for output_cascade.
   ChainNoise(const Chain& chain, int output, NoiseOptions options = {});
+  // The same, given the output's cascade (output_cascade(chain, output)) already derived.
+  ChainNoise(const Chain& chain, int output, NoiseOptions options, Cascade cascade);
 
   double output_psd(double f_hz) const;          // V^2/Hz
   std::complex<double> transfer(double f_hz) const;  // v_out / v_source, exact nodal solves
@@ -115,7 +117,7 @@ double output_rms_noise(const ChainNoise& noise, int per_decade = 160);
 
 // The same integral as integrate_psd at a fraction of its PSD evaluations, for a PSD that is a
 // rational function of f^2 (|transfer|^2 times white generators is) whose roots all lie within
-// [f_first, f_last]: 10-point Gauss-Legendre panels of at most half a decade in ln f, from 1.5
+// [f_first, f_last]: 7-point Gauss-Legendre panels of at most half a decade in ln f, from 1.5
 // decades below f_first to 1.5 decades above f_last (further while the PSD has not settled to
 // its asymptote), narrowed about each lightly damped pair of `poles` (rad/s) in proportion to
 // its damping; below, a + b f^2 and above, c f^-2m (1 + d f^-2), each fitted at two points and

@@ -382,7 +382,7 @@ Evaluation Problem::measure(const Chain& chain, Fidelity fidelity) const {
     NoiseOptions noise;
     noise.temperature = spec_.technology.temperature;
     noise.gamma = spec_.technology.gamma;
-    const ChainNoise model(chain, chain.outputs().back(), noise);
+    const ChainNoise model(chain, chain.outputs().back(), noise, cascade);
     e.input_noise_rms_a = search_or_final_rms(model, fidelity) / std::fabs(model.dc_gain());
   }
   if (large_signal_) {
@@ -404,7 +404,7 @@ Evaluation Problem::measure(const Chain& chain, Fidelity fidelity) const {
 // bandwidth) and, for a BER limit, the statistical eye's BER at the swing from the PRBS eye.
 void Problem::measure_output_noise(const Chain& chain, const Cascade& cascade, Fidelity fidelity, Evaluation& e) const {
   const auto options = analysis_options(spec_);
-  const ChainNoise model(chain, chain.outputs().back(), options.noise);
+  const ChainNoise model(chain, chain.outputs().back(), options.noise, cascade);
   e.output_noise_rms_v = std::sqrt(2.0) * search_or_final_rms(model, fidelity);
   if (!spec_.limits.ber || !options.swing_given || !options.signal) return;
   const auto eye = estimate_eye(cascade, *options.signal);
