@@ -176,19 +176,29 @@ struct LogAxis {
 };
 
 // The magnitude at every scan point, and the largest one above h0 (peak_index = size: none).
+// A scan for the bandwidth alone fills its magnitudes only as far as the crossing search reads
+// them (at(i)); nothing past the crossing is measured then, and the peak is not kept.
 struct MagnitudeScan {
+  const LogAxis* axis = nullptr;
   std::vector<double> us, mags;
+  size_t filled = 0;
   double peak_mag = 0.0;
   size_t peak_index = 0;
   size_t size() const { return us.size(); }
+  double at(size_t i) {
+    for (; filled <= i; ++filled) mags[filled] = axis->mag(us[filled]);
+    return mags[i];
+  }
 };
 
-MagnitudeScan scan_magnitude(const LogAxis& axis, std::vector<double> us, double h0) {
+MagnitudeScan scan_magnitude(const LogAxis& axis, std::vector<double> us, double h0, bool on_demand) {
   MagnitudeScan s;
+  s.axis = &axis;
   s.us = std::move(us);
   s.mags.resize(s.size());
   s.peak_mag = h0;
   s.peak_index = s.size();
+  if (on_demand) return s;
   for (size_t i = 0; i < s.size(); ++i) {
     s.mags[i] = axis.mag(s.us[i]);
     if (s.mags[i] > s.peak_mag) {
@@ -196,6 +206,7 @@ MagnitudeScan scan_magnitude(const LogAxis& axis, std::vector<double> us, double
       s.peak_index = i;
     }
   }
+  s.filled = s.size();
   return s;
 }
 
@@ -208,16 +219,16 @@ struct Crossing {
   double a = 0.0, b = 0.0;
 };
 
-Crossing first_crossing(const LogAxis& axis, const MagnitudeScan& scan, double level) {
+Crossing first_crossing(const LogAxis& axis, MagnitudeScan& scan, double level) {
   const auto& us = scan.us;
-  const auto& mags = scan.mags;
   const size_t n = scan.size();
   Crossing c{n};
   for (size_t i = 0; i < n && c.index == n; ++i) {
-    if (mags[i] < level) {
+    const double mag = scan.at(i);
+    if (mag < level) {
       if (i == 0) break;  // already below at the bottom of the span: not expected for dc-coupled
       c = {i, us[i - 1], us[i]};
-    } else if (i > 0 && i + 1 < n && mags[i] <= mags[i - 1] && mags[i] <= mags[i + 1] && mags[i] < level * 1.06) {
+    } else if (i > 0 && i + 1 < n && mag <= scan.at(i - 1) && mag <= scan.at(i + 1) && mag < level * 1.06) {
       const auto [u_min, neg] = golden_max([&](double u) { return -axis.mag(u); }, us[i - 1], us[i + 1]);
       if (-neg < level) c = {i, us[i - 1], u_min};
     }
@@ -300,7 +311,7 @@ FrequencyMetrics frequency_metrics(const Cascade& cascade, double ripple_band_hz
   const auto [f_lo, f_hi] = span_of(roots_hz, scan.margin_decades);
   const int points = std::max(2, static_cast<int>(std::log10(f_hi / f_lo) * scan.per_decade));
   const LogAxis axis{cascade, f_lo};
-  const auto mags = scan_magnitude(axis, scan_points(roots_hz, f_lo, std::log(f_hi / f_lo), points), h0);
+  auto mags = scan_magnitude(axis, scan_points(roots_hz, f_lo, std::log(f_hi / f_lo), points), h0, scan.bandwidth_only);
 
   // Bandwidth: the first fall below h0/sqrt(2), bracketed by the scan, then bisection.
   const double level = h0 / std::sqrt(2.0);
@@ -310,6 +321,7 @@ FrequencyMetrics frequency_metrics(const Cascade& cascade, double ripple_band_hz
     if (scan.bandwidth_only) return m;
     measure_sag(axis, mags, crossing.index, h0, m);
   }
+  if (scan.bandwidth_only) return m;  // none in the span
   measure_peak(axis, mags, h0, m);
 
   const double band = std::isfinite(ripple_band_hz) ? ripple_band_hz : m.bandwidth_hz;

@@ -5,6 +5,7 @@
 #include <nlopt.hpp>
 #include <stdexcept>
 
+#include "models/parallel.hpp"
 #include "planner/plan_phases.hpp"
 
 namespace peakplan {
@@ -81,13 +82,14 @@ namespace {
 
 // One NLopt global run of `method` with `budget` evaluations, then the constrained finish.
 Candidate nlopt_run(SearchContext& context, const Problem& p, size_t index, const std::vector<double>* around,
-                    GlobalMethod method, int budget, int& evaluations) {
+                    GlobalMethod method, int budget, int& evaluations, unsigned stream = 0) {
   const auto lo = lower_units(p);
   const auto hi = upper_units(p);
   const int n = static_cast<int>(lo.size());
   // One Search on this thread: NLopt calls its objective one point at a time, and its random
-  // numbers (population draws, MLSL's sample) come from one generator seeded by nlopt::srand, so
-  // the run must not be shared between threads for the plan to be the same every time.
+  // numbers (population draws, MLSL's sample) come from its generator for this thread (thread-local
+  // in NLopt), seeded here by nlopt::srand, so the run must not be shared between threads for the
+  // plan to be the same every time; runs on other threads draw from their own.
   Search search(context);
   Run run{&search, &p, 0.0, {}, {}, {}, {}};
   std::vector<double> x(static_cast<size_t>(n));
@@ -97,7 +99,7 @@ Candidate nlopt_run(SearchContext& context, const Problem& p, size_t index, cons
   const Score at_start = run.evaluate(x.data(), x.size());
   run.penalty = 100.0 * std::max(1.0, std::fabs(at_start.objective));
 
-  nlopt::srand(context.options().seed + 7919u * static_cast<unsigned>(index));
+  nlopt::srand(context.options().seed + 7919u * static_cast<unsigned>(index) + 104729u * stream);
   // One run for the whole budget. Restarting a population that had not improved its penalised
   // best by 1e-5 within 30, 100 or 300 (n + 1) evaluations was tried and did worse at effort 4 on
   // p03, p06, p09 and p10 (tests/planning): CRS2 improves after long plateaus.
@@ -129,7 +131,7 @@ Candidate nlopt_run(SearchContext& context, const Problem& p, size_t index, cons
 
 std::vector<Candidate> global_phase_nlopt(SearchContext& context, const Problem& p, size_t index,
                                           const std::vector<double>* around, int& evaluations,
-                                          std::vector<Score>& finals) {
+                                          std::vector<Score>& finals, std::vector<Score>& crs2_finals) {
   const auto method = context.options().global_method;
   const int n = static_cast<int>(p.variables().size());
   if (method != GlobalMethod::halving_crs2) {
@@ -138,13 +140,24 @@ std::vector<Candidate> global_phase_nlopt(SearchContext& context, const Problem&
     finals.push_back(best.score);
     return {best};
   }
-  // The multi-start first (its starts give the spread), then CRS2 from its best point with as
-  // many evaluations as the multi-start spent; the better of the two.
+  // The multi-start first (its starts give the spread), then CRS2 from its best kCrsRuns long-run
+  // starts side by side, each with as many evaluations as the multi-start spent.
   int spent = 0;
   auto first = global_phase(context, p, index, around, spent, finals);
   evaluations += spent;
-  auto second = nlopt_run(context, p, index, &first.front().u, GlobalMethod::crs2, spent, evaluations);
-  if (second.score.better_than(first.front().score)) first.insert(first.begin(), second);
+  const size_t runs = std::min(kCrsRuns, first.size());
+  std::vector<Candidate> second(runs);
+  std::vector<int> second_spent(runs, 0);
+  parallel_for(runs, context.threads(), [&](size_t r) {
+    second[r] = nlopt_run(context, p, index, &first[r].u, GlobalMethod::crs2, spent, second_spent[r],
+                          static_cast<unsigned>(r));
+  });
+  for (int e : second_spent) evaluations += e;
+  for (const auto& s : second) crs2_finals.push_back(s.score);
+  // Every candidate, best first (ties to the CRS2 runs, then the multi-start's order).
+  first.insert(first.begin(), second.begin(), second.end());
+  std::stable_sort(first.begin(), first.end(),
+                   [](const Candidate& a, const Candidate& b) { return a.score.better_than(b.score); });
   return first;
 }
 

@@ -177,6 +177,12 @@ Plan assemble_plan(const ChainSpec& spec, const std::vector<Problem>& problems, 
 
 }  // namespace
 
+PlanOptions with_effort(PlanOptions options, int effort) {
+  options.effort = std::max(1, effort);
+  options.global_method = options.effort > 1 ? GlobalMethod::halving_crs2 : GlobalMethod::halving;
+  return options;
+}
+
 std::optional<Plan> plan_chain(const ChainSpec& input, Diagnostics& diagnostics, const PlanOptions& options) {
   // Every plan is held to a sag limit, the file's or the default; an analysis only to the file's.
   ChainSpec spec = input;
@@ -191,11 +197,13 @@ std::optional<Plan> plan_chain(const ChainSpec& input, Diagnostics& diagnostics,
   int evaluations = 0;
   const auto explored = search_combinations(context, *problems, evaluations);
   std::vector<Candidate> global;
-  std::vector<Score> finals;
+  std::vector<Score> finals, crs2_runs;
   if (const size_t top = explored.front().problem; global_sized((*problems)[top])) {
     context.set_phase("global");
-    global = (options.global_method == GlobalMethod::halving ? global_phase : global_phase_nlopt)(
-        context, (*problems)[top], top, &explored.front().u, evaluations, finals);
+    global = options.global_method == GlobalMethod::halving
+                 ? global_phase(context, (*problems)[top], top, &explored.front().u, evaluations, finals)
+                 : global_phase_nlopt(context, (*problems)[top], top, &explored.front().u, evaluations, finals,
+                                      crs2_runs);
   }
   context.set_phase("full space");
   const auto ranked = refine(context, *problems, explored, global, evaluations);
@@ -204,6 +212,12 @@ std::optional<Plan> plan_chain(const ChainSpec& input, Diagnostics& diagnostics,
 
   Plan plan = assemble_plan(spec, *problems, best, std::move(checks));
   plan.spread = start_spread(spec, finals);
+  plan.spread.effort = std::max(1, options.effort);
+  plan.spread.crs2_runs = static_cast<int>(crs2_runs.size());
+  if (const auto run = std::min_element(crs2_runs.begin(), crs2_runs.end(),
+                                         [](const Score& a, const Score& b) { return a.better_than(b); });
+      run != crs2_runs.end() && run->feasible())
+    plan.spread.crs2_best = objective_in_si(spec, run->objective);
   plan.evaluations = evaluations + 1;
   plan.seconds = context.seconds();
   context.report_final(evaluations);

@@ -71,6 +71,10 @@ struct PlanOptions {
   std::function<bool()> stop;
 };
 
+// The options of `plan --effort N`: the global phase's starts times N, and from N = 2 the
+// multi-start followed by CRS2 (GlobalMethod::halving_crs2). Effort 1 is the default plan.
+PlanOptions with_effort(PlanOptions options, int effort);
+
 // Thrown by plan_chain when PlanOptions::stop asked it to stop: not an error, so not derived
 // from std::exception (which the search's own error handling catches).
 struct PlanStopped {};
@@ -97,6 +101,9 @@ struct PlanSpread {
   int near_best = 0;  // feasible starts within 1 % of the best (flatness: within 0.05)
   double best = std::numeric_limits<double>::quiet_NaN();
   double median = std::numeric_limits<double>::quiet_NaN();
+  int effort = 1;     // PlanOptions::effort (plan --effort)
+  int crs2_runs = 0;  // CRS2 runs after the starts (effort 2 and up), and the best they met every check with
+  double crs2_best = std::numeric_limits<double>::quiet_NaN();
 };
 
 // What the planner chose for one [[stage]] of the file.

@@ -34,7 +34,9 @@ nlohmann::json spread_json(const ChainSpec& spec, const PlanSpread& s) {
   if (s.starts == 0) return nullptr;
   return {{"starts", s.starts},           {"feasible", s.feasible},
           {"within_1pct", s.near_best},   {"best", finite_or_null(s.best)},
-          {"median", finite_or_null(s.median)}, {"unit", objective_unit(spec)}};
+          {"median", finite_or_null(s.median)}, {"unit", objective_unit(spec)},
+          {"effort", s.effort},           {"crs2_runs", s.crs2_runs},
+          {"crs2_best", finite_or_null(s.crs2_best)}};
 }
 
 // One line: how sure the plan is.
@@ -44,10 +46,16 @@ std::string spread_text(const ChainSpec& spec, const PlanSpread& s) {
     return fmt::format("search spread: none of the {} global starts met every target and limit\n", s.starts);
   const auto unit = objective_unit(spec);
   auto shown = [&](double x) { return unit.empty() ? fmt::format("{:.3f}", x) : format_si(x, unit, 4); };
+  std::string crs2;
+  if (s.crs2_runs > 0)
+    crs2 = std::isfinite(s.crs2_best) ? fmt::format("; then {} CRS2 runs (effort {}), best {}", s.crs2_runs, s.effort,
+                                                    shown(s.crs2_best))
+                                      : fmt::format("; then {} CRS2 runs (effort {}), none met every target and limit",
+                                                    s.crs2_runs, s.effort);
   return fmt::format("search spread: {} of {} global starts met every target and limit; {} objective best {}, median "
-                     "{}; {} within {} of their best\n",
+                     "{}; {} within {} of their best{}\n",
                      s.feasible, s.starts, to_string(spec.target.objective), shown(s.best), shown(s.median), s.near_best,
-                     spec.target.objective == Objective::flattest ? "0.05 (flatness)" : "1 %");
+                     spec.target.objective == Objective::flattest ? "0.05 (flatness)" : "1 %", crs2);
 }
 
 }  // namespace

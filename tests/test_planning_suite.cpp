@@ -114,6 +114,44 @@ TEST_CASE("planning suite: every problem reaches 99 % of its reference bandwidth
   MESSAGE("hard problems, mean of 15 runs: " << hard_sum / hard_runs);
 }
 
+TEST_CASE("planning suite: plan --effort 2 reaches 99 % of the cross-equalisation reference and reports its CRS2 runs") {
+  // p03's optimum (cross-stage equalisation) is one the default multi-start finds only some of the
+  // time (95.7 % of the reference over eight seeds). With --effort 2 (twice the starts, then two
+  // CRS2 runs side by side) it reached 99.8 to 99.9 % from five seeds measured (the default and
+  // 1000 to 1021); the bar is the suite's 99 %.
+  const auto path = kSuite / "p03_cross_equalise.toml";
+  const auto r = run_cli({"plan", path.string(), "--effort", "2", "--json"});
+  REQUIRE(r.status == 0);
+  const auto doc = nlohmann::json::parse(r.out);
+  const double reference = ref_value(std::filesystem::path(path).replace_extension(".ref"), "reference");
+  const double planned = doc.at("outputs").back().at("bandwidth_hz").get<double>();
+  CAPTURE(planned / reference);
+  CHECK(planned >= 0.99 * reference);
+  const auto& s = doc.at("search_spread");
+  CHECK(s.at("effort").get<int>() == 2);
+  CHECK(s.at("crs2_runs").get<int>() == 2);
+  // derived: p03 has 8 open values, so its batches are 2 (12 + 8) = 40, 80 and 160 starts, and
+  // the global phase stops after one, two or all three of them.
+  const int starts = s.at("starts").get<int>();
+  CHECK((starts == 40 || starts == 120 || starts == 280));
+  // The plan is the better of the starts and the CRS2 runs, refined (1e-3: the search's coarser
+  // scan against the final measurement, as in the spread test below).
+  CHECK(planned >= (1.0 - 1e-3) * std::max(s.at("best").get<double>(), s.at("crs2_best").get<double>()));
+}
+
+TEST_CASE("planning suite: --effort outside 1 to 20, or on report without --plan, is refused") {
+  const auto path = (kSuite / "p01_shunt_pair.toml").string();
+  for (const char* bad : {"0", "21", "two"}) {
+    CAPTURE(bad);
+    const auto r = run_cli({"plan", path, "--effort", bad});
+    CHECK(r.status == 2);
+    CHECK(r.err.find("--effort") != std::string::npos);
+  }
+  const auto report = run_cli({"report", path, "--out", "/nonexistent/never-written", "--effort", "2"});
+  CHECK(report.status == 2);
+  CHECK(report.err.find("--plan") != std::string::npos);
+}
+
 TEST_CASE("planning suite: the free T-coil under an overshoot limit alone sags at most 1 dB, within 1 % of the long run") {
   // p02: the planner's default sag limit holds the in-band dip to 1 dB; its reference is the best
   // sag-limited plan the long runs found.

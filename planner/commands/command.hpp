@@ -27,6 +27,12 @@ enum Exit : int {
   terminated = 143
 };
 
+// --effort N of plan and report (planner.hpp, with_effort): how hard the planner searches.
+inline constexpr int kMaxEffort = 20;
+inline constexpr const char* kEffortHelp =
+    "search harder: N times the global starts, then two CRS2 runs from the best (about 5N times "
+    "the time of a default plan; 1 to 20, default 1)";
+
 // The help footer of every subcommand: each exit status, where the chain format is described,
 // and `example`, one command line.
 std::string help_footer(const std::string& example);

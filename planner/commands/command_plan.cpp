@@ -1,4 +1,4 @@
-// peakplan plan CHAIN.toml [--json] [--write OUT.toml] [--set ID.KEY=VALUE ...] [--lock ID,...]
+// peakplan plan CHAIN.toml [--json] [--write OUT.toml] [--set ID.KEY=VALUE ...] [--lock ID,...] [--effort N]
 // With [variation], the planned chain's corners follow the plan.
 #include <iostream>
 #include <memory>
@@ -20,6 +20,7 @@ struct PlanArgs {
   bool json = false;
   std::string write;
   WhatIf what_if;
+  int effort = 1;
 };
 
 int run_plan(const PlanArgs& args) {
@@ -32,8 +33,9 @@ int run_plan(const PlanArgs& args) {
   std::optional<Plan> plan;
   {
     const PlanProgressLine progress;  // cleared before anything is printed
-    what_if = load_what_if(args.chain, args.what_if, diagnostics, progress.options());
-    if (what_if) plan = plan_chain(what_if->spec, diagnostics, progress.options());
+    const auto options = with_effort(progress.options(), args.effort);
+    what_if = load_what_if(args.chain, args.what_if, diagnostics, options);
+    if (what_if) plan = plan_chain(what_if->spec, diagnostics, options);
   }
   const auto* spec = what_if ? &what_if->spec : nullptr;
   if (!plan) {
@@ -87,6 +89,7 @@ Command add_plan_command(CLI::App& app) {
   cmd->add_option("--lock", args->what_if.locks, "fix these stages at their current values (ID,...)")
       ->delimiter(',')
       ->allow_extra_args(false);
+  cmd->add_option("--effort", args->effort, kEffortHelp)->check(CLI::Range(1, kMaxEffort));
   cmd->footer(help_footer("peakplan plan chains/plan_post_tia.toml --write planned.toml"));
   return {cmd, [args] { return run_plan(*args); }};
 }

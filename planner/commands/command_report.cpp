@@ -35,6 +35,7 @@ struct ReportArgs {
   bool plan = false;
   std::optional<int> samples;
   std::optional<std::uint64_t> seed;
+  int effort = 1;
 };
 
 int run_report(const ReportArgs& args) {
@@ -61,7 +62,7 @@ int run_report(const ReportArgs& args) {
   std::optional<ChainAnalysis> before_analysis;
   if (args.plan) {
     const PlanProgressLine progress;
-    plan = plan_chain(*spec, diagnostics, progress.options());
+    plan = plan_chain(*spec, diagnostics, with_effort(progress.options(), args.effort));
     if (!plan) {
       std::cerr << diagnostics.format();
       return bad_input;
@@ -142,7 +143,8 @@ Command add_report_command(CLI::App& app) {
   auto* cmd = app.add_subcommand("report", "budget tables, plots, HTML page, JSON and netlist in a directory");
   cmd->add_option("chain", args->chain, "chain file (TOML), or - for standard input")->required();
   cmd->add_option("--out", args->out, "directory to write the report into (created if missing)")->required();
-  cmd->add_flag("--plan", args->plan, "plan the chain first and report the planned chain, before and after");
+  auto* plan = cmd->add_flag("--plan", args->plan, "plan the chain first and report the planned chain, before and after");
+  cmd->add_option("--effort", args->effort, kEffortHelp)->check(CLI::Range(1, kMaxEffort))->needs(plan);
   cmd->add_option("--samples", args->samples,
                   "Monte Carlo samples of [variation] (overrides the file; threads: PEAKPLAN_THREADS, default every core)")
       ->check(CLI::Range(1, 1000000));
