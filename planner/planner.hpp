@@ -52,15 +52,16 @@ struct PlanProgress {
 
 // The global phase's method (step 2 above). halving: the multi-start with successive halving, the
 // planner's own; isres, mlsl, crs2: NLopt's global algorithms (planner/plan_global_nlopt.hpp), kept
-// for measuring against it and for independent reference runs (tests/planning); halving_crs2: the
-// multi-start, then CRS2 from its best. Set in code only.
+// for measuring against it and for independent reference runs (tests/planning), set in code only;
+// halving_crs2: the multi-start, then two CRS2 runs from its best starts, which `plan --effort N`
+// sets from N = 2 (with_effort).
 enum class GlobalMethod { halving, isres, mlsl, crs2, halving_crs2 };
 
 struct PlanOptions {
   int starts = 4;             // per combination in the design space: the seed plus random points
   int refined = 2;            // combinations refined in the full space
   int threads = 0;            // 0: PEAKPLAN_THREADS, else every core; the plan does not depend on it
-  int effort = 1;             // multiplies the global phase's starts (reference runs use 100)
+  int effort = 1;             // multiplies the global phase's starts (plan --effort; reference runs use 25)
   unsigned seed = 20261202;
   GlobalMethod global_method = GlobalMethod::halving;
   // Called every `progress_every` evaluations and once at the end; may be empty.
