@@ -17,6 +17,7 @@
 #include "models/analysis.hpp"
 #include "planner/planner.hpp"
 #include "cli_support.hpp"
+#include "six_open_stages.hpp"
 
 using namespace peakplan;
 using namespace peakplan::test;
@@ -150,6 +151,23 @@ TEST_CASE("planning suite: --effort outside 1 to 20, or on report without --plan
   const auto report = run_cli({"report", path, "--out", "/nonexistent/never-written", "--effort", "2"});
   CHECK(report.status == 2);
   CHECK(report.err.find("--plan") != std::string::npos);
+}
+
+TEST_CASE("planning suite: --effort on a chain without a global phase says it changes nothing") {
+  // The six-stage chain has 20 open values, more than the global phase takes (kGlobalValues).
+  const TempDir dir;
+  const auto chain = dir.path / "six.toml";
+  write_file(chain, kSixOpenStages);
+  const auto plain = run_cli({"plan", chain.string(), "--json"});
+  const auto harder = run_cli({"plan", chain.string(), "--json", "--effort", "3"});
+  REQUIRE(plain.status == 0);
+  REQUIRE(harder.status == 0);
+  CHECK(harder.err.find("--effort changes nothing") != std::string::npos);
+  CHECK(plain.err.find("--effort") == std::string::npos);
+  auto a = nlohmann::json::parse(plain.out), b = nlohmann::json::parse(harder.out);
+  a.erase("plan_time_s");
+  b.erase("plan_time_s");
+  CHECK(a == b);  // derived: effort only reaches the global phase
 }
 
 TEST_CASE("planning suite: the free T-coil under an overshoot limit alone sags at most 1 dB, within 1 % of the long run") {

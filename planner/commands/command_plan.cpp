@@ -6,6 +6,7 @@
 #include "planner/commands/command.hpp"
 #include "planner/commands/output_files.hpp"
 #include "planner/input/chain_graph.hpp"
+#include "planner/plan_phases.hpp"
 #include "planner/planner.hpp"
 #include "planner/what_if.hpp"
 #include "planner/variation_analysis.hpp"
@@ -42,6 +43,9 @@ int run_plan(const PlanArgs& args) {
     std::cerr << diagnostics.format();
     return bad_input;
   }
+  if (args.effort > 1 && plan->spread.starts == 0)
+    std::cerr << "peakplan: note: --effort changes nothing for this chain: its plan has no global phase (more than "
+              << kGlobalValues << " open values, or none open)\n";
   if (what_if->baseline == Plan::Termination::not_met)
     std::cerr << "peakplan: note: --lock holds values of a plan of the file as written that does not meet its target\n";
   const auto options = analysis_options(*spec);
