@@ -46,16 +46,19 @@ std::string spread_text(const ChainSpec& spec, const PlanSpread& s) {
     return fmt::format("search spread: none of the {} global starts met every target and limit\n", s.starts);
   const auto unit = objective_unit(spec);
   auto shown = [&](double x) { return unit.empty() ? fmt::format("{:.3f}", x) : format_si(x, unit, 4); };
-  std::string crs2;
+  std::string tail;
   if (s.crs2_runs > 0)
-    crs2 = std::isfinite(s.crs2_best) ? fmt::format("; then {} CRS2 runs (effort {}), best {}", s.crs2_runs, s.effort,
+    tail = std::isfinite(s.crs2_best) ? fmt::format("; then {} CRS2 runs (effort {}), best {}", s.crs2_runs, s.effort,
                                                     shown(s.crs2_best))
                                       : fmt::format("; then {} CRS2 runs (effort {}), none met every target and limit",
                                                     s.crs2_runs, s.effort);
+  // Fewer than three starts near the best is when the global phase draws its last batch: the
+  // landscape is rugged, and a harder search (--effort) often finds a better plan.
+  if (s.crs2_runs == 0 && s.near_best < 3) tail = "; few agree: plan --effort 2 or more searches harder";
   return fmt::format("search spread: {} of {} global starts met every target and limit; {} objective best {}, median "
                      "{}; {} within {} of their best{}\n",
                      s.feasible, s.starts, to_string(spec.target.objective), shown(s.best), shown(s.median), s.near_best,
-                     spec.target.objective == Objective::flattest ? "0.05 (flatness)" : "1 %", crs2);
+                     spec.target.objective == Objective::flattest ? "0.05 (flatness)" : "1 %", tail);
 }
 
 }  // namespace
