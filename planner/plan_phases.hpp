@@ -66,7 +66,8 @@ void repair(SearchContext& context, const Problem& p, Candidate& best, FinalChec
 // start polished at full fidelity (up to kGlobalValues open values); should the first still miss
 // a check, the first of the next feasible ones (up to 1 + kGlobalKept: the global phase's other
 // long-run starts are among them) that meets every check. Of those that meet every check, the
-// best objective at full fidelity; when none does, the first as checked. Returns the plan's candidate with its checks in `checks`.
+// best objective at full fidelity; when none does, the first as checked. Returns the plan's
+// candidate with its checks in `checks`.
 Candidate final_phase(SearchContext& context, const std::vector<Problem>& problems,
                       const std::vector<Candidate>& ranked, FinalChecks& checks, int& evaluations);
 

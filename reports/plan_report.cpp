@@ -42,19 +42,18 @@ nlohmann::json spread_json(const ChainSpec& spec, const PlanSpread& s) {
 // One line: how sure the plan is.
 std::string spread_text(const ChainSpec& spec, const PlanSpread& s) {
   if (s.starts == 0) return {};
-  if (s.feasible == 0)
-    return fmt::format("search spread: none of the {} global starts met every target and limit\n", s.starts);
   const auto unit = objective_unit(spec);
   auto shown = [&](double x) { return unit.empty() ? fmt::format("{:.3f}", x) : format_si(x, unit, 4); };
+  // What followed the starts: the CRS2 runs of a harder search, or, when fewer than three starts
+  // came near the best (the global phase's own sign of a rugged landscape), a pointer to one.
   std::string tail;
   if (s.crs2_runs > 0)
-    tail = std::isfinite(s.crs2_best) ? fmt::format("; then {} CRS2 runs (effort {}), best {}", s.crs2_runs, s.effort,
-                                                    shown(s.crs2_best))
-                                      : fmt::format("; then {} CRS2 runs (effort {}), none met every target and limit",
-                                                    s.crs2_runs, s.effort);
-  // Fewer than three starts near the best is when the global phase draws its last batch: the
-  // landscape is rugged, and a harder search (--effort) often finds a better plan.
-  if (s.crs2_runs == 0 && s.near_best < 3) tail = "; few agree: plan --effort 2 or more searches harder";
+    tail = fmt::format("; then {} CRS2 runs (effort {}), {}", s.crs2_runs, s.effort,
+                       std::isfinite(s.crs2_best) ? "best " + shown(s.crs2_best) : "none met every target and limit");
+  else if (s.feasible > 0 && s.near_best < 3)
+    tail = "; few agree: plan --effort 2 or more searches harder";
+  if (s.feasible == 0)
+    return fmt::format("search spread: none of the {} global starts met every target and limit{}\n", s.starts, tail);
   return fmt::format("search spread: {} of {} global starts met every target and limit; {} objective best {}, median "
                      "{}; {} within {} of their best{}\n",
                      s.feasible, s.starts, to_string(spec.target.objective), shown(s.best), shown(s.median), s.near_best,

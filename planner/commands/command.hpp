@@ -31,7 +31,7 @@ enum Exit : int {
 inline constexpr int kMaxEffort = 20;
 inline constexpr const char* kEffortHelp =
     "search harder: N times the global starts, then two CRS2 runs from the best (about 5N times "
-    "the time of a default plan; 1 to 20, default 1)";
+    "the time of a default plan; default 1)";
 
 // The help footer of every subcommand: each exit status, where the chain format is described,
 // and `example`, one command line.
