@@ -179,8 +179,11 @@ std::vector<Candidate> global_phase(SearchContext& context, const Problem& p, si
   // Budgets from the problem size and from the landscape (measured on the planning suite,
   // tests/planning): a batch is 12 + n starts, each first run for 6 (n + 2) evaluations; the best quarter
   // continue for 24 (n + 2), then the best half of those for 36 (n + 2). When fewer than three
-  // starts agree on the best (near_best), the landscape is rugged and another batch twice the
-  // size of the last is drawn (more starts survive to the long rounds), up to three batches.
+  // starts agree on the best (near_best), the landscape is rugged and another batch is drawn,
+  // twice the first's size, then three times it (more starts survive to the long rounds), up
+  // to three batches. A third batch four times the first, as it was, did no better over eight
+  // seeds (the five hard suite problems: 0.970 of their references against 0.969) and spent 14 %
+  // more of the receiver's evaluations.
   const int n = static_cast<int>(p.variables().size());
   // A plan for corners measures every corner per evaluation (ten chains, say): one batch of
   // half the starts keeps it near its cost without the global phase (measured on
@@ -192,7 +195,7 @@ std::vector<Candidate> global_phase(SearchContext& context, const Problem& p, si
   std::vector<Candidate> kept;
   for (int b = 0; b < batches; ++b) {
     const unsigned seed = context.options().seed + 7919u * static_cast<unsigned>(index) + 104729u * static_cast<unsigned>(b);
-    const auto batch = global_batch(context, p, index, around, count << b, seed, evaluations, finals);
+    const auto batch = global_batch(context, p, index, around, count * (b + 1), seed, evaluations, finals);
     kept.insert(kept.end(), batch.begin(), batch.end());
     if (near_best(context.spec(), finals) >= kAgreeing) break;
   }

@@ -150,7 +150,7 @@ bool needs_step(const ChainSpec& spec) {
 
 // One output's rms noise: the final measurement integrates as the analysis does (160 points a
 // decade); the search by Gauss panels over a tighter span (models/noise.hpp), about a quarter of
-// the PSD evaluations of the 40 a decade it used on the receiver and within 7e-8 of the analysis's
+// the PSD evaluations of the 40 a decade it used on the receiver and within 6.5e-7 of the analysis's
 // mean square on the shipped chains, far inside the constraints' margins.
 double search_or_final_rms(const ChainNoise& model, Fidelity fidelity) {
   return fidelity == Fidelity::final ? output_rms_noise(model, 160) : output_rms_noise_panels(model);

@@ -13,8 +13,8 @@
 //     12 + n starts (fixed seed), half drawn per stage independently of the closed forms (each
 //     stage's own gain and peaking anywhere in range), half around the design-space optimum; each
 //     a short COBYLA run, then successive halving (the best quarter continue, then the best half
-//     of those); while fewer than three starts agree on the best, a batch twice the size follows
-//     (three at most). It finds optima no closed-form design is near: unequal stage gains with
+//     of those); while fewer than three starts agree on the best, another batch follows, twice
+//     then three times the first's size (three batches at most). It finds optima no closed-form design is near: unequal stage gains with
 //     one stage peaking hard to equalise another's pole, an asymmetric T-coil;
 //  3. refinement: the best combinations' design-space optima in the full space, ranked with the
 //     global phase's best few starts; the first by the tie-break towards fewer stages and less current when

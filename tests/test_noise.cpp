@@ -290,10 +290,10 @@ Counted panels(const ChainNoise& noise) {
 
 TEST_CASE("noise: Gauss panels over the tighter span agree with the dense Simpson integration in fewer PSD evaluations") {
   // derived: the reference is the analysis's own (Simpson, 160 a decade, 3 decades beyond the
-  // roots), good to about 1e-8 (kQuadrature's note). The panels' remainder, 7-point Gauss on
+  // roots), good to about 1e-8 (kQuadrature's note). The panels' remainder, 6-point Gauss on
   // half a decade of a response whose features span tenths of a decade, and the asymptotes' first
-  // omitted term, (10^-1.5)^4 of the ends' share, each stay under 1e-6 (measured: at most 6.8e-8
-  // of the mean square on the shipped chains, 4.4e-8 with 10 points: the ends dominate); the
+  // omitted term, (10^-1.5)^4 of the ends' share, each stay under 1e-6 (measured: at most 6.5e-7
+  // of the mean square on the shipped chains, 6.8e-8 with 7 points, 4.4e-8 with 10); the
   // check allows kQuadrature, 1e-6 of the mean square.
   // Two spans: one shunt-peaked stage (its roots within half a decade), and a source pole with two
   // plain stages whose poles lie 1.8 decades apart, behind a receiver limit of 30 GHz.

@@ -53,7 +53,9 @@ int main(int argc, char** argv) {
     std::fprintf(stderr, "%s: cannot read\n", path.c_str());
     return 2;
   }
-  const bool lean = spec->target.objective == peakplan::Objective::leanest;
+  // Smaller is better for leanest (total gm, S) and quietest (input noise, A).
+  const bool quiet = spec->target.objective == peakplan::Objective::quietest;
+  const bool lean = spec->target.objective == peakplan::Objective::leanest || quiet;
   std::vector<double> values;
   std::string best_toml;
   int evaluations = 0;
@@ -70,7 +72,7 @@ int main(int argc, char** argv) {
       continue;
     }
     const auto m = peakplan::frequency_metrics(peakplan::output_cascade(plan->chain, plan->chain.outputs().back()));
-    const double v = lean ? peakplan::total_gm(plan->chain) : m.bandwidth_hz;
+    const double v = quiet ? plan->objective : lean ? peakplan::total_gm(plan->chain) : m.bandwidth_hz;
     if (values.empty() || (lean ? v < *std::min_element(values.begin(), values.end())
                                 : v > *std::max_element(values.begin(), values.end())))
       best_toml = peakplan::planned_chain_toml(*spec, *plan);
