@@ -97,10 +97,6 @@ std::vector<Candidate> search_combinations(SearchContext& context, const std::ve
   return explored;
 }
 
-namespace {
-
-}  // namespace
-
 int near_best(const ChainSpec& spec, const std::vector<Score>& finals) {
   double best = std::numeric_limits<double>::infinity();
   for (const auto& s : finals)
