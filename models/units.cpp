@@ -22,6 +22,8 @@ constexpr std::array kSpellings{
     UnitSpelling{"H", Dimension::inductance, true},
     UnitSpelling{"ohm", Dimension::resistance, true},
     UnitSpelling{"Ohm", Dimension::resistance, true},
+    UnitSpelling{"ohms", Dimension::resistance, true},  // the plural a new user types
+    UnitSpelling{"Ohms", Dimension::resistance, true},
     UnitSpelling{"\xCE\xA9", Dimension::resistance, true},  // Greek capital omega
     UnitSpelling{"S", Dimension::conductance, true},
     UnitSpelling{"A/V", Dimension::conductance, true},

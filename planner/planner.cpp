@@ -94,16 +94,44 @@ void check_plan_input(const ChainSpec& spec, Diagnostics& diagnostics) {
                           "to bound the chain's supply current");
 }
 
+// An output whose node carries no capacitance at all (no c_load, and no c_out where the drain is
+// the output) leaves its stage's bandwidth unbounded: the planner would put the gain there, or a
+// lossless resonance (a T-coil of this kind once planned 252 dB of peaking out of band and "met"
+// its targets). A planned stage there needs the load it drives. One error per [[stage]] table.
+void check_output_loads(const ChainSpec& spec, const Problem& problem, std::vector<bool>& reported,
+                        Diagnostics& diagnostics) {
+  const Chain chain = problem.build(problem.seed(), Fidelity::search);
+  for (const int o : chain.outputs()) {
+    const auto& c = chain.stages[static_cast<size_t>(o)].circuit;
+    const size_t table = problem.graph()[static_cast<size_t>(o)].table;
+    const bool open = std::any_of(problem.variables().begin(), problem.variables().end(),
+                                  [&](const Variable& v) { return v.table == table; });
+    const double node = c.c_node + (load_kind_info(c.kind).drain_is_output ? c.c_out : 0.0);
+    if (!open || node > 0.0 || reported[table]) continue;
+    reported[table] = true;
+    const auto& s = spec.stages[table];
+    const auto* c_load = s.find("c_load");
+    diagnostics.error(c_load ? c_load->where : s.where,
+                      "stage '" + s.id + "': its output node carries no capacitance (c_load is 0" +
+                          (load_kind_info(c.kind).drain_is_output ? std::string(" and so is c_out") : std::string()) +
+                          "), so nothing bounds this stage's bandwidth and a plan for it would be meaningless; "
+                          "give c_load, the capacitance of what the output drives (the next block's input, pads, a probe)");
+  }
+}
+
 // One Problem per combination of the discrete choices; nullopt after an input error.
 std::optional<std::vector<Problem>> build_problems(const ChainSpec& spec, Diagnostics& diagnostics) {
   std::vector<Problem> problems;
+  std::vector<bool> reported(spec.stages.size(), false);
   for (auto& combo : combinations(spec)) {
     auto graph = build_stage_graph(spec, diagnostics, &combo.counts);
     if (!graph) return std::nullopt;
     if (problems.empty()) check_current_input(spec, *graph, diagnostics);
     if (!diagnostics.empty()) return std::nullopt;
     problems.emplace_back(spec, std::move(combo), std::move(*graph));
+    check_output_loads(spec, problems.back(), reported, diagnostics);
   }
+  if (!diagnostics.empty()) return std::nullopt;
   return problems;
 }
 

@@ -237,3 +237,45 @@ c_load = "30 fF"
   const auto doc = json::parse(r.out);
   for (const auto& c : doc["chosen"]) CHECK(close(c["values"]["l"].get<double>(), 1e-12, 1e-15));
 }
+
+TEST_CASE("plan bounds: an open stage whose output node carries no capacitance is an input error, not a plan") {
+  // A new user's first plan: kinds and count open, devices sized from ft, no c_out_ratio and no
+  // c_load. The last copy's output node then has no capacitance at all, nothing bounds its
+  // bandwidth, and the planner once returned eight T-coils whose last one resonated 252 dB above
+  // DC out of band, with "every target met". The file must say what the output drives.
+  TempDir scratch("peakplan_plan_bounds");
+  const std::string open = R"([chain]
+name = "no load"
+[target]
+gain = "20 dB"
+bandwidth = "40 GHz"
+[limits]
+overshoot = "5 %"
+[technology]
+ft = "200 GHz"
+[[stage]]
+id = "a"
+kind = ["shunt", "tcoil"]
+count = "auto"
+gm = "auto"
+rd = "auto"
+)";
+  const auto bare = scratch.write("bare.toml", open);
+  const auto r = run_cli({"plan", bare, "--json"});
+  CHECK(r.status == 2);
+  CHECK(r.out.empty());
+  CHECK(r.err.find(bare + ":10:1: error: stage 'a': its output node carries no capacitance") != std::string::npos);
+  CHECK(r.err.find("give c_load") != std::string::npos);
+  // c_load = 0 written out is the same error, at its value.
+  const auto zero = run_cli({"plan", scratch.write("zero.toml", open + "c_load = 0\n")});
+  CHECK(zero.status == 2);
+  CHECK(zero.err.find("zero.toml:16:10: error: stage 'a'") != std::string::npos);
+  // With the load it drives, the same file plans, and no stage peaks out of band: the worst
+  // peaking of any stage alone stays within a few dB (a load of 20 fF on every copy).
+  const auto loaded = run_json({"plan", scratch.write("loaded.toml", open + "c_load = \"20 fF\"\n"), "--json"});
+  CHECK(loaded["status"].get<std::string>() == "met");
+  for (const auto& stage : loaded["stages"]) {
+    CAPTURE(stage["id"]);
+    CHECK(stage["peaking_db"].get<double>() < 10.0);
+  }
+}

@@ -20,6 +20,9 @@ TEST_CASE("units: prefixed quantities parse to SI base units") {
   CHECK(*parse_quantity("30 dB", Dimension::decibels).value == doctest::Approx(30.0));
   CHECK(*parse_quantity("5 %", Dimension::fraction).value == doctest::Approx(0.05));
   CHECK(*parse_quantity("1.5 kohm", Dimension::resistance).value == doctest::Approx(1500.0));
+  CHECK(*parse_quantity("120 ohms", Dimension::resistance).value == doctest::Approx(120.0));
+  CHECK(*parse_quantity("2 kOhms", Dimension::resistance).value == doctest::Approx(2000.0));
+  CHECK(*parse_quantity("150 Ohm", Dimension::resistance).value == doctest::Approx(150.0));
   CHECK(*parse_quantity("2e-15", Dimension::capacitance).value == doctest::Approx(2e-15));
 }
 
