@@ -133,6 +133,9 @@ struct Plan {
   int evaluations = 0;
   double seconds = 0.0;
   PlanSpread spread;
+  // What the file leaves ideal that the plan may have exploited (a T-coil's drain with no
+  // capacitance), one sentence each; `plan` prints them on stderr as notes.
+  std::vector<std::string> notes;
   std::string brief() const;
 };
 

@@ -238,7 +238,7 @@ c_load = "30 fF"
   for (const auto& c : doc["chosen"]) CHECK(close(c["values"]["l"].get<double>(), 1e-12, 1e-15));
 }
 
-TEST_CASE("plan bounds: an open stage whose output node carries no capacitance is an input error, not a plan") {
+TEST_CASE("plan bounds: a stage with open values and no capacitance at all is an input error, not a plan") {
   // A new user's first plan: kinds and count open, devices sized from ft, no c_out_ratio and no
   // c_load. The last copy's output node then has no capacitance at all, nothing bounds its
   // bandwidth, and the planner once returned eight T-coils whose last one resonated 252 dB above
@@ -264,7 +264,7 @@ rd = "auto"
   const auto r = run_cli({"plan", bare, "--json"});
   CHECK(r.status == 2);
   CHECK(r.out.empty());
-  CHECK(r.err.find(bare + ":10:1: error: stage 'a': its output node carries no capacitance") != std::string::npos);
+  CHECK(r.err.find(bare + ":10:1: error: stage 'a': it carries no capacitance") != std::string::npos);
   CHECK(r.err.find("give c_load") != std::string::npos);
   // c_load = 0 written out is the same error, at its value.
   const auto zero = run_cli({"plan", scratch.write("zero.toml", open + "c_load = 0\n")});
@@ -278,4 +278,36 @@ rd = "auto"
     CAPTURE(stage["id"]);
     CHECK(stage["peaking_db"].get<double>() < 10.0);
   }
+}
+
+TEST_CASE("plan bounds: a planned T-coil whose drain carries no capacitance gets a note, and with c_out none") {
+  // The suite's free T-coil (tests/planning/p02) is the textbook problem: an ideal current source
+  // into the coil, c_out = 0. Planned so, a T-coil can extend far past what a device gives (one
+  // was planned to 1.9 THz with ft = 200 GHz), so plan says what the file leaves ideal; with the
+  // device's drain capacitance given it has nothing to say.
+  TempDir scratch("peakplan_plan_bounds");
+  const std::string free_tcoil = R"([chain]
+name = "free T-coil"
+[target]
+objective = "widest"
+[limits]
+overshoot = "4.5 %"
+[[stage]]
+id = "t"
+kind = "tcoil"
+gm = "20 mS"
+rd = "100 ohm"
+c_load = "100 fF"
+l1 = "auto"
+l2 = "auto"
+k = "auto"
+cb = "auto"
+)";
+  const auto ideal = run_cli({"plan", scratch.write("ideal.toml", free_tcoil)});
+  CHECK(ideal.status == 0);
+  CHECK(ideal.err.find("peakplan: note: stage 't': its drain node carries no capacitance (c_out is 0)") !=
+        std::string::npos);
+  const auto real = run_cli({"plan", scratch.write("real.toml", free_tcoil + "c_out = \"20 fF\"\n")});
+  CHECK(real.status == 0);
+  CHECK(real.err.find("note") == std::string::npos);
 }

@@ -46,6 +46,7 @@ int run_plan(const PlanArgs& args) {
   if (args.effort > 1 && plan->spread.starts == 0)
     std::cerr << "peakplan: note: --effort changes nothing for this chain: its plan has no global phase (more than "
               << kGlobalValues << " open values, or none open)\n";
+  for (const auto& note : plan->notes) std::cerr << "peakplan: note: " << note << "\n";
   if (what_if->baseline == Plan::Termination::not_met)
     std::cerr << "peakplan: note: --lock holds values of a plan of the file as written that does not meet its target\n";
   const auto options = analysis_options(*spec);

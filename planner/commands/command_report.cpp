@@ -67,6 +67,7 @@ int run_report(const ReportArgs& args) {
       std::cerr << diagnostics.format();
       return bad_input;
     }
+    for (const auto& note : plan->notes) std::cerr << "peakplan: note: " << note << "\n";
     chain = plan->chain;
     // The file as written has a response of its own only when every value is fixed; the
     // diagnostics of trying are not the user's concern here.
