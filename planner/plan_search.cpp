@@ -27,9 +27,13 @@ double plan_objective(const ChainSpec& spec, const Evaluation& e) {
     case Objective::quietest: return std::isfinite(e.input_noise_rms_a) ? e.input_noise_rms_a * 1e6 : 1e6;  // uA
     case Objective::flattest: break;
   }
-  // flattest: overshoot and group-delay ripple, each against its limit (or 1 % and 1 ps).
+  // flattest: overshoot and group-delay ripple, each against its limit. Without a ripple limit,
+  // against the group delay of one pole at the target band B, 1/(2 pi B) (4 ps at 40 GHz): a fixed
+  // 1 ps weighed a 100 GHz chain's ripple like a 10 GHz one's. Without a band either: 1 % and 1 ps.
+  const double band = coil_band(spec);
+  const double gd_default = std::isfinite(band) ? 1.0 / (2.0 * std::numbers::pi * band) : 1e-12;
   const double os_scale = spec.limits.overshoot ? std::max(100.0 * *spec.limits.overshoot, 0.1) : 1.0;
-  const double gd_scale = spec.limits.group_delay_ripple ? std::max(*spec.limits.group_delay_ripple, 1e-13) : 1e-12;
+  const double gd_scale = spec.limits.group_delay_ripple ? std::max(*spec.limits.group_delay_ripple, 1e-13) : gd_default;
   return e.t.overshoot_pct / os_scale + e.f.group_delay_ripple_s / gd_scale;
 }
 
@@ -56,11 +60,16 @@ size_t tie_break(const ChainSpec& spec, const std::vector<Candidate>& candidates
   for (size_t i = 1; i < candidates.size(); ++i)
     if (candidates[i].score.better_than(candidates[best].score)) best = i;
   if (!candidates[best].score.feasible()) return best;
-  const double reach = candidates[best].score.objective + objective_tolerance(spec, candidates[best].score.objective);
+  // flattest: every stage copy costs kFlatnessPerStage, so more stages must buy real flatness.
+  const bool flat = spec.target.objective == Objective::flattest;
+  const auto cost = [&](size_t i) { return candidates[i].score.objective + (flat ? kFlatnessPerStage * copies[i] : 0.0); };
+  for (size_t i = 0; i < candidates.size(); ++i)
+    if (candidates[i].score.feasible() && cost(i) < cost(best)) best = i;
+  const double reach = cost(best) + objective_tolerance(spec, candidates[best].score.objective);
   size_t chosen = best;
   for (size_t i = 0; i < candidates.size(); ++i) {
     const auto& c = candidates[i].score;
-    if (!c.feasible() || c.objective > reach) continue;
+    if (!c.feasible() || cost(i) > reach) continue;
     const auto& k = candidates[chosen].score;
     const bool fewer = copies[i] < copies[chosen];
     const bool leaner = copies[i] == copies[chosen] && c.total_gm < k.total_gm * (1.0 - 1e-3);
