@@ -55,8 +55,8 @@ struct Candidate {
 // feasible. Returns its index. For flattest each copy first adds kFlatnessPerStage to the
 // flatness compared: a stage is worth adding only for 5 % of a limit of flatness or more (common
 // practice: every stage costs current, area and noise); a 20 dB, 40 GHz plan otherwise took 8
-// T-coils, each lowering the overshoot by a hundredth of a per cent, where 2 shunt stages met
-// every check.
+// T-coils, each lowering the overshoot by hundredths of a per cent, where one T-coil meets every
+// check.
 inline constexpr double kFlatnessPerStage = 0.05;
 double objective_tolerance(const ChainSpec& spec, double objective);
 size_t tie_break(const ChainSpec& spec, const std::vector<Candidate>& candidates, const std::vector<int>& copies);

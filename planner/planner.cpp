@@ -104,7 +104,7 @@ bool has_open_value(const Problem& problem, size_t table) {
 // (c_load, the next stages' c_in) or its drain (c_out). With none, nothing bounds its bandwidth
 // (with the defaults, c_out_ratio 0 and no c_load, the planner once returned eight T-coils whose
 // last peaked 252 dB out of band, "every target met"). One error per [[stage]] table.
-void check_output_capacitance(const ChainSpec& spec, const Problem& problem, std::vector<bool>& reported,
+void check_stage_capacitance(const ChainSpec& spec, const Problem& problem, std::vector<bool>& reported,
                               Diagnostics& diagnostics) {
   const Chain chain = problem.build(problem.seed(), Fidelity::search);
   for (size_t i = 0; i < chain.stages.size(); ++i) {
@@ -155,7 +155,7 @@ std::optional<std::vector<Problem>> build_problems(const ChainSpec& spec, Diagno
     if (problems.empty()) check_current_input(spec, *graph, diagnostics);
     if (!diagnostics.empty()) return std::nullopt;
     problems.emplace_back(spec, std::move(combo), std::move(*graph));
-    check_output_capacitance(spec, problems.back(), reported, diagnostics);
+    check_stage_capacitance(spec, problems.back(), reported, diagnostics);
   }
   if (!diagnostics.empty()) return std::nullopt;
   return problems;
