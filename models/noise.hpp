@@ -128,8 +128,8 @@ double integrate_psd_panels(const std::function<double(double)>& psd, double f_f
 // output_rms_noise by integrate_psd_panels: what a planner's search needs, many times over.
 // Measured: 76 PSD evaluations on the planned receiver (88 with 7-point panels; output_rms_noise
 // at 40 a decade took 274 on an earlier plan of it), and within 6.5e-7 of the mean square at 160 a
-// decade on the shipped chains, with and
-// without a receiver limit (40 a decade strays to 1e-4 on the most peaked).
+// decade on the shipped chains, with and without a receiver limit (40 a decade strays to 1e-4 on
+// the most peaked).
 double output_rms_noise_panels(const ChainNoise& noise);
 
 // Integral of |H(j 2 pi f)/H(0)|^2 over f in (0, inf), Hz, over the cascade's natural span

@@ -85,14 +85,14 @@ ScanResolution search_scan() { return {2.0, 30}; }
 
 }  // namespace
 
-double coil_band(const ChainSpec& spec) {
+double target_band(const ChainSpec& spec) {
   if (spec.target.bandwidth) return *spec.target.bandwidth;
   if (spec.target.gain_bandwidth && spec.target.gain_db) return *spec.target.gain_bandwidth / from_db(*spec.target.gain_db);
   return std::numeric_limits<double>::infinity();
 }
 
 double coil_inductance_limit(const ChainSpec& spec) {
-  const double band = coil_band(spec);
+  const double band = target_band(spec);
   const double c_per_l = spec.technology.coil_c_per_l();
   if (!(c_per_l > 0.0) || !std::isfinite(band))
     return std::numeric_limits<double>::infinity();

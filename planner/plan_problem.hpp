@@ -102,13 +102,13 @@ double yield_corner_scale(const ChainSpec& spec);
 // The self-resonance rule for open coils (common practice: a coil is used well below its
 // self-resonance). With [technology] coil_c_per_nh a coil of L carries C = c_per_l L and
 // resonates at f_SR = 1/(2 pi sqrt(L C)) = 1/(2 pi L sqrt(c_per_l)); the planner keeps
-// f_SR >= kCoilResonanceMultiple x the chain's band (coil_band), which bounds every open
+// f_SR >= kCoilResonanceMultiple x the chain's band (target_band), which bounds every open
 // inductance by 1/(2 pi kCoilResonanceMultiple band sqrt(c_per_l)). At a third of f_SR a lumped
 // L || C acts as L/(1 - 1/9), 12.5 % above L (derived). +inf without coil_c_per_nh or a band.
 inline constexpr double kCoilResonanceMultiple = 3.0;
-// The band a coil must serve: [target] bandwidth, or gain_bandwidth / gain when both are
-// given; +inf otherwise.
-double coil_band(const ChainSpec& spec);
+// The band the targets ask for: [target] bandwidth, or gain_bandwidth / gain when both are
+// given; +inf otherwise. A coil must serve it, and flattest weighs ripple against it.
+double target_band(const ChainSpec& spec);
 double coil_inductance_limit(const ChainSpec& spec);
 
 // Whether a plan must measure the input-referred noise: a sensitivity target or "quietest".

@@ -30,7 +30,7 @@ double plan_objective(const ChainSpec& spec, const Evaluation& e) {
   // flattest: overshoot and group-delay ripple, each against its limit. Without a ripple limit,
   // against the group delay of one pole at the target band B, 1/(2 pi B) (4 ps at 40 GHz): a fixed
   // 1 ps weighed a 100 GHz chain's ripple like a 10 GHz one's. Without a band either: 1 % and 1 ps.
-  const double band = coil_band(spec);
+  const double band = target_band(spec);
   const double gd_default = std::isfinite(band) ? 1.0 / (2.0 * std::numbers::pi * band) : 1e-12;
   const double os_scale = spec.limits.overshoot ? std::max(100.0 * *spec.limits.overshoot, 0.1) : 1.0;
   const double gd_scale = spec.limits.group_delay_ripple ? std::max(*spec.limits.group_delay_ripple, 1e-13) : gd_default;

@@ -12,6 +12,7 @@
 #include <vector>
 
 #include "cli_json.hpp"
+#include "first_plan_chain.hpp"
 #include "planner/input/chain_graph.hpp"
 #include "planner/plan_problem.hpp"
 
@@ -239,40 +240,24 @@ c_load = "30 fF"
 }
 
 TEST_CASE("plan bounds: a stage with open values and no capacitance at all is an input error, not a plan") {
-  // A new user's first plan: kinds and count open, devices sized from ft, no c_out_ratio and no
-  // c_load. The last copy's output node then has no capacitance at all, nothing bounds its
-  // bandwidth, and the planner once returned eight T-coils whose last one resonated 252 dB above
-  // DC out of band, with "every target met". The file must say what the output drives.
+  // A new user's first plan (first_plan_chain.hpp) as first written: no c_out_ratio, no c_load.
+  // The last copy then has no capacitance at all, nothing bounds its bandwidth, and the planner
+  // once returned eight T-coils whose last one resonated 252 dB above DC out of band, with "every
+  // target met". The file must say what the output drives.
   TempDir scratch("peakplan_plan_bounds");
-  const std::string open = R"([chain]
-name = "no load"
-[target]
-gain = "20 dB"
-bandwidth = "40 GHz"
-[limits]
-overshoot = "5 %"
-[technology]
-ft = "200 GHz"
-[[stage]]
-id = "a"
-kind = ["shunt", "tcoil"]
-count = "auto"
-gm = "auto"
-rd = "auto"
-)";
-  const auto bare = scratch.write("bare.toml", open);
+  const auto bare = scratch.write("bare.toml", first_plan_chain());
   const auto r = run_cli({"plan", bare, "--json"});
   CHECK(r.status == 2);
   CHECK(r.out.empty());
   CHECK(r.err.find(bare + ":10:1: error: stage 'a': it carries no capacitance") != std::string::npos);
   CHECK(r.err.find("give c_load") != std::string::npos);
   // c_load = 0 written out is the same error, at its value.
-  const auto zero = run_cli({"plan", scratch.write("zero.toml", open + "c_load = 0\n")});
+  const auto zero = run_cli({"plan", scratch.write("zero.toml", first_plan_chain("", "c_load = 0\n"))});
   CHECK(zero.status == 2);
   CHECK(zero.err.find("zero.toml:16:10: error: stage 'a'") != std::string::npos);
   // With the load it drives, the same file plans, and no stage peaks out of band: the worst
   // peaking of any stage alone stays within a few dB (a load of 20 fF on every copy).
-  const auto loaded = run_json({"plan", scratch.write("loaded.toml", open + "c_load = \"20 fF\"\n"), "--json"});
+  const auto loaded = run_json({"plan", scratch.write("loaded.toml", first_plan_chain("", "c_load = \"20 fF\"\n")), "--json"});
   CHECK(loaded["status"].get<std::string>() == "met");
   for (const auto& stage : loaded["stages"]) {
     CAPTURE(stage["id"]);
@@ -285,29 +270,12 @@ TEST_CASE("plan bounds: a planned T-coil whose drain carries no capacitance gets
   // into the coil, c_out = 0. Planned so, a T-coil can extend far past what a device gives (one
   // was planned to 1.9 THz with ft = 200 GHz), so plan says what the file leaves ideal; with the
   // device's drain capacitance given it has nothing to say.
-  TempDir scratch("peakplan_plan_bounds");
-  const std::string free_tcoil = R"([chain]
-name = "free T-coil"
-[target]
-objective = "widest"
-[limits]
-overshoot = "4.5 %"
-[[stage]]
-id = "t"
-kind = "tcoil"
-gm = "20 mS"
-rd = "100 ohm"
-c_load = "100 fF"
-l1 = "auto"
-l2 = "auto"
-k = "auto"
-cb = "auto"
-)";
-  const auto ideal = run_cli({"plan", scratch.write("ideal.toml", free_tcoil)});
+  const std::string free_tcoil = std::string(PEAKPLAN_SOURCE_DIR) + "/tests/planning/p02_free_tcoil.toml";
+  const auto ideal = run_cli({"plan", free_tcoil});
   CHECK(ideal.status == 0);
   CHECK(ideal.err.find("peakplan: note: stage 't': its drain node carries no capacitance (c_out is 0)") !=
         std::string::npos);
-  const auto real = run_cli({"plan", scratch.write("real.toml", free_tcoil + "c_out = \"20 fF\"\n")});
+  const auto real = run_cli({"plan", free_tcoil, "--set", "t.c_out=20fF"});
   CHECK(real.status == 0);
   CHECK(real.err.find("note") == std::string::npos);
 }
