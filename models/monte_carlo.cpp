@@ -5,6 +5,7 @@
 #include <chrono>
 #include <cmath>
 #include <exception>
+#include <limits>
 #include <thread>
 
 namespace peakplan {
@@ -37,6 +38,16 @@ std::span<const CaseMetric> case_metrics() { return kMetrics; }
 CaseMetrics measure_case(const Chain& chain, const CaseOptions& options) {
   const Cascade cascade = output_cascade(chain, chain.outputs().back());
   CaseMetrics m;
+  // A sample whose spread tips a feedback stage into oscillation has no response: it fails every
+  // check, and its figures stay out of the statistics (not finite).
+  if (first_unstable_pole(cascade.poles())) {
+    constexpr double kInf = std::numeric_limits<double>::infinity();
+    m.f.dc_gain = cascade.dc_value();
+    m.f.peaking_db = m.f.group_delay_ripple_s = m.t.overshoot_pct = kInf;
+    m.f.sag_db = -kInf;
+    if (options.signal) m.eye_height = m.eye_width_ui = 0.0;
+    return m;
+  }
   m.f = frequency_metrics(cascade, options.ripple_band_hz);
   const auto axis = options.short_step ? short_time_axis(cascade, m.f.bandwidth_hz)
                                        : choose_time_axis(cascade, m.f.bandwidth_hz);

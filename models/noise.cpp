@@ -263,7 +263,7 @@ std::vector<double> panel_edges(double u_a, double u_b, const std::vector<std::c
   };
   for (const auto& p : poles) {
     const double zeta = -p.real() / std::abs(p);
-    if (p.imag() <= 0.0 || !(zeta < kGradedDamping)) continue;
+    if (p.imag() <= 0.0 || !(zeta > 0.0 && zeta < kGradedDamping)) continue;  // unstable: no resonance to grade
     const double u_n = std::log(std::abs(p) / kTwoPi);
     add(u_n);
     for (double step = zeta; step < kPanelWidth; step *= 3.0) add(u_n - step), add(u_n + step);

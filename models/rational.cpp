@@ -195,6 +195,12 @@ std::vector<std::complex<double>> Cascade::poles() const {
   return all;
 }
 
+std::optional<std::complex<double>> first_unstable_pole(const std::vector<std::complex<double>>& poles) {
+  for (const auto& p : poles)
+    if (!(p.real() < 0.0)) return p;
+  return std::nullopt;
+}
+
 std::vector<std::complex<double>> Cascade::zeros() const {
   std::vector<std::complex<double>> all;
   for (const auto& b : blocks_) {

@@ -6,6 +6,7 @@
 #pragma once
 
 #include <complex>
+#include <optional>
 #include <vector>
 
 namespace peakplan {
@@ -79,6 +80,12 @@ class Cascade {
   std::vector<Rational> blocks_;
 };
 
+}  // namespace peakplan
+
+namespace peakplan {
+// A pole on or right of the imaginary axis (rad/s): the block is unstable and has no step or
+// pulse response to measure. None for a stable block.
+std::optional<std::complex<double>> first_unstable_pole(const std::vector<std::complex<double>>& poles);
 }  // namespace peakplan
 
 namespace peakplan {

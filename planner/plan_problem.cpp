@@ -370,6 +370,12 @@ std::vector<Evaluation> Problem::evaluate_corners(const std::vector<double>& u, 
 Evaluation Problem::measure(const Chain& chain, Fidelity fidelity) const {
   Evaluation e;
   const auto cascade = output_cascade(chain, chain.outputs().back());
+  for (const auto& s : chain.stages) e.total_gm += s.circuit.gm;
+  // A tia of two or three cells can oscillate for some rf: its waveforms grow without bound.
+  if (first_unstable_pole(cascade.poles())) {
+    e.unstable = true;
+    return e;
+  }
   const double band = spec_.limits.ripple_band.value_or(not_found);
   e.f = frequency_metrics(cascade, band, fidelity == Fidelity::final ? ScanResolution{} : search_scan());
   if (fidelity == Fidelity::final || needs_step(spec_)) {
@@ -377,7 +383,6 @@ Evaluation Problem::measure(const Chain& chain, Fidelity fidelity) const {
                                                   : short_time_axis(cascade, e.f.bandwidth_hz);
     e.t = step_metrics(step_response(cascade, axis));
   }
-  for (const auto& s : chain.stages) e.total_gm += s.circuit.gm;
   if (needs_input_noise(spec_) && chain.current_input()) {
     NoiseOptions noise;
     noise.temperature = spec_.technology.temperature;

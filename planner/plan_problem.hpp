@@ -68,6 +68,8 @@ struct Evaluation {
   // and with ber the statistical eye's BER at the [signal] swing; NaN otherwise.
   double output_noise_rms_v = std::numeric_limits<double>::quiet_NaN();
   double ber = std::numeric_limits<double>::quiet_NaN();
+  // A pole in the right half-plane: nothing else was measured, and the search refuses it.
+  bool unstable = false;
 };
 
 // Whether a plan must measure the large-signal eye: [target] output_swing or [limits] ddj.

@@ -17,7 +17,11 @@ size_t constraint_count(const ChainSpec& spec) { return plan_violations(spec, Ev
 }  // namespace
 
 std::vector<double> plan_violations(const ChainSpec& spec, const Evaluation& e) {
-  return requirement_violations(spec, as_measured(e));
+  auto g = requirement_violations(spec, as_measured(e));
+  // An unstable candidate misses every requirement by far (a plan always has its sag limit).
+  if (e.unstable)
+    for (auto& x : g) x = std::max(x, 10.0);
+  return g;
 }
 
 double plan_objective(const ChainSpec& spec, const Evaluation& e) {

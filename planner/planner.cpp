@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <chrono>
 #include <cmath>
+#include <numbers>
 #include <fmt/format.h>
 
 #include "models/receiver.hpp"
@@ -237,6 +238,37 @@ PlanOptions with_effort(PlanOptions options, int effort) {
   return options;
 }
 
+namespace {
+
+// The search refuses an unstable candidate (plan_violations); when it found nothing else, the
+// stage that cannot be made stable within its ranges is an input error, not a plan.
+bool check_planned_stability(const ChainSpec& spec, const Chain& chain, Diagnostics& diagnostics) {
+  for (const auto& stage : chain.stages) {
+    const auto pole = first_unstable_pole(stage_rational(stage).poles());
+    if (!pole) continue;
+    const auto s = std::find_if(spec.stages.begin(), spec.stages.end(), [&](const StageSpec& x) {
+      return stage.id == x.id || stage.id.starts_with(x.id + ".");
+    });
+    const StageSpec* table = s == spec.stages.end() ? nullptr : &*s;
+    const auto* rf = table ? table->find("rf") : nullptr;
+    const bool open = table && std::any_of(table->values.begin(), table->values.end(),
+                                           [](const auto& v) { return !v.second.is_fixed(); });
+    diagnostics.error(rf ? rf->where : table ? table->where : SourcePosition{},
+                      fmt::format("stage '{}' {} (a pole in the right half-plane at {}); expected a stage that can "
+                                  "be stable{}",
+                                  stage.id, open ? "is unstable at every value within its ranges the planner tried"
+                                                 : "is unstable as written",
+                                  format_si(std::abs(*pole) / (2.0 * std::numbers::pi), "Hz", 3),
+                                  rf ? ": fewer core_stages, less gain per cell (gm rd) or an rf range that "
+                                       "keeps the feedback loop's gain lower"
+                                     : ""));
+    return false;
+  }
+  return true;
+}
+
+}  // namespace
+
 std::optional<Plan> plan_chain(const ChainSpec& input, Diagnostics& diagnostics, const PlanOptions& options) {
   // Every plan is held to a sag limit, the file's or the default; an analysis only to the file's.
   ChainSpec spec = input;
@@ -265,6 +297,7 @@ std::optional<Plan> plan_chain(const ChainSpec& input, Diagnostics& diagnostics,
   const Candidate best = final_phase(context, *problems, ranked, checks, evaluations);
 
   Plan plan = assemble_plan(spec, *problems, best, std::move(checks));
+  if (!check_planned_stability(spec, plan.chain, diagnostics)) return std::nullopt;
   plan.spread = start_spread(spec, finals);
   plan.spread.effort = std::max(1, options.effort);
   plan.spread.crs2_runs = static_cast<int>(crs2_runs.size());

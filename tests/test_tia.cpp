@@ -13,6 +13,7 @@
 #include <string>
 
 #include "cli_support.hpp"
+#include "models/monte_carlo.hpp"
 #include "models/noise.hpp"
 #include "models/receiver.hpp"
 #include "planner/input/chain_graph.hpp"
@@ -121,6 +122,101 @@ TEST_CASE("tia: an even core still inverts, and a high loop gain makes the trans
     CHECK(-z0 == doctest::Approx(1000.0 * a / (1.0 + a)).epsilon(0.45 / a));
     CHECK(static_cast<int>(system.node_names().size()) == cells + 1);
   }
+}
+
+namespace {
+
+// Hurwitz's criterion from the Routh array (Routh 1877, Hurwitz 1895; any control text): a
+// polynomial (ascending coefficients) has every root in the open left half-plane iff the first
+// column of its Routh array keeps one sign. The independent oracle for the stability check.
+bool routh_stable(std::vector<double> ascending) {
+  std::vector<double> a(ascending.rbegin(), ascending.rend());  // highest power first
+  std::vector<double> r0, r1;
+  for (size_t i = 0; i < a.size(); i += 2) r0.push_back(a[i]);
+  for (size_t i = 1; i < a.size(); i += 2) r1.push_back(a[i]);
+  const double sign = a.front() > 0.0 ? 1.0 : -1.0;
+  for (size_t row = 0; row + 1 < a.size(); ++row) {
+    if (r1.empty() || !(sign * r1.front() > 0.0)) return false;
+    std::vector<double> next;
+    for (size_t i = 0; i + 1 < r0.size(); ++i)
+      next.push_back((r1.front() * r0[i + 1] - r0.front() * (i + 1 < r1.size() ? r1[i + 1] : 0.0)) / r1.front());
+    r0 = std::move(r1);
+    r1 = std::move(next);
+  }
+  return true;
+}
+
+}  // namespace
+
+TEST_CASE("tia stability: the check agrees with the Routh-Hurwitz criterion on the stage's denominator, and a "
+          "one-cell tia (two poles, negative feedback) is always stable") {
+  int unstable = 0;
+  for (int cells : {1, 2, 3})
+    for (double rf : {200.0, 1000.0, 5000.0, 20000.0})
+      for (double rd : {100.0, 400.0}) {
+        CAPTURE(cells);
+        CAPTURE(rf);
+        CAPTURE(rd);
+        auto s = tia_cell(0.05, rd, 10e-15, rf, 200e-15);
+        s.core_stages = cells;
+        ChainStage stage;
+        stage.circuit = s;
+        const auto block = stage_rational(stage);
+        const bool stable = !first_unstable_pole(block.poles());
+        CHECK(stable == routh_stable(block.denominator()));
+        if (cells == 1) CHECK(stable);
+        unstable += !stable;
+      }
+  CHECK(unstable > 0);  // the grid reaches the unstable side, so the comparison means something
+}
+
+TEST_CASE("tia stability: analyze refuses an unstable tia at its rf, and plan says no value in range makes it "
+          "stable (exit 2, nothing on stdout); a Monte Carlo sample that oscillates fails every check") {
+  TempDir dir;
+  const std::string chain = R"(# Invented for this test: a three-cell tia whose loop gain is far too high.
+[chain]
+name = "oscillating tia"
+[input.photodiode]
+capacitance = "200 fF"
+responsivity = "0.9 A/W"
+[target]
+transimpedance = "5 kohm"
+[[stage]]
+id = "tia"
+kind = "tia"
+gm = "50 mS"
+rd = "400 ohm"
+c_in = "40 fF"
+c_out = "20 fF"
+core_stages = 3
+rf = "1 kohm"
+)";
+  const auto fixed = dir.write("fixed.toml", chain);
+  const auto a = run_cli({"analyze", fixed});
+  CHECK(a.status == 2);
+  CHECK(a.out.empty());
+  CHECK(a.err.find("fixed.toml:17:6: error: stage 'tia' is unstable as written") != std::string::npos);
+  CHECK(a.err.find("right half-plane") != std::string::npos);
+
+  std::string open = chain;
+  const std::string given = "rf = \"1 kohm\"";
+  open.replace(open.find(given), given.size(), "rf = \"auto\"");
+  const auto planned = run_cli({"plan", dir.write("open.toml", open)});
+  CHECK(planned.status == 2);
+  CHECK(planned.out.empty());
+  CHECK(planned.err.find("open.toml:17:6: error: stage 'tia' is unstable at every value") != std::string::npos);
+
+  // The Monte Carlo's measurement of a sample whose stage oscillates: no throw, every check failed.
+  Chain c;
+  auto cell = tia_cell(0.05, 400.0, 20e-15, 1000.0, 0.0);
+  cell.core_stages = 3;
+  c.stages.push_back(make_stage("tia", -1, cell, 40e-15));
+  c.photodiode = Photodiode{200e-15, 0.9, 0.0};
+  fill_node_capacitances(c);
+  const auto m = measure_case(c, CaseOptions{});
+  CHECK(std::isinf(m.t.overshoot_pct));
+  CHECK(std::isinf(m.f.peaking_db));
+  CHECK(std::isnan(m.f.bandwidth_hz));
 }
 
 TEST_CASE("tia noise: Rf gives 4kT/Rf at the input, the dark current 2qI (common practice; exact forms derived)") {

@@ -5,6 +5,7 @@
 #include <cmath>
 #include <fmt/format.h>
 #include <map>
+#include <numbers>
 #include <set>
 
 #include "models/frequency_response.hpp"
@@ -392,6 +393,26 @@ void check_design_loads(const ChainSpec& spec, const std::vector<GraphStage>& gr
   }
 }
 
+// A stage whose own circuit has a pole in the right half-plane (a shunt-feedback tia of two or
+// three cells with too much loop gain) has no response to plan with: every figure of it would be
+// a number from a growing waveform.
+void check_stability(const ChainSpec& spec, const std::vector<GraphStage>& graph, const Chain& chain,
+                     Diagnostics& diagnostics) {
+  for (size_t i = 0; i < chain.stages.size(); ++i) {
+    if (graph[i].copy > 1) continue;
+    const auto unstable = first_unstable_pole(stage_rational(chain.stages[i]).poles());
+    if (!unstable) continue;
+    const auto& s = spec.stages[graph[i].table];
+    const auto* rf = s.find("rf");
+    diagnostics.error(rf ? rf->where : s.where,
+                      fmt::format("stage '{}' is unstable as written: its circuit has a pole in the right "
+                                  "half-plane at {}{}; expected a stable stage{}",
+                                  s.id, format_si(std::abs(*unstable) / (2.0 * std::numbers::pi), "Hz", 3),
+                                  unstable->imag() != 0.0 ? " (an oscillation)" : "",
+                                  rf ? " (a smaller rf or fewer core_stages lower the feedback loop's gain)" : ""));
+  }
+}
+
 // What a design sets must be a plausible element too (m = 10 with rd = 1 Mohm is 0.1 H).
 void check_designed_inductances(const ChainSpec& spec, const std::vector<GraphStage>& graph, const Chain& chain,
                                 Diagnostics& diagnostics) {
@@ -433,6 +454,7 @@ std::optional<Chain> resolve_chain(const ChainSpec& spec, Diagnostics& diagnosti
   if (!diagnostics.empty()) return std::nullopt;
   apply_designs(chain, spec, *graph);
   check_designed_inductances(spec, *graph, chain, diagnostics);
+  check_stability(spec, *graph, chain, diagnostics);
   if (spec.variation) check_variation(*spec.variation, chain, diagnostics);
   if (!diagnostics.empty()) return std::nullopt;
   return chain;
