@@ -259,8 +259,8 @@ bool check_planned_stability(const ChainSpec& spec, const Chain& chain, Diagnost
                                   stage.id, open ? "is unstable at every value within its ranges the planner tried"
                                                  : "is unstable as written",
                                   format_si(std::abs(*pole) / (2.0 * std::numbers::pi), "Hz", 3),
-                                  rf ? ": fewer core_stages, less gain per cell (gm rd) or an rf range that "
-                                       "keeps the feedback loop's gain lower"
+                                  rf ? ": fewer core_stages, less gain per cell (gm rd), an rf range that reaches larger "
+                                       "values or a cf across it"
                                      : ""));
     return false;
   }
