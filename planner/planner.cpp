@@ -29,6 +29,7 @@ std::string plan_message(Plan& plan, bool met, bool nothing_to_choose) {
   if (plan.checks.empty()) return "no targets or limits to meet" + fixed;
   if (!met) return (nothing_to_choose ? "the chain as written misses " : "the best plan found misses ") + failed + fixed;
   if (nothing_to_choose) return "every target and limit is met" + fixed;
+  if (!plan.binds) return "every target and limit is met, none binds (" + plan.binding + " has the least margin)";
   return "every target and limit is met, " + plan.binding + " binds";
 }
 
@@ -180,7 +181,7 @@ std::string check_yield(const ChainSpec& spec, Plan& plan, bool& met) {
                      100.0 * y, 100.0 * mc->ci95.lo, 100.0 * mc->ci95.hi, mc->samples, yield_corner_scale(spec));
 }
 
-// The binding check: the one with the least relative margin.
+// The binding check: the one with the least relative margin, and whether that margin is close.
 void find_binding(Plan& plan) {
   double least = std::numeric_limits<double>::infinity();
   for (size_t i = 0; i < plan.checks.size(); ++i) {
@@ -192,6 +193,7 @@ void find_binding(Plan& plan) {
       if (plan.for_corners) plan.binding_corner = plan.check_corners[i];
     }
   }
+  plan.binds = least <= kBindsWithin;
 }
 
 // The Plan from the chosen candidate and its final checks.

@@ -114,6 +114,8 @@ struct PlannedStage {
   int count = 1;
 };
 
+inline constexpr double kBindsWithin = 0.01;  // of the limit
+
 struct Plan {
   enum class Termination { met, not_met } termination = Termination::not_met;
   std::string message;
@@ -122,6 +124,9 @@ struct Plan {
   std::vector<GraphStage> graph;
   std::vector<PlanCheck> checks;
   std::string binding;  // the check with the least margin
+  // That margin is within kBindsWithin of its limit: the check holds the plan back. Otherwise
+  // every check has room, and the text says which has least rather than that it binds.
+  bool binds = false;
   // [target] plan_for = "corners": `checks` hold each check's worst value over the corners,
   // `check_corners` the corner each comes from, `nominal_checks` the nominal chain's checks.
   bool for_corners = false;

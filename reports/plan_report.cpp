@@ -67,6 +67,7 @@ nlohmann::json plan_json(const ChainSpec& spec, const Plan& plan, const ChainAna
   doc["status"] = plan.termination == Plan::Termination::met ? "met" : "not_met";
   doc["message"] = plan.message;
   doc["binding"] = plan.binding.empty() ? nlohmann::json(nullptr) : nlohmann::json(plan.binding);  // null: nothing to choose
+  doc["binds"] = !plan.binding.empty() && plan.binds;
   doc["objective"] = std::string(to_string(spec.target.objective));
   doc["evaluations"] = plan.evaluations;
   doc["plan_time_s"] = plan.seconds;
@@ -98,6 +99,15 @@ nlohmann::json plan_json(const ChainSpec& spec, const Plan& plan, const ChainAna
   return doc;
 }
 
+namespace {
+
+std::string_view binding_mark(const Plan& plan, const PlanCheck& c) {
+  if (c.name != plan.binding) return "";
+  return plan.binds ? " (binding)" : " (least margin)";
+}
+
+}  // namespace
+
 std::string plan_text(const ChainSpec& spec, const Plan& plan, const ChainAnalysis& analysis) {
   std::string out = plan.brief() + "\n" + spread_text(spec, plan.spread) + "\n" + analysis_text(plan.chain, analysis);
   if (plan.for_corners) {
@@ -110,7 +120,7 @@ std::string plan_text(const ChainSpec& spec, const Plan& plan, const ChainAnalys
       out += fmt::format("  {:<20} {:>12} {:>12} {:>12} {:>12}  {:<16}  {}{}\n", c.name,
                          (c.is_minimum ? ">= " : "<= ") + shown(c, c.limit), shown(c, plan.nominal_checks[i].value),
                          shown(c, c.value), shown(c, c.margin), plan.check_corners[i], c.met ? "met" : "NOT MET",
-                         c.name == plan.binding ? " (binding)" : "");
+                         binding_mark(plan, c));
     }
     if (plan.checks.empty()) out += "  (the file sets no [target] or [limits])\n";
     return out;
@@ -120,7 +130,7 @@ std::string plan_text(const ChainSpec& spec, const Plan& plan, const ChainAnalys
   for (const auto& c : plan.checks)
     out += fmt::format("  {:<20} {:>12} {:>14} {:>14}  {}{}\n", c.name, (c.is_minimum ? ">= " : "<= ") + shown(c, c.limit),
                        shown(c, c.value), shown(c, c.margin), c.met ? "met" : "NOT MET",
-                       c.name == plan.binding ? " (binding)" : "");
+                       binding_mark(plan, c));
   if (plan.checks.empty()) out += "  (the file sets no [target] or [limits])\n";
   return out;
 }

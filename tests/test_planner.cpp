@@ -243,6 +243,18 @@ TEST_CASE("planner: plan, write, analyze reproduces the plan's metrics and meets
   const auto planned = nlohmann::json::parse(plan_out);
   CHECK(planned["status"] == "met");
   for (const auto& c : planned["checks"]) CHECK(c["met"] == true);
+  // `binding` names the least relative margin; `binds` only when it is within 1 % of its limit.
+  double least = 1e300;
+  std::string least_name;
+  for (const auto& c : planned["checks"]) {
+    const double relative = c["margin"].get<double>() / std::fabs(c["limit"].get<double>());
+    if (relative < least) least = relative, least_name = c["name"];
+  }
+  CHECK(planned["binding"] == least_name);
+  CHECK(planned["binds"] == (least <= 0.01));
+  CHECK(planned["message"].get<std::string>().find(least <= 0.01 ? least_name + " binds"
+                                                                  : "none binds (" + least_name + " has the least margin)") !=
+        std::string::npos);
 
   const auto [status, out] = run("analyze " + written + " --json");
   REQUIRE(status == 0);

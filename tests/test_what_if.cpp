@@ -269,6 +269,19 @@ TEST_CASE("what-if: compare lists every setting the files differ in and warns wh
   CHECK(same["settings"].empty());
   CHECK(same["signals_differ"] == false);
   CHECK(run_cli({"compare", a, a}).out.find("different signals") == std::string::npos);
+
+  // A file and its own written form (numbers in SI where it wrote units) differ in nothing.
+  std::string numeric = two_stage_chain("100 ohm");
+  numeric.replace(numeric.find("\"50 ohm\""), 8, "50.0");
+  numeric.replace(numeric.find("\"25 Gb/s\""), 9, "25e9");
+  numeric.replace(numeric.find("\"30 fF\""), 7, "3.0000000000000004e-14");
+  const auto in_numbers = run_json({"compare", a, scratch.write("numeric.toml", numeric), "--json"});
+  CHECK(in_numbers["settings"].empty());
+  // A real change to a float is shown to 9 digits, not as the writer's round-trip digits.
+  numeric.replace(numeric.find("3.0000000000000004e-14"), 22, "3.1000000000000004e-14");
+  const auto changed = run_json({"compare", a, scratch.write("changed.toml", numeric), "--json"});
+  REQUIRE(changed["settings"].size() == 1);
+  CHECK(changed["settings"][0]["b"] == "3.1e-14");
 }
 
 TEST_CASE("what-if: compare plans a file with open values first and says so") {

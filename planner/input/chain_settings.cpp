@@ -1,20 +1,52 @@
 #include "planner/input/chain_settings.hpp"
 
+#include <algorithm>
+#include <charconv>
+#include <cmath>
+#include <fmt/format.h>
 #include <sstream>
 #include <toml++/toml.h>
 #include <utility>
+
+#include "models/units.hpp"
 
 namespace peakplan {
 namespace {
 
 using Flat = std::vector<std::pair<std::string, std::string>>;
 
-// Strings in double quotes as a user types them (TOML++ would print 'literal' strings).
+// Strings in double quotes as a user types them (TOML++ would print 'literal' strings); a float
+// to 9 digits, as a written plan's 4.0000000000000003e-15 is 4e-15 to a reader.
 std::string toml_text(const toml::node& node) {
   if (const auto* text = node.as_string()) return "\"" + text->get() + "\"";
+  if (const auto* x = node.as_floating_point()) return fmt::format("{:.9g}", x->get());
   std::ostringstream out;
   node.visit([&](const auto& value) { out << value; });
   return out.str();
+}
+
+// The value a setting's text stands for, in SI: a number, or a quantity with its unit ("50 ohm"
+// and 50 are one setting, as a written plan gives what its file wrote with a unit). None for a
+// word ("auto", "shunt"), a list or a table.
+std::optional<double> setting_value(const std::string& text) {
+  if (text.size() >= 2 && text.front() == '"' && text.back() == '"') {
+    const std::string inner = text.substr(1, text.size() - 2);
+    for (int d = 0; d <= static_cast<int>(Dimension::dimensionless); ++d)
+      if (const auto parsed = parse_quantity(inner, static_cast<Dimension>(d)); parsed.value) return parsed.value;
+    return std::nullopt;
+  }
+  double x = 0.0;
+  const auto [end, error] = std::from_chars(text.data(), text.data() + text.size(), x);
+  if (error != std::errc{} || end != text.data() + text.size()) return std::nullopt;
+  return x;
+}
+
+// Two settings are the same when their texts are, or when both stand for the same number (to
+// 1e-9, the writer's round trip is exact but a unit's prefix need not be).
+bool same_setting(const std::string& a, const std::string& b) {
+  if (a == b) return true;
+  const auto x = setting_value(a), y = setting_value(b);
+  return x && y && std::fabs(*x - *y) <= 1e-9 * std::max(std::fabs(*x), std::fabs(*y));
 }
 
 void flatten(const toml::table& table, const std::string& prefix, Flat& out) {
@@ -90,7 +122,7 @@ std::vector<SettingDifference> setting_differences(std::string_view text_a, std:
     const std::string* other = find(b, key);
     if (!other) {
       out.push_back({key, value, std::nullopt});
-    } else if (*other != value) {
+    } else if (!same_setting(value, *other)) {
       out.push_back({key, value, *other});
     }
   }

@@ -2,7 +2,9 @@
 // that no input difference (an r_source, a swing, a limit, a modulation) hides behind the
 // figures it moved: every key of every top-level table ([input], [signal], [technology],
 // [target], [limits], [variation] and any nested table), and every key of the [[stage]] tables
-// matched by id. Values are shown as TOML text, exactly as the files give them.
+// matched by id. Values are shown as TOML text as the files give them (a float to 9 digits); a
+// value written with its unit in one file and as a number in the other ("50 ohm" and 50) is no
+// difference.
 #pragma once
 
 #include <optional>
