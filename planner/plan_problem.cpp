@@ -116,9 +116,14 @@ double yield_corner_scale(const ChainSpec& spec) {
   return 0.5 * (lo + hi) / 3.0;
 }
 
+bool is_planned(const StageSpec& stage) {
+  return !stage.kind_is_fixed() || !stage.count.is_fixed() ||
+         std::any_of(stage.values.begin(), stage.values.end(), [](const auto& v) { return !v.second.is_fixed(); });
+}
+
 Measured as_measured(const Evaluation& e) {
   const auto finite = [](double x) { return std::isfinite(x) ? std::optional(x) : std::nullopt; };
-  Measured m{e.f, e.t, e.total_gm, finite(e.input_noise_rms_a), e.min_stage_gain_db};
+  Measured m{e.f, e.t, e.total_gm, finite(e.input_noise_rms_a), finite(e.min_stage_gain_db)};
   m.eye_height_v = e.eye_height_v;
   m.ddj_pp_s = e.ddj_pp_s;
   m.output_noise_rms_v = finite(e.output_noise_rms_v);
@@ -397,11 +402,15 @@ Evaluation Problem::measure(const Chain& chain, Fidelity fidelity) const {
   }
   if ((spec_.limits.noise_rms || spec_.limits.ber) && spec_.signal) measure_output_noise(chain, cascade, fidelity, e);
   // The stages are the cascade's last blocks (a source pole, if any, comes first).
+  // Only planned stages count: a fixed stage's gain is the file's (a 50-ohm buffer at -1 dB is
+  // the usual output stage), and none planned on the path leaves the limit nothing to hold.
   const auto& blocks = cascade.blocks();
-  const size_t stages = chain.path_to(chain.outputs().back()).size();
+  const auto path = chain.path_to(chain.outputs().back());
   e.min_stage_gain_db = std::numeric_limits<double>::infinity();
-  for (size_t k = blocks.size() - stages; k < blocks.size(); ++k)
-    e.min_stage_gain_db = std::min(e.min_stage_gain_db, to_db(std::fabs(blocks[k].dc_value())));
+  for (size_t j = 0; j < path.size(); ++j)
+    if (is_planned(spec_.stages[graph_[static_cast<size_t>(path[j])].table]))
+      e.min_stage_gain_db =
+          std::min(e.min_stage_gain_db, to_db(std::fabs(blocks[blocks.size() - path.size() + j].dc_value())));
   return e;
 }
 

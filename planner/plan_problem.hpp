@@ -91,6 +91,8 @@ inline constexpr std::pair<double, double> kTailCurrentAuto{0.1e-3, 40e-3};
 
 // What the requirements read from a candidate (planner/requirements.hpp).
 Measured as_measured(const Evaluation& e);
+// A stage the planner chooses something of: an open value, a kind list or an open count.
+bool is_planned(const StageSpec& stage);
 
 // plan_for = "yield": the corners are the global extremes scaled by this factor (0 when the spec
 // has no [variation] global spread or no yield). With c classes spread, each drawn independently,

@@ -79,7 +79,8 @@ const std::array kRequirements{
                 [](double v, double l) { return v - (l - 1e-3); }},
     Requirement{"min_stage_gain", "dB", true, {false, 1e-4}, [](const ChainSpec& s) { return s.limits.min_stage_gain_db; },
                 [](const ChainSpec&, const Measured& m) { return or_nan(m.min_stage_gain_db); },
-                [](double v, double l) { return std::isnan(v) ? 10.0 : (l + 1e-4 - v) / 3.0; }, true},
+                // Not measured: no planned stage on the main path, nothing to hold.
+                [](double v, double l) { return std::isnan(v) ? -1.0 : (l + 1e-4 - v) / 3.0; }, true},
     Requirement{"current", "A", false, {true, 1e-9}, current_budget,
                 [](const ChainSpec& s, const Measured& m) {
                   return m.total_gm ? *m.total_gm / *s.technology.gm_over_id : kNaN;
