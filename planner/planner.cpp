@@ -91,6 +91,24 @@ void check_plan_input(const ChainSpec& spec, Diagnostics& diagnostics) {
     diagnostics.error(spec.target.plan_for_where,
                       "[target] plan_for = \"corners\": [variation] has corners = \"none\" and no "
                       "[[variation.corner]] tables, so there is no corner to plan for");
+  // Open values with nothing to aim at: flattest, leanest and quietest then have a trivial optimum
+  // (a stage at its floor gain, the smallest device), which would be reported as met; widest
+  // aims at the bandwidth itself.
+  const auto& t = spec.target;
+  const bool aims = t.gain_db || t.bandwidth || t.gain_bandwidth || t.transimpedance || t.sensitivity_w ||
+                    t.output_swing || t.objective == Objective::widest;
+  for (const auto& s : spec.stages) {
+    if (aims || !is_planned(s)) continue;
+    // At the first open value in the file (the map is in key order).
+    const Adjustable* open = nullptr;
+    for (const auto& [key, v] : s.values)
+      if (!v.is_fixed() && (!open || v.where.line < open->where.line)) open = &v;
+    diagnostics.error(open ? open->where : s.kinds.size() > 1 ? s.kind_where : s.count.where,
+                      "stage '" + s.id + "' has values for the planner to choose, but [target] gives nothing to "
+                      "plan for: expected gain, bandwidth, gain_bandwidth, transimpedance, sensitivity or "
+                      "output_swing in [target] (or objective = \"widest\")");
+    break;
+  }
   if (spec.technology.current_budget.has_value() != spec.technology.gm_over_id.has_value())
     diagnostics.error({}, "[technology]: a current_budget needs gm_over_id (and gm_over_id a current_budget) "
                           "to bound the chain's supply current");

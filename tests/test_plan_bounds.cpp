@@ -279,3 +279,28 @@ TEST_CASE("plan bounds: a planned T-coil whose drain carries no capacitance gets
   CHECK(real.status == 0);
   CHECK(real.err.find("note") == std::string::npos);
 }
+
+TEST_CASE("plan bounds: open values with nothing in [target] to plan for are an input error, except for widest") {
+  // A new user's plan without a [target]: flattest then planned a 0 dB stage with a 6 pH coil and
+  // said "every target and limit is met".
+  TempDir scratch("peakplan_plan_bounds");
+  const std::string chain = R"(# Invented for this test.
+[[stage]]
+id = "a"
+kind = "shunt"
+gm = "30 mS"
+rd = "auto"
+l = "auto"
+c_out = "20 fF"
+c_load = "30 fF"
+)";
+  const auto bare = scratch.write("bare.toml", chain);
+  const auto r = run_cli({"plan", bare});
+  CHECK(r.status == 2);
+  CHECK(r.out.empty());
+  CHECK(r.err.find(bare + ":6:6: error: stage 'a' has values for the planner to choose, but [target] gives nothing "
+                          "to plan for") != std::string::npos);
+  // widest aims at the bandwidth itself, and a gain target is something to plan for.
+  CHECK(run_cli({"plan", scratch.write("widest.toml", "[target]\nobjective = \"widest\"\n" + chain)}).status == 0);
+  CHECK(run_cli({"plan", scratch.write("gain.toml", "[target]\ngain = \"6 dB\"\n" + chain)}).status == 0);
+}
