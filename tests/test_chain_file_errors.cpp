@@ -260,6 +260,12 @@ const std::vector<Fault>& faults() {
        {"[signal] swing is an input voltage"}},
       {"tia_with_tail_current.toml", "a tia with a tail current is an error at the key", 8, 16,
        {"tail_current belongs to a limiting stage"}},
+      {"tia_unstable.toml", "a tia whose feedback loop oscillates is an error at rf", 13, 6,
+       {"stage 'tia' is unstable as written", "right half-plane at 39.6 GHz", "a larger rf or a cf"}},
+      {"m_auto.toml", "m = \"auto\" says to open l instead", 7, 5,
+       {"m is a design factor the file gives", "write l = \"auto\""}},
+      {"key_of_other_kind.toml", "m on a plain stage names the kinds it belongs to, not gm", 7, 1,
+       {"'m' is a key of shunt and series stages, and this stage is plain"}},
       {"extinction_ratio_zero.toml", "an extinction ratio of 0 dB is no signal", 8, 20,
        {"[signal] extinction_ratio must be above 0 dB"}},
       // Planning limits on the eye and the noise, and the planner's technology bounds.

@@ -503,6 +503,36 @@ std::vector<LoadKind> every_kind() {
   return kinds;
 }
 
+// A key of another load kind ("m" on a plain stage) is not a typo of a key this stage has: its
+// error names the kinds it belongs to. Returns `allowed` with such keys added, so that the
+// unknown-key check passes over them.
+Keys with_other_kinds_keys(Reader& reader, const toml::table& t, Keys allowed, const std::string& who,
+                           const StageSpec& stage) {
+  const Keys every = stage_keys_for(every_kind());
+  for (auto&& [key, node] : t) {
+    const auto k = key.str();
+    if (std::find(allowed.begin(), allowed.end(), k) != allowed.end()) continue;
+    if (std::find(every.begin(), every.end(), k) == every.end()) continue;
+    std::vector<std::string> owners;
+    for (const auto& info : all_load_kinds())
+      for (const auto& p : info.parameters)
+        if (p.key == k) owners.emplace_back(to_string(info.kind));
+    std::vector<std::string> kinds;
+    for (auto kind : stage.kinds) kinds.emplace_back(to_string(kind));
+    const auto listed = [](const std::vector<std::string>& words) {
+      std::string out;
+      for (size_t i = 0; i < words.size(); ++i)
+        out += (i == 0 ? "" : i + 1 == words.size() ? " and " : ", ") + words[i];
+      return out;
+    };
+    const std::string here = listed(kinds);
+    reader.error(position(key.source()), fmt::format("{}'{}' is a key of {} stages, and this stage is {}; remove it "
+                                                     "or change the kind", who, k, listed(owners), here));
+    allowed.push_back(k);
+  }
+  return allowed;
+}
+
 // What kind = "auto" lets the planner choose among: the voltage-gain kinds. A transimpedance
 // stage is a receiver's front end, never a candidate for a post-amplifier stage.
 std::vector<LoadKind> auto_kinds() {
@@ -665,6 +695,14 @@ void read_common_elements(Reader& reader, const toml::table& t, const std::strin
 void read_design_factor(Reader& reader, const toml::node& n, std::string_view key, const std::string& who,
                         StageSpec& stage) {
   stage.design_where = position(n.source());
+  if (n.is_string() && n.as_string()->get() == "auto") {
+    // The planner chooses elements, and searches the design factors itself on the way.
+    reader.error(n, fmt::format("{}{} = \"auto\": {} is a design factor the file gives, not a value the planner "
+                                "chooses; to let it choose the coil{}, write {} = \"auto\" and leave {} out",
+                                who, key, key, key == "m" ? "" : "s", key == "m" ? "l" : "l1, l2, k and cb", key));
+    stage.values[std::string(key)] = {};
+    return;
+  }
   auto v = reader.bounded(n, Dimension::dimensionless, who + std::string(key), true);
   // Decades past any peaking design: m = 1e12 makes an inductor of hundreds of henries,
   // zeta = 1e-9 a coupling of -1 and infinite halves; the models cannot solve either.
@@ -804,7 +842,7 @@ void read_stage(Reader& reader, const toml::table& t, size_t index, ChainSpec& s
   const std::string who = read_stage_id(reader, t, index, stage);
   read_stage_kind(reader, t, who, stage);
   const Keys allowed = stage.kinds.empty() ? stage_keys_for(every_kind()) : stage_keys_for(stage.kinds);
-  reader.check_keys(t, allowed, who);
+  reader.check_keys(t, with_other_kinds_keys(reader, t, allowed, who, stage), who);
   read_common_elements(reader, t, who, stage);
   check_tail_range(reader, t, who, stage, spec.technology.temperature);
   read_kind_parameters(reader, t, who, stage);
