@@ -277,6 +277,12 @@ TEST_CASE("what-if: compare lists every setting the files differ in and warns wh
   numeric.replace(numeric.find("\"30 fF\""), 7, "3.0000000000000004e-14");
   const auto in_numbers = run_json({"compare", a, scratch.write("numeric.toml", numeric), "--json"});
   CHECK(in_numbers["settings"].empty());
+  // The same of the file's complete written form, which also writes out the defaults it left.
+  const auto written = (scratch.path / "written.toml").string();
+  REQUIRE(run_cli({"plan", a, "--write", written}).status == 0);
+  const auto complete = run_json({"compare", a, written, "--json"});
+  CHECK(complete["settings"].empty());
+  CHECK(complete["signals_differ"] == false);
   // A real change to a float is shown to 9 digits, not as the writer's round-trip digits.
   numeric.replace(numeric.find("3.0000000000000004e-14"), 22, "3.1000000000000004e-14");
   const auto changed = run_json({"compare", a, scratch.write("changed.toml", numeric), "--json"});

@@ -1,6 +1,7 @@
 #include "planner/input/chain_settings.hpp"
 
 #include <algorithm>
+#include <cctype>
 #include <charconv>
 #include <cmath>
 #include <fmt/format.h>
@@ -9,6 +10,7 @@
 #include <utility>
 
 #include "models/units.hpp"
+#include "planner/input/chain_file.hpp"
 
 namespace peakplan {
 namespace {
@@ -106,6 +108,37 @@ bool stage_in(const Flat& flat, const std::string& key) {
 // The chain's name: compare's header shows it.
 bool shown_elsewhere(const std::string& key) { return key == "chain.name"; }
 
+// The value a file that leaves `key` out has: a written plan writes these defaults out, and a
+// default written out is no difference from a key left to it.
+std::optional<double> default_of(const std::string& key) {
+  if (key == "input.r_source") return ChainSpec{}.r_source;
+  if (key == "technology.gamma") return TechnologySpec{}.gamma;
+  if (key == "technology.temperature") return TechnologySpec{}.temperature;
+  if (key == "signal.target_ber") return SignalSpec{}.target_ber;
+  // A coil's series loss: none unless given (or from [technology] inductor_q, written nonzero).
+  if (is_stage_key(key) && (key.ends_with(".r_l") || key.ends_with(".r_l1") || key.ends_with(".r_l2"))) return 0.0;
+  return std::nullopt;
+}
+
+// The same for the words a written plan writes out.
+std::optional<std::string> default_word(const std::string& key) {
+  if (key == "signal.modulation") return std::string(to_string(SignalSpec{}.modulation));
+  if (key == "signal.pattern") return SignalSpec{}.pattern;
+  if (key == "target.objective") return std::string(to_string(TargetSpec{}.objective));
+  return std::nullopt;
+}
+
+bool is_default(const std::string& key, const std::string& text) {
+  if (const auto word = default_word(key)) {
+    std::string lower = text;
+    std::transform(lower.begin(), lower.end(), lower.begin(), [](unsigned char c) { return static_cast<char>(std::tolower(c)); });
+    return lower == "\"" + *word + "\"";
+  }
+  const auto d = default_of(key);
+  const auto v = setting_value(text);
+  return d && v && std::fabs(*v - *d) <= 1e-9 * std::fabs(*d);
+}
+
 const std::string* find(const Flat& flat, const std::string& key) {
   for (const auto& [k, v] : flat)
     if (k == key) return &v;
@@ -121,13 +154,13 @@ std::vector<SettingDifference> setting_differences(std::string_view text_a, std:
     if (shown_elsewhere(key) || (is_stage_key(key) && !stage_in(b, key))) continue;
     const std::string* other = find(b, key);
     if (!other) {
-      out.push_back({key, value, std::nullopt});
+      if (!is_default(key, value)) out.push_back({key, value, std::nullopt});
     } else if (!same_setting(value, *other)) {
       out.push_back({key, value, *other});
     }
   }
   for (const auto& [key, value] : b)
-    if (!shown_elsewhere(key) && !find(a, key) && !(is_stage_key(key) && !stage_in(a, key)))
+    if (!shown_elsewhere(key) && !find(a, key) && !(is_stage_key(key) && !stage_in(a, key)) && !is_default(key, value))
       out.push_back({key, std::nullopt, value});
   return out;
 }

@@ -4,7 +4,8 @@
 // [target], [limits], [variation] and any nested table), and every key of the [[stage]] tables
 // matched by id. Values are shown as TOML text as the files give them (a float to 9 digits); a
 // value written with its unit in one file and as a number in the other ("50 ohm" and 50) is no
-// difference.
+// difference, nor is a default one file writes out and the other leaves (a written plan writes
+// r_source, gamma, temperature, modulation, pattern, target_ber, objective and coil losses).
 #pragma once
 
 #include <optional>
