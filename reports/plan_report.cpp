@@ -52,8 +52,12 @@ std::string spread_text(const ChainSpec& spec, const PlanSpread& s) {
                        std::isfinite(s.crs2_best) ? "best " + shown(s.crs2_best) : "none met every target and limit");
   else if (s.feasible > 0 && s.near_best < 3)
     tail = "; few agree: plan --effort 2 or more searches harder";
+  // The plan itself may still meet everything: the starts are one phase of several, and the
+  // combination search and the refinement that follow them are checked too.
   if (s.feasible == 0)
-    return fmt::format("search spread: none of the {} global starts met every target and limit{}\n", s.starts, tail);
+    return fmt::format("search spread: none of the {} global starts met every target and limit on its own (the plan "
+                       "comes from the closed-form designs and their refinement){}\n",
+                       s.starts, tail);
   return fmt::format("search spread: {} of {} global starts met every target and limit; {} objective best {}, median "
                      "{}; {} within {} of their best{}\n",
                      s.feasible, s.starts, to_string(spec.target.objective), shown(s.best), shown(s.median), s.near_best,
