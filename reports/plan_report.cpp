@@ -139,4 +139,14 @@ std::string plan_text(const ChainSpec& spec, const Plan& plan, const ChainAnalys
   return out;
 }
 
+std::string checks_text(const std::vector<PlanCheck>& checks) {
+  if (checks.empty()) return {};
+  std::string out = "\ntargets and limits (as written: analyze checks them, plan chooses values to meet them)\n";
+  out += fmt::format("  {:<20} {:>12} {:>14} {:>14}  {}\n", "check", "required", "achieved", "margin", "");
+  for (const auto& c : checks)
+    out += fmt::format("  {:<20} {:>12} {:>14} {:>14}  {}\n", c.name, (c.is_minimum ? ">= " : "<= ") + shown(c, c.limit),
+                       shown(c, c.value), shown(c, c.margin), c.met ? "met" : "NOT MET");
+  return out;
+}
+
 }  // namespace peakplan

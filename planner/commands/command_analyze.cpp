@@ -7,9 +7,11 @@
 #include "planner/commands/command.hpp"
 #include "planner/commands/progress_line.hpp"
 #include "planner/input/chain_graph.hpp"
+#include "planner/requirements.hpp"
 #include "planner/variation_analysis.hpp"
 #include "planner/what_if.hpp"
 #include "reports/json_report.hpp"
+#include "reports/plan_report.hpp"
 #include "reports/text_report.hpp"
 #include "reports/variation_report.hpp"
 
@@ -46,7 +48,8 @@ int run_analyze(const AnalyzeArgs& args) {
     if (variation) doc["variation"] = variation_json(*variation);
     print(doc.dump(2) + "\n");
   } else {
-    print(analysis_text(*chain, analysis) + (variation ? variation_text(*variation) : std::string()));
+    const auto checks = analysis_checks(*spec, analysis.outputs.back(), total_gm(*chain));
+    print(analysis_text(*chain, analysis) + checks_text(checks) + (variation ? variation_text(*variation) : std::string()));
   }
   return ok;
 }
