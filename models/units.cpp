@@ -5,6 +5,7 @@
 #include <charconv>
 #include <cmath>
 #include <cstdio>
+#include <fmt/format.h>
 #include <vector>
 
 namespace peakplan {
@@ -145,14 +146,22 @@ ParsedQuantity parse_quantity(std::string_view text, Dimension expected) {
   const auto unit = trim(std::string_view(end, static_cast<size_t>(last - end)));
   if (unit.empty()) return {from_plain_number(number, expected), {}};
 
+  // A prefix alone, as SPICE writes it ("20 f", "30 m"): the value with the prefix and the unit.
+  const auto symbol = unit_symbol(expected);
+  const bool scalable = !symbol.empty() && expected != Dimension::decibels && expected != Dimension::fraction &&
+                        expected != Dimension::temperature;
+  const std::string hint = unit.size() == 1 && std::string_view("afpnumkMGT").find(unit[0]) != std::string_view::npos &&
+                                   scalable
+                               ? fmt::format("; did you mean \"{} {}{}\"?", std::string_view(first, end), unit, symbol)
+                               : std::string();
   const auto matched = match_unit(unit);
   if (!matched)
     return {std::nullopt, "unknown unit \"" + std::string(unit) + "\" in \"" + std::string(text) +
-                              "\"; expected " + describe(expected)};
+                              "\"; expected " + describe(expected) + hint};
   const auto [factor, dimension] = *matched;
   if (dimension != expected)
     return {std::nullopt, "expected " + describe(expected) + ", saw \"" + std::string(text) +
-                              "\", which is " + describe(dimension).substr(0, describe(dimension).find(" (")) };
+                              "\", which is " + describe(dimension).substr(0, describe(dimension).find(" (")) + hint};
   switch (dimension) {
     case Dimension::decibels: return {number, {}};
     case Dimension::fraction: return {number / 100.0, {}};

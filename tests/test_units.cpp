@@ -37,6 +37,19 @@ TEST_CASE("units: a unit that does not fit the key is an error naming both") {
   CHECK_FALSE(parse_quantity("40 ms", Dimension::conductance).value);
 }
 
+TEST_CASE("units: a prefix alone, as SPICE writes it, is an error that suggests the prefixed unit") {
+  const auto f = parse_quantity("20 f", Dimension::capacitance);
+  CHECK_FALSE(f.value);
+  CHECK(f.error.find("did you mean \"20 fF\"?") != std::string::npos);
+  // "m" is a unit of its own (metres): still an error for a gm, with the same suggestion.
+  const auto m = parse_quantity("30 m", Dimension::conductance);
+  CHECK_FALSE(m.value);
+  CHECK(m.error.find("which is a length; did you mean \"30 mS\"?") != std::string::npos);
+  // No suggestion where a prefix makes no sense (dB, %, a plain number) or the unit is a word.
+  CHECK(parse_quantity("3 k", Dimension::decibels).error.find("did you mean") == std::string::npos);
+  CHECK(parse_quantity("12 furlongs", Dimension::capacitance).error.find("did you mean") == std::string::npos);
+}
+
 TEST_CASE("units: engineering notation") {
   CHECK(peakplan::format_si(45e-15, "F") == "45.0 fF");
   CHECK(peakplan::format_si(4.1e10, "Hz") == "41.0 GHz");
