@@ -3,8 +3,8 @@
 #include <algorithm>
 #include <chrono>
 #include <cmath>
-#include <numbers>
 #include <fmt/format.h>
+#include <numbers>
 
 #include "models/receiver.hpp"
 #include "models/units.hpp"

@@ -49,7 +49,8 @@ int run_analyze(const AnalyzeArgs& args) {
     print(doc.dump(2) + "\n");
   } else {
     const auto checks = analysis_checks(*spec, analysis.outputs.back(), total_gm(*chain));
-    print(analysis_text(*chain, analysis) + checks_text(checks) + (variation ? variation_text(*variation) : std::string()));
+    print(analysis_text(*chain, analysis) + checks_text(checks) +
+          (variation ? variation_text(*variation) : std::string()));
   }
   return ok;
 }

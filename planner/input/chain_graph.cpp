@@ -394,8 +394,8 @@ void check_design_loads(const ChainSpec& spec, const std::vector<GraphStage>& gr
 }
 
 // A stage whose own circuit has a pole in the right half-plane (a shunt-feedback tia of two or
-// three cells with too much loop gain; a larger rf lowers the input pole, which steadies the loop) has no response to plan with: every figure of it would be
-// a number from a growing waveform.
+// three cells with too much loop gain; a larger rf lowers the input pole, which steadies the
+// loop) has no response to plan with: every figure of it would come from a growing waveform.
 void check_stability(const ChainSpec& spec, const std::vector<GraphStage>& graph, const Chain& chain,
                      Diagnostics& diagnostics) {
   for (size_t i = 0; i < chain.stages.size(); ++i) {
@@ -409,7 +409,8 @@ void check_stability(const ChainSpec& spec, const std::vector<GraphStage>& graph
                                   "half-plane at {}{}; expected a stable stage{}",
                                   s.id, format_si(std::abs(*unstable) / (2.0 * std::numbers::pi), "Hz", 3),
                                   unstable->imag() != 0.0 ? " (an oscillation)" : "",
-                                  rf ? ": fewer core_stages, less gain per cell (gm rd), a larger rf or a cf across it" : ""));
+                                  rf ? ": fewer core_stages, less gain per cell (gm rd), a larger rf or a cf across it"
+                                     : ""));
   }
 }
 
